@@ -1,0 +1,5 @@
+import sys
+
+from netdim.cli import main
+
+sys.exit(main())

@@ -1,0 +1,195 @@
+"""The result every evaluation method returns."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+__all__ = ["Evaluation"]
+
+
+def _frozen(a, dtype=float):
+    a = np.array(a, dtype=dtype)
+    a.setflags(write=False)
+    return a
+
+
+@dataclass(frozen=True)
+class Evaluation:
+    """End-to-end blocking of every demand and the state of every link.
+
+    Arrays are read-only and in the network's demand or link order. Link loads are in
+    capacity units (erlangs times bandwidth), so that ``utilisation = link_carried /
+    capacity`` also holds on multi-rate links.
+
+    Attributes
+    ----------
+    method : str
+        ``'fixed-point'``, ``'conservative'``, ``'exact'`` or ``'simulate'``.
+    demand_ids : tuple of str
+    offered : ndarray
+        Offered traffic per demand, erlangs.
+    blocking : ndarray
+        End-to-end blocking probability per demand (call congestion).
+    target : ndarray
+        Blocking target per demand.
+    link_ids : tuple of str
+    capacity : ndarray of int
+    link_offered : ndarray
+        Load offered to each link (thinned by the other links of each route, except under
+        the conservative method), capacity units.
+    link_carried : ndarray
+        Load carried by each link, capacity units.
+    link_blocking : ndarray
+        Blocking a first-choice call meets on the link (for multi-rate links: of the
+        bandwidth-weighted first-choice load).
+    link_blocking_alternate : ndarray
+        Blocking an alternate-route (overflow) call meets on the link, given reservation;
+        equal to ``link_blocking`` under fixed routing.
+    iterations : int
+    residual : float
+        Largest change at the last iteration (fixed point), balance residual (exact), or 0.
+    status : str
+        ``'converged'``, ``'exact'``, ``'simulated'`` or ``'bistable'``.
+    message : str
+    warnings : tuple of str
+    blocking_interval : ndarray or None, shape (n_demands, 2)
+        Confidence interval of ``blocking`` (simulation only).
+    link_blocking_interval : ndarray or None, shape (n_links, 2)
+    confidence : float or None
+        Level of the intervals, e.g. 0.95.
+    alternative : Evaluation or None
+        A second solution of the fixed-point equations when they have more than one.
+    details : dict
+        Method-specific extra figures (e.g. calls simulated, states enumerated).
+    """
+
+    method: str
+    demand_ids: tuple
+    offered: np.ndarray
+    blocking: np.ndarray
+    target: np.ndarray
+    link_ids: tuple
+    capacity: np.ndarray
+    link_offered: np.ndarray
+    link_carried: np.ndarray
+    link_blocking: np.ndarray
+    link_blocking_alternate: np.ndarray
+    iterations: int = 0
+    residual: float = 0.0
+    status: str = "converged"
+    message: str = ""
+    warnings: tuple = ()
+    blocking_interval: np.ndarray | None = None
+    link_blocking_interval: np.ndarray | None = None
+    confidence: float | None = None
+    alternative: Evaluation | None = None
+    details: dict = field(default_factory=dict, compare=False)
+
+    def __post_init__(self):
+        for name in ("offered", "blocking", "target", "link_offered", "link_carried",
+                     "link_blocking", "link_blocking_alternate"):
+            object.__setattr__(self, name, _frozen(getattr(self, name)))
+        object.__setattr__(self, "capacity", _frozen(self.capacity, np.int64))
+        for name in ("blocking_interval", "link_blocking_interval"):
+            if getattr(self, name) is not None:
+                object.__setattr__(self, name, _frozen(getattr(self, name)))
+        object.__setattr__(self, "demand_ids", tuple(self.demand_ids))
+        object.__setattr__(self, "link_ids", tuple(self.link_ids))
+        object.__setattr__(self, "warnings", tuple(self.warnings))
+        bad = ~np.isfinite(self.blocking)
+        if bad.any():
+            i = int(np.flatnonzero(bad)[0])
+            raise ValueError(f"evaluation: blocking of demand '{self.demand_ids[i]}' is not finite")
+
+    # -- derived figures --------------------------------------------------------------------
+    @property
+    def carried(self) -> np.ndarray:
+        """Carried traffic per demand, erlangs."""
+        return self.offered * (1.0 - self.blocking)
+
+    @property
+    def met(self) -> np.ndarray:
+        """Boolean per demand: blocking within target."""
+        return self.blocking <= self.target * (1 + 1e-9)
+
+    @property
+    def all_met(self) -> bool:
+        return bool(self.met.all())
+
+    @property
+    def unmet(self) -> tuple:
+        """Ids of the demands whose blocking exceeds their target."""
+        return tuple(i for i, ok in zip(self.demand_ids, self.met, strict=True) if not ok)
+
+    @property
+    def utilisation(self) -> np.ndarray:
+        """Carried load over capacity per link (0 where capacity is 0)."""
+        cap = self.capacity.astype(float)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            u = np.where(cap > 0, self.link_carried / np.where(cap > 0, cap, 1.0), 0.0)
+        return u
+
+    # -- output -----------------------------------------------------------------------------
+    def demand_records(self) -> list[dict]:
+        out = []
+        for i, did in enumerate(self.demand_ids):
+            rec = {
+                "id": did,
+                "offered": float(self.offered[i]),
+                "carried": float(self.carried[i]),
+                "blocking": float(self.blocking[i]),
+                "target": float(self.target[i]),
+                "met": bool(self.met[i]),
+            }
+            if self.blocking_interval is not None:
+                rec["blocking_interval"] = [float(v) for v in self.blocking_interval[i]]
+            out.append(rec)
+        return out
+
+    def link_records(self) -> list[dict]:
+        out = []
+        util = self.utilisation
+        for j, lid in enumerate(self.link_ids):
+            rec = {
+                "id": lid,
+                "capacity": int(self.capacity[j]),
+                "offered": float(self.link_offered[j]),
+                "carried": float(self.link_carried[j]),
+                "blocking": float(self.link_blocking[j]),
+                "blocking_alternate": float(self.link_blocking_alternate[j]),
+                "utilisation": float(util[j]),
+            }
+            if self.link_blocking_interval is not None:
+                rec["blocking_interval"] = [float(v) for v in self.link_blocking_interval[j]]
+            out.append(rec)
+        return out
+
+    def to_dict(self) -> dict:
+        """The JSON form (the ``--json`` contract: keys are added, never renamed)."""
+        d = {
+            "demands": self.demand_records(),
+            "links": self.link_records(),
+            "method": self.method,
+            "iterations": int(self.iterations),
+            "residual": float(self.residual),
+            "warnings": list(self.warnings),
+            "status": self.status,
+            "message": self.message,
+            "all_met": self.all_met,
+        }
+        if self.confidence is not None:
+            d["confidence"] = self.confidence
+        if self.alternative is not None:
+            d["alternative"] = {
+                "demands": self.alternative.demand_records(),
+                "links": self.alternative.link_records(),
+            }
+        if self.details:
+            d["details"] = {k: v for k, v in self.details.items() if _jsonable(v)}
+        return d
+
+
+def _jsonable(v) -> bool:
+    return isinstance(v, (int, float, str, bool, list, type(None)))

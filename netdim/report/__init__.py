@@ -1,0 +1,1 @@
+"""Reports: text tables, JSON, CSV."""
