@@ -11,8 +11,10 @@ from netdim.errors import (
     NetdimError,
     NetworkFileError,
 )
+from netdim.dimension import Plan, dimension
 from netdim.evaluate import METHODS, Evaluation, evaluate
 from netdim.model import Demand, Link, Network, Route, Routing, Site
+from netdim.netfile import read_network, write_network
 
 __version__ = "0.1.0"
 
@@ -30,6 +32,10 @@ __all__ = [
     "Routing",
     "Network",
     "evaluate",
+    "dimension",
+    "Plan",
     "Evaluation",
     "METHODS",
+    "read_network",
+    "write_network",
 ]

@@ -80,7 +80,7 @@ class Link:
     installed: int = 0
     length: float | None = None
     reservation: int | None = None
-    line: int | None = None
+    line: int | None = field(default=None, compare=False)
 
 
 @dataclass(frozen=True)
@@ -130,7 +130,10 @@ class Demand:
     value : float or None
         Value per carried erlang (economic sizing); None when the demand has a target only.
     line : int or None
-        Line of the network file (for messages).
+        Line of the network file (for messages; not compared).
+    routes_generated : bool
+        True when the routes were generated from the topology rather than given in the file
+        (not compared).
     """
 
     id: str
@@ -141,7 +144,8 @@ class Demand:
     target: float = 0.01
     routes: tuple[Route, ...] = ()
     value: float | None = None
-    line: int | None = None
+    line: int | None = field(default=None, compare=False)
+    routes_generated: bool = field(default=False, compare=False)
 
     @property
     def rate(self) -> float:
@@ -183,7 +187,9 @@ class Network:
     routing : Routing
     default_target : float
     source : str or None
-        Path of the file it was read from, for messages.
+        Path of the file it was read from, for messages (not compared).
+    default_holding : float
+        Holding time (hours) of demands that give none (the file's ``defaults.holding``).
     extra : dict
         Top-level fields of the file that netdim keeps but does not interpret.
     """
@@ -194,7 +200,8 @@ class Network:
     demands: tuple[Demand, ...]
     routing: Routing = field(default_factory=Routing)
     default_target: float = 0.01
-    source: str | None = None
+    source: str | None = field(default=None, compare=False)
+    default_holding: float = 1.0
     extra: dict = field(default_factory=dict, compare=False, hash=False)
 
     # -- look-ups ---------------------------------------------------------------------------

@@ -35,15 +35,17 @@ def resolve_capacities(network, capacities=None) -> np.ndarray:
     if caps.dtype.kind == "f":
         if not np.all(np.isfinite(caps)) or np.any(caps != np.round(caps)):
             j = int(np.flatnonzero(~np.isfinite(caps) | (caps != np.round(caps)))[0])
-            raise ValueError(
-                f"capacities: link '{network.links[j].id}' has non-integer capacity {float(caps[j])!r}"
-            )
+            lid = network.links[j].id
+            bad = float(caps[j])
+            raise ValueError(f"capacities: link '{lid}' has non-integer capacity {bad!r}")
     elif caps.dtype.kind not in "iub":
         raise ValueError(f"capacities: expected integers, got dtype {caps.dtype}")
     caps = caps.astype(np.int64)
     if np.any(caps < 0):
         j = int(np.flatnonzero(caps < 0)[0])
-        raise ValueError(f"capacities: link '{network.links[j].id}' has negative capacity {int(caps[j])}")
+        raise ValueError(
+            f"capacities: link '{network.links[j].id}' has negative capacity {int(caps[j])}"
+        )
     return caps
 
 

@@ -1,0 +1,155 @@
+"""``netdim erlang``: Erlang's loss formula for one trunk group; two quantities give the third."""
+
+from __future__ import annotations
+
+import json
+import math
+
+from netdim.report.text import fmt_prob, format_table
+
+__all__ = ["register", "run", "parse_values"]
+
+_MAX_ROWS = 10000
+
+
+def register(subparsers):
+    p = subparsers.add_parser(
+        "erlang",
+        help="blocking, circuits or traffic of one trunk group (Erlang's loss formula)",
+        description="Give any two of traffic, servers and target to get the third: traffic and "
+        "servers give the blocking; traffic and target the fewest servers meeting it; servers "
+        "and target the most traffic they carry within it. One option may be a range "
+        "START:STOP:STEP (both ends included), which prints a table.",
+    )
+    p.add_argument("--traffic", metavar="E", help="offered traffic in erlangs (or a range)")
+    p.add_argument("--rate", metavar="R",
+                   help="arrival rate in calls per hour (or a range); needs --holding")
+    p.add_argument("--holding", metavar="H", type=float,
+                   help="mean holding time in hours (with --rate)")
+    p.add_argument("--servers", metavar="N", help="number of servers (circuits), or a range")
+    p.add_argument("--target", metavar="P",
+                   help="blocking target in (0, 1), e.g. 0.01 (or a range)")
+    p.add_argument("--json", action="store_true", help="print JSON instead of a table")
+    p.set_defaults(func=run)
+    return p
+
+
+def parse_values(option, text):
+    """A number, or START:STOP:STEP (both ends included), as a list of floats."""
+    parts = text.split(":")
+    try:
+        nums = [float(x) for x in parts]
+    except ValueError:
+        raise ValueError(
+            f"{option}: expected a number or START:STOP:STEP, got {text!r}"
+        ) from None
+    if any(not math.isfinite(x) for x in nums):
+        raise ValueError(f"{option}: values must be finite, got {text!r}")
+    if len(nums) == 1:
+        return nums, False
+    if len(nums) != 3:
+        raise ValueError(f"{option}: a range is START:STOP:STEP, got {text!r}")
+    start, stop, step = nums
+    if not step > 0:
+        raise ValueError(f"{option}: range step must be > 0, got {step!r}")
+    if stop < start:
+        raise ValueError(f"{option}: range stop {stop!r} is below its start {start!r}")
+    count = math.floor((stop - start) / step + 1e-9) + 1
+    if count > _MAX_ROWS:
+        raise ValueError(f"{option}: range has {count} values, at most {_MAX_ROWS} allowed")
+    return [start + i * step for i in range(count)], True
+
+
+def _fmt(x):
+    return f"{int(x)}" if float(x).is_integer() and abs(x) < 1e15 else f"{x:.6g}"
+
+
+def _traffic_values(args):
+    if args.traffic is not None and args.rate is not None:
+        raise ValueError("--traffic and --rate: give one or the other")
+    if args.rate is not None:
+        if args.holding is None:
+            raise ValueError("--rate: needs --holding (mean holding time in hours)")
+        if not args.holding > 0 or not math.isfinite(args.holding):
+            raise ValueError(f"--holding: must be > 0 hours, got {args.holding!r}")
+        rates, is_range = parse_values("--rate", args.rate)
+        if any(r < 0 for r in rates):
+            raise ValueError(f"--rate: must be >= 0, got {min(rates)!r}")
+        return [r * args.holding for r in rates], is_range
+    if args.holding is not None:
+        raise ValueError("--holding: only used with --rate")
+    if args.traffic is None:
+        return None, False
+    return parse_values("--traffic", args.traffic)
+
+
+def run(args) -> int:
+    from netdim.erlang import erlang_b, servers_for, traffic_for
+
+    traffic, t_range = _traffic_values(args)
+    servers, s_range = (
+        parse_values("--servers", args.servers) if args.servers is not None else (None, False)
+    )
+    target, p_range = (
+        parse_values("--target", args.target) if args.target is not None else (None, False)
+    )
+    given = [x is not None for x in (traffic, servers, target)]
+    if sum(given) != 2:
+        raise ValueError(
+            "erlang: give exactly two of --traffic (or --rate with --holding), --servers and "
+            "--target"
+        )
+    if t_range + s_range + p_range > 1:
+        raise ValueError("erlang: only one of the options may be a range")
+    # validate every value before any work (the library names the argument and the value)
+    for name, vals in (("traffic", traffic), ("servers", servers)):
+        for v in vals or ():
+            if v < 0:
+                raise ValueError(f"--{name}: must be >= 0, got {v!r}")
+    for v in target or ():
+        if not 0 < v < 1:
+            raise ValueError(f"--target: must be in (0, 1), got {v!r}")
+
+    rows = []
+    if target is None:
+        for a in traffic:
+            for n in servers:
+                rows.append({"traffic": a, "servers": n, "blocking": erlang_b(a, n)})
+    elif servers is None:
+        for a in traffic:
+            for p in target:
+                n = servers_for(a, p)
+                rows.append(
+                    {"traffic": a, "servers": n, "blocking": erlang_b(a, n), "target": p}
+                )
+    else:
+        for n in servers:
+            for p in target:
+                a = traffic_for(n, p)
+                rows.append(
+                    {"traffic": a, "servers": n, "blocking": erlang_b(a, n), "target": p}
+                )
+    for r in rows:
+        if isinstance(r["servers"], float) and r["servers"].is_integer():
+            r["servers"] = int(r["servers"])
+
+    table = t_range or s_range or p_range
+    if args.json:
+        print(json.dumps(rows if table else rows[0]))
+        return 0
+    headers = ["traffic (E)", "servers", "blocking"]
+    solving = target is not None
+    if solving:
+        headers.append("target")
+    body = []
+    for r in rows:
+        row = [
+            f"{r['traffic']:.4f}" if solving and servers is not None else _fmt(r["traffic"]),
+            _fmt(r["servers"]),
+            fmt_prob(r["blocking"]),
+        ]
+        if solving:
+            row.append(_fmt(r["target"]))
+        body.append(row)
+    print(format_table(headers, body, align="r" * len(headers)))
+    return 0

@@ -1,0 +1,52 @@
+"""The simple baseline every plan is compared with: each link sized alone.
+
+Every link is given the fewest modules such that Erlang B at its un-thinned load (all the
+first-route traffic over it) is at most the strictest ``target / hops`` of the demands whose
+first route uses it. Splitting a target evenly over the hops is the old rule of thumb for a
+tandem connection (common practice, no source); it ignores that links are shared and that
+loads are thinned, which is what the least-cost sizer exploits.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from netdim.dimension.space import LinkSpace, first_route_loads
+
+__all__ = ["baseline"]
+
+
+def baseline(network, space: LinkSpace | None = None):
+    """Capacities and cost of the per-link baseline.
+
+    Parameters
+    ----------
+    network : Network
+    space : LinkSpace, optional
+
+    Returns
+    -------
+    capacities : ndarray of int
+    cost : float
+    """
+    from netdim.erlang import servers_for
+
+    space = LinkSpace.of(network) if space is None else space
+    nl = space.n_links
+    loads = first_route_loads(network)
+    share = np.full(nl, np.inf)
+    bw = np.zeros(nl, np.int64)
+    for d in network.demands:
+        if not d.routes:
+            continue
+        r = d.routes[0]
+        for j in r.links:
+            share[j] = min(share[j], d.target / r.hops)
+            bw[j] = max(bw[j], d.bandwidth)
+    need = np.zeros(nl, np.int64)
+    used = np.flatnonzero(np.isfinite(share))
+    if len(used):
+        n = np.asarray(servers_for(loads[used], share[used]), dtype=np.int64)
+        need[used] = np.maximum(n, bw[used])
+    k = np.minimum(space.modules_for(need), space.kmax)
+    return space.capacity(k), space.cost(k)

@@ -1,0 +1,434 @@
+"""Exact blocking of small networks: product form, or the Markov chain of calls in progress.
+
+Two solvers share one state space, the numbers of calls in progress:
+
+* **product form** (fixed routing, every route holding all its links for the same time): the
+  stationary distribution of a loss network is proportional to ``prod_d rho_d^n_d / n_d!``
+  over the states that fit every link (Kelly 1979, ch. 8; Kelly 1991), whatever the law of
+  the holding times;
+* **Markov chain** (alternate routing with trunk reservation, or per-link holding times):
+  a continuous-time Markov chain over calls in progress per (demand, route, holding phase),
+  with exponential holding times, solved from its global balance equations.
+
+A *holding phase* is needed only when a route's links carry different holding times: the
+links of a route that share the same mean holding time are released together, links with
+different means independently, each group after its own exponential time. The phase of a call
+is the set of groups it still holds.
+
+The state count is estimated before anything is built; above ``max_states`` the method
+refuses with :class:`~netdim.errors.ModelTooLargeError`.
+"""
+
+from __future__ import annotations
+
+import warnings as _warnings
+
+import numpy as np
+from scipy import sparse
+from scipy.sparse.linalg import spsolve
+from scipy.special import gammaln, logsumexp
+
+from netdim.errors import ConvergenceError, ModelTooLargeError
+from netdim.evaluate.result import Evaluation
+
+__all__ = ["exact", "count_states", "route_groups"]
+
+#: Balance residual (relative) above which the exact result carries a warning.
+RESIDUAL_WARN = 1e-9
+#: Balance residual (relative) above which the exact method raises ConvergenceError.
+RESIDUAL_FAIL = 1e-5
+
+
+def route_groups(route) -> list[tuple[float, tuple[int, ...]]]:
+    """Group a route's links by holding time: ``[(holding, (link, ...)), ...]``.
+
+    Links of the route with the same mean holding time are released together (one call on a
+    telephone route frees every circuit at once); links with different means are released
+    independently. Groups are in order of first appearance along the route.
+    """
+    groups: dict[float, list[int]] = {}
+    for j, h in zip(route.links, route.holdings, strict=True):
+        groups.setdefault(float(h), []).append(int(j))
+    return [(h, tuple(links)) for h, links in groups.items()]
+
+
+class _Space:
+    """The variables of the state space: one per (demand, route, phase)."""
+
+    def __init__(self, network, caps, product_form):
+        self.network = network
+        self.caps = np.asarray(caps, dtype=np.int64)
+        n_links = len(network.links)
+        alternate = network.routing.policy == "alternate"
+        self.routes = []  # per demand: list of (route, groups, {phase mask: var})
+        usage, ub, var_route = [], [], []
+        for d_idx, d in enumerate(network.demands):
+            used = d.routes if alternate else d.routes[:1]
+            per_demand = []
+            for k, route in enumerate(used):
+                groups = route_groups(route)
+                if product_form:
+                    groups = [(groups[0][0], tuple(int(j) for j in route.links))]
+                n_g = len(groups)
+                phases = {}
+                for mask in range(1, 1 << n_g):
+                    u = np.zeros(n_links, dtype=np.int64)
+                    for g in range(n_g):
+                        if mask >> g & 1:
+                            u[list(groups[g][1])] += d.bandwidth
+                    held = u > 0
+                    bound = int(np.min(self.caps[held] // u[held])) if d.traffic > 0 else 0
+                    phases[mask] = len(usage)
+                    usage.append(u)
+                    ub.append(bound)
+                    var_route.append((d_idx, k, mask))
+                per_demand.append((route, groups, phases))
+            self.routes.append(per_demand)
+        self.usage = np.array(usage, dtype=np.int64).reshape(len(usage), n_links)
+        self.ub = np.array(ub, dtype=np.int64)
+        self.var_route = var_route
+
+    @property
+    def n_vars(self) -> int:
+        return len(self.ub)
+
+
+def _expand(usage, caps, ub, limit, rng=None):
+    """All count vectors ``n >= 0`` with ``n @ usage <= caps`` (and ``n <= ub``).
+
+    Returns the states (int array, one row per state), or, when the count would pass
+    ``limit``, ``(None, estimate)`` where the estimate comes from finishing the enumeration
+    on a weighted random sample of the partial states (Knuth's estimator of a tree's size).
+    """
+    n_vars, n_links = usage.shape
+    states = np.zeros((1, 0), dtype=np.int32)
+    free = caps[None, :].copy()
+    weights = None  # None: exact mode; array: estimation mode
+    for v in range(n_vars):
+        u = usage[v]
+        held = np.flatnonzero(u > 0)
+        if len(held):
+            most = np.min(free[:, held] // u[held], axis=1)
+        else:
+            most = np.full(len(free), 0)
+        most = np.minimum(most, ub[v])
+        counts = most + 1
+        if weights is None and int(counts.sum()) > limit:
+            weights = np.ones(len(free))
+            rng = np.random.default_rng(12345) if rng is None else rng
+        rep = np.repeat(np.arange(len(free)), counts)
+        starts = np.repeat(np.cumsum(counts) - counts, counts)
+        vals = (np.arange(len(rep)) - starts).astype(np.int64)
+        if weights is not None:
+            w = weights[rep]
+            keep = 4096
+            if len(rep) > keep:
+                pick = rng.choice(len(rep), size=keep, p=w / w.sum())
+                total = w.sum()
+                rep, vals = rep[pick], vals[pick]
+                w = np.full(keep, total / keep)
+            weights = w
+            free = free[rep] - vals[:, None] * u[None, :]
+            continue
+        states = np.concatenate([states[rep], vals[:, None].astype(np.int32)], axis=1)
+        free = free[rep] - vals[:, None] * u[None, :]
+    if weights is not None:
+        return None, float(weights.sum())
+    return states, len(states)
+
+
+def count_states(network, capacities=None, limit=10**7) -> int:
+    """Number of states the exact method would use (an estimate when above ``limit``)."""
+    from netdim.evaluate import resolve_capacities
+
+    caps = resolve_capacities(network, capacities)
+    space = _Space(network, caps, _product_form_applies(network))
+    states, n = _expand(space.usage, caps, space.ub, limit)
+    return int(round(n))
+
+
+def _product_form_applies(network) -> bool:
+    alternate = network.routing.policy == "alternate"
+    for d in network.demands:
+        if alternate and len(d.routes) > 1:
+            return False
+        if d.routes and len(set(d.routes[0].holdings)) > 1:
+            return False
+    return True
+
+
+def _encode(states, ub):
+    """Integer key per state (mixed radix); None when the keys would overflow int64."""
+    radix = [int(b) + 1 for b in ub]
+    total = 1
+    strides = []
+    for r in radix:
+        strides.append(total)
+        total *= r
+    if total >= 2**62:
+        return None, None
+    strides = np.array(strides, dtype=np.int64)
+    return states.astype(np.int64) @ strides, strides
+
+
+def _generator(space, states, keys, strides):
+    """Sparse generator matrix Q (rates per hour) of the chain over ``states``."""
+    net = space.network
+    order = np.argsort(keys)
+    sorted_keys = keys[order]
+
+    def find(k):
+        pos = np.searchsorted(sorted_keys, k)
+        pos = np.minimum(pos, len(sorted_keys) - 1)
+        if np.any(sorted_keys[pos] != k):
+            raise AssertionError("exact: transition leaves the state space")
+        return order[pos]
+
+    n = len(states)
+    free = space.caps[None, :] - states.astype(np.int64) @ space.usage
+    res = net.reservations()
+    rows, cols, vals = [], [], []
+    idx = np.arange(n)
+    for d_idx, d in enumerate(net.demands):
+        lam = d.rate
+        if lam <= 0:
+            continue
+        refused = np.ones(n, dtype=bool)
+        for k, (route, groups, phases) in enumerate(space.routes[d_idx]):
+            ok = _admits(free, route, d.bandwidth, res, k)
+            take = refused & ok
+            refused &= ~ok
+            v = phases[(1 << len(groups)) - 1]
+            src = idx[take]
+            rows.append(src)
+            cols.append(find(keys[src] + strides[v]))
+            vals.append(np.full(len(src), lam))
+    for v, (d_idx, k, mask) in enumerate(space.var_route):
+        busy = np.flatnonzero(states[:, v] > 0)
+        if len(busy) == 0:
+            continue
+        _, groups, phases = space.routes[d_idx][k]
+        for g, (h, _) in enumerate(groups):
+            if not mask >> g & 1:
+                continue
+            rest = mask & ~(1 << g)
+            target = keys[busy] - strides[v] + (strides[phases[rest]] if rest else 0)
+            rows.append(busy)
+            cols.append(find(target))
+            vals.append(states[busy, v] / h)
+    rows = np.concatenate(rows) if rows else np.zeros(0, dtype=np.int64)
+    cols = np.concatenate(cols) if cols else np.zeros(0, dtype=np.int64)
+    vals = np.concatenate(vals) if vals else np.zeros(0)
+    out = np.bincount(rows, weights=vals, minlength=n)
+    q = sparse.coo_matrix(
+        (np.concatenate([vals, -out]), (np.concatenate([rows, idx]), np.concatenate([cols, idx]))),
+        shape=(n, n),
+    ).tocsr()
+    return q, out
+
+
+def _admits(free, route, bandwidth, res, rank):
+    """Boolean per state: route ``rank`` of a demand admits one more call."""
+    links = list(route.links)
+    if rank == 0:
+        return np.all(free[:, links] >= bandwidth, axis=1)
+    return np.all(free[:, links] - bandwidth >= res[links], axis=1)
+
+
+def _solve_chain(q, out):
+    """Stationary distribution from global balance ``pi Q = 0``, ``sum(pi) = 1``."""
+    n = q.shape[0]
+    a = q.T.tolil()
+    a[0, :] = np.ones(n)
+    b = np.zeros(n)
+    b[0] = 1.0
+    pi = spsolve(a.tocsc(), b)
+    if not np.all(np.isfinite(pi)):
+        raise ConvergenceError(
+            "exact: the balance equations could not be solved (singular system); "
+            "use method 'simulate'"
+        )
+    pi = np.clip(pi, 0.0, None)
+    pi /= pi.sum()
+    flow = np.abs(q.T @ pi).sum()
+    scale = float((pi * out).sum()) or 1.0
+    return pi, float(flow / scale)
+
+
+def exact(network, capacities=None, max_states: int = 200_000, solver: str = "auto") -> Evaluation:
+    """Exact end-to-end blocking of a small network.
+
+    Parameters
+    ----------
+    network : Network
+    capacities : array_like of int, optional
+        One per link; default: the network's capacities.
+    max_states : int
+        Largest state space the method will build.
+    solver : {'auto', 'product', 'markov'}
+        ``auto``: the product form where it applies (fixed routing, each route holding all
+        its links equally long), else the Markov chain. ``markov`` forces the chain (used to
+        check one against the other); ``product`` raises ValueError where it does not apply.
+
+    Returns
+    -------
+    Evaluation
+        ``method='exact'``, ``status='exact'``; ``residual`` is the relative balance residual
+        ``sum|pi Q| / sum(pi |q_ii|)`` of the chain (0 for the product form);
+        ``details`` gives ``states`` and ``solver``. Link figures, in capacity units
+        (erlangs x bandwidth), weighting each route step by ``rate x holding on the link x
+        bandwidth``:
+
+        * ``link_offered``: load of the route attempts for which every *other* link of the
+          route has room (the reduced load of the fixed point);
+        * ``link_carried``: time-average number of units busy;
+        * ``link_blocking``: share of the first-choice attempts that find the link without
+          room (fewer than ``bandwidth`` free units); time congestion for one unit where no
+          first-choice route uses the link;
+        * ``link_blocking_alternate``: the same for alternate-route attempts, with the
+          reservation (``free - bandwidth < reservation``); equal to ``link_blocking`` under
+          fixed routing.
+
+    Raises
+    ------
+    ModelTooLargeError
+        More than ``max_states`` states.
+    ConvergenceError
+        The balance equations could not be solved accurately.
+    ValueError
+        Bad arguments.
+
+    Notes
+    -----
+    Blocking is call congestion; with Poisson arrivals it equals the probability of the states
+    in which no route admits a call (arrivals see time averages). The Markov chain uses
+    exponential holding times; under fixed routing with equal holdings the product form makes
+    the answer hold for any holding-time law.
+
+    References
+    ----------
+    F. P. Kelly, *Reversibility and Stochastic Networks*, Wiley 1979, ch. 8.
+    F. P. Kelly, "Loss networks", *Ann. Appl. Probab.* 1 (1991) 319-378.
+    J. S. Kaufman, "Blocking in a shared resource environment", *IEEE Trans. Commun.* 29 (1981).
+    """
+    from netdim.evaluate import resolve_capacities
+
+    if solver not in ("auto", "product", "markov"):
+        raise ValueError(f"solver: unknown solver {solver!r}; choose one of auto, product, markov")
+    if not isinstance(max_states, (int, np.integer)) or max_states < 1:
+        raise ValueError(f"max_states: must be a positive integer, got {max_states!r}")
+    caps = resolve_capacities(network, capacities)
+    product = _product_form_applies(network)
+    if solver == "product" and not product:
+        raise ValueError(
+            "solver: the product form needs fixed routing and equal holding times along each "
+            "route; use solver 'markov'"
+        )
+    if solver == "markov":
+        product = False
+    space = _Space(network, caps, product)
+    states, count = _expand(space.usage, caps, space.ub, int(max_states))
+    if states is None:
+        raise ModelTooLargeError(
+            f"exact: network '{network.name}' has about {count:.3g} states, more than the "
+            f"limit {max_states}; use method 'simulate' (or raise max_states)"
+        )
+    warns = []
+    residual = 0.0
+    if product:
+        rho = np.array(
+            [
+                d.rate * d.routes[0].holdings[0] if d.routes else 0.0
+                for d in network.demands
+            ]
+        )
+        rho_v = np.array([rho[d] for d, _, _ in space.var_route])
+        with np.errstate(divide="ignore"):
+            log_rho = np.where(rho_v > 0, np.log(np.where(rho_v > 0, rho_v, 1.0)), 0.0)
+        logw = states @ log_rho - gammaln(states + 1.0).sum(axis=1)
+        pi = np.exp(logw - logsumexp(logw))
+        name = "product-form"
+    else:
+        keys, strides = _encode(states, space.ub)
+        if keys is None:
+            raise ModelTooLargeError(
+                f"exact: network '{network.name}' has too many call types ({space.n_vars}) "
+                "for the Markov chain; use method 'simulate'"
+            )
+        q, out = _generator(space, states, keys, strides)
+        pi, residual = _solve_chain(q, out)
+        name = "markov-chain"
+        if residual > RESIDUAL_FAIL:
+            raise ConvergenceError(
+                f"exact: balance residual {residual:.2e} after a direct solve of {len(pi)} "
+                "states; use method 'simulate'",
+                iterations=1,
+                residual=residual,
+            )
+        if residual > RESIDUAL_WARN:
+            msg = f"exact: balance residual {residual:.2e} is larger than expected"
+            warns.append(msg)
+            _warnings.warn(msg, RuntimeWarning, stacklevel=2)
+    return _measure(network, caps, space, states, pi, residual, name, warns)
+
+
+def _measure(network, caps, space, states, pi, residual, solver, warns) -> Evaluation:
+    """Blocking and link figures from a distribution ``pi`` over ``states``."""
+    n_links = len(network.links)
+    occ = states.astype(np.int64) @ space.usage
+    free = caps[None, :] - occ
+    res = network.reservations()
+    alternate = network.routing.policy == "alternate"
+    blocking = np.ones(len(network.demands))
+    fc_att, fc_blk = np.zeros(n_links), np.zeros(n_links)
+    alt_att, alt_blk = np.zeros(n_links), np.zeros(n_links)
+    offered = np.zeros(n_links)
+    for d_idx, d in enumerate(network.demands):
+        refused = np.ones(len(pi), dtype=bool)
+        for k, (route, _, _) in enumerate(space.routes[d_idx]):
+            links = np.array(route.links)
+            if k == 0:
+                fail = free[:, links] < d.bandwidth
+            else:
+                fail = free[:, links] - d.bandwidth < res[links]
+            p_try = pi * refused
+            nfail = fail.sum(axis=1)
+            for i, j in enumerate(links):
+                w = d.rate * route.holdings[i] * d.bandwidth
+                p_blk = float(p_try @ fail[:, i])
+                if k == 0:
+                    fc_att[j] += w * p_try.sum()
+                    fc_blk[j] += w * p_blk
+                else:
+                    alt_att[j] += w * p_try.sum()
+                    alt_blk[j] += w * p_blk
+                offered[j] += w * float(p_try @ ((nfail - fail[:, i]) == 0))
+            refused &= nfail > 0
+        blocking[d_idx] = float(pi @ refused)
+    time_cong = pi @ (free < 1)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        link_b = np.where(fc_att > 0, fc_blk / np.where(fc_att > 0, fc_att, 1), time_cong)
+        if alternate:
+            alt_time = pi @ (free - 1 < res[None, :])
+            link_alt = np.where(alt_att > 0, alt_blk / np.where(alt_att > 0, alt_att, 1), alt_time)
+        else:
+            link_alt = link_b
+    return Evaluation(
+        method="exact",
+        demand_ids=network.demand_ids,
+        offered=[d.traffic for d in network.demands],
+        blocking=np.clip(blocking, 0.0, 1.0),
+        target=[d.target for d in network.demands],
+        link_ids=network.link_ids,
+        capacity=caps,
+        link_offered=offered,
+        link_carried=pi @ occ,
+        link_blocking=link_b,
+        link_blocking_alternate=link_alt,
+        iterations=1,
+        residual=residual,
+        status="exact",
+        message=f"exact ({solver}, {len(pi)} states)",
+        warnings=tuple(warns),
+        details={"states": int(len(pi)), "solver": solver},
+    )

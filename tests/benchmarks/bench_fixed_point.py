@@ -1,0 +1,185 @@
+"""Speed of the reduced-load evaluator on full meshes (a benchmark, not a test).
+
+Run: ``python tests/benchmarks/bench_fixed_point.py [--sites 50 100 200] [--repeats 3]``
+
+For every mesh (each pair of sites has a direct link and a demand routed direct first, then
+over up to 3 two-link routes via other sites), at a load near the 1 % targets and in overload,
+under fixed and alternate routing, it prints side by side (medians of repeats):
+
+- iterations and total time of ``fixed_point``: cold (routes flattened first) and warm (the
+  static arrays cached, as in a sizer's loop over capacities);
+- time per iteration and its ratio to the floor: one sparse product over all route steps plus
+  one vectorised link-model evaluation (Erlang B, or the reservation chain under alternate
+  routing) on every link;
+- time per iteration of a straightforward per-demand loop over Python dicts doing the same
+  sweep, and the speed-up against it.
+
+Goals at 200 sites: within 2x of the per-iteration floor, at least 20x faster than the loop.
+"""
+
+from __future__ import annotations
+
+import argparse
+import itertools
+import statistics
+import time
+
+import numpy as np
+from scipy import sparse
+
+from netdim.erlang import erlang_b
+from netdim.evaluate import fixed_point as fp_module
+from netdim.evaluate.fixed_point import _Problem, fixed_point
+from netdim.model import Demand, Link, Network, Route, Routing, Site
+
+
+def mesh(n_sites, traffic, capacity, n_alt=3, policy="fixed", reservation=2):
+    sites = tuple(Site(f"S{i:03d}") for i in range(n_sites))
+    pairs = list(itertools.combinations(range(n_sites), 2))
+    index = {p: j for j, p in enumerate(pairs)}
+
+    def li(i, j):
+        return index[(min(i, j), max(i, j))]
+
+    links = tuple(Link(f"L{i}-{j}", (sites[i].id, sites[j].id), capacity) for i, j in pairs)
+    rng = np.random.default_rng(1)
+    demands = []
+    for i, j in pairs:
+        routes = [Route((li(i, j),), (1.0,))]
+        others = [k for k in range(n_sites) if k not in (i, j)]
+        for k in rng.choice(others, size=min(n_alt, len(others)), replace=False):
+            routes.append(Route((li(i, int(k)), li(int(k), j)), (1.0, 1.0)))
+        demands.append(Demand(f"D{i}-{j}", (sites[i].id, sites[j].id), traffic,
+                              routes=tuple(routes)))
+    return Network(f"mesh{n_sites}", sites, links, tuple(demands),
+                   routing=Routing(policy=policy, reservation=reservation))
+
+
+def median_time(fn, repeats):
+    times = []
+    out = None
+    for _ in range(repeats):
+        t0 = time.perf_counter()
+        out = fn()
+        times.append(time.perf_counter() - t0)
+    return statistics.median(times), out
+
+
+def floor_per_iteration(net, repeats):
+    """One sparse product over every step plus one vectorised link-model evaluation."""
+    prob = _Problem(net, net.capacities())
+    n_steps = len(prob.step_slot)
+    m = sparse.csr_matrix((np.ones(n_steps), (prob.step_slot, np.arange(n_steps))),
+                          shape=(prob.n_slots, n_steps))
+    x = np.random.default_rng(0).random(n_steps)
+    loads = np.asarray(m @ x).reshape(prob.n_links, prob.n_streams)
+    caps = prob.caps
+
+    if prob.alternate:
+        from netdim.linkmodels import reservation_link_many
+
+        res = net.reservations()
+
+        def model():
+            return reservation_link_many(loads[:, 0] * 20, loads[:, 1] * 5, caps, res)
+    else:
+        def model():
+            return erlang_b(loads[:, 0] * 20, caps)
+
+    def once():
+        m @ x
+        model()
+
+    t, _ = median_time(lambda: [once() for _ in range(10)], repeats)
+    return t / 10
+
+
+def reservation_scalar(first, over, c, r):
+    """Birth-death chain of one link with trunk reservation, plain Python."""
+    p = [1.0]
+    for k in range(c):
+        lam = first + (over if k + 1 <= c - r else 0.0)
+        p.append(p[-1] * lam / (k + 1))
+    total = sum(p)
+    return p[c] / total, sum(p[max(c - r, 0):]) / total
+
+
+def loop_per_iteration(net, repeats, sweeps=2):
+    """A straightforward sweep: per-demand Python loop over dicts, scalar link models."""
+    caps = {link.id: link.capacity for link in net.links}
+    ids = [link.id for link in net.links]
+    alternate = net.routing.policy == "alternate"
+    res = dict(zip(ids, net.reservations(), strict=True))
+    b1 = dict.fromkeys(ids, 0.0)
+    b2 = dict.fromkeys(ids, 0.0)
+    def sweep():
+        first = dict.fromkeys(ids, 0.0)
+        over = dict.fromkeys(ids, 0.0)
+        for d in net.demands:
+            routes = d.routes if alternate else d.routes[:1]
+            reach = 1.0
+            for k, r in enumerate(routes):
+                bl = b1 if k == 0 else b2
+                route_ids = [ids[j] for j in r.links]
+                q = 1.0
+                for lid in route_ids:
+                    q *= 1.0 - bl[lid]
+                for lid, h in zip(route_ids, r.holdings, strict=True):
+                    rest = 1.0
+                    for other in route_ids:
+                        if other != lid:
+                            rest *= 1.0 - bl[other]
+                    load = d.traffic * reach * (h / d.holding) * rest
+                    if k == 0:
+                        first[lid] += load
+                    else:
+                        over[lid] += load
+                reach *= 1.0 - q
+        for lid in ids:
+            if alternate:
+                b1[lid], b2[lid] = reservation_scalar(first[lid], over[lid], caps[lid],
+                                                      int(res[lid]))
+            else:
+                b1[lid] = b2[lid] = float(erlang_b(first[lid], caps[lid]))
+
+    t, _ = median_time(lambda: [sweep() for _ in range(sweeps)], max(1, repeats // 2))
+    return t / sweeps
+
+
+def main(argv=None):
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--sites", type=int, nargs="+", default=[50, 100, 200])
+    ap.add_argument("--repeats", type=int, default=3)
+    ap.add_argument("--policies", nargs="+", default=["fixed", "alternate"])
+    args = ap.parse_args(argv)
+    head = (f"{'sites':>5} {'policy':>9} {'load':>5} {'links':>6} {'steps':>7} {'iter':>5} "
+            f"{'cold s':>7} {'warm s':>7} {'ms/iter':>8} {'floor ms':>8} {'x floor':>7} "
+            f"{'loop ms':>9} {'speed-up':>8}")
+    print(head)
+    print("-" * len(head))
+    # 20 E on 30 circuits: E(20, 30) ~ 0.0085, near a 1 % target; 1.5x and 3x: overload
+    for n in args.sites:
+        for policy in args.policies:
+            for label, traffic in (("near", 20.0), ("1.5x", 30.0), ("3x", 60.0)):
+                net = mesh(n, traffic, 30, policy=policy)
+                t0 = time.perf_counter()
+                fp_module._STATIC_CACHE.clear()
+                ev = fixed_point(net, start="idle")
+                cold = time.perf_counter() - t0
+                t, ev = median_time(lambda net=net: fixed_point(net, start="idle"), args.repeats)
+                prob = _Problem(net, net.capacities())
+                zero = np.zeros((prob.n_links, prob.n_streams))
+                t_solve, _ = median_time(lambda p=prob, z=zero: p.solve(z, 1e-10, 1000, "b"),
+                                         args.repeats)
+                per_it = t_solve / ev.iterations
+                floor = floor_per_iteration(net, args.repeats)
+                loop = loop_per_iteration(net, args.repeats)
+                print(f"{n:>5} {policy:>9} {label:>5} {prob.n_links:>6} {len(prob.step_slot):>7} "
+                      f"{ev.iterations:>5} {cold:>7.3f} {t:>7.3f} {per_it * 1e3:>8.2f} "
+                      f"{floor * 1e3:>8.2f} {per_it / floor:>7.2f} {loop * 1e3:>9.1f} "
+                      f"{loop / per_it:>8.1f}",
+                      flush=True)
+
+
+if __name__ == "__main__":
+    main()

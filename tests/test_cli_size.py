@@ -1,0 +1,95 @@
+"""`netdim size`: exit status, output, JSON contract and --out, on small files written here.
+
+Reference values: the least cost of the line network A-B-C (118 under the fixed point) comes
+from the exhaustive search in tests/test_dimension.py (line_search over line_fixed_point),
+which agrees with the value the issue's author computed with independent code.
+"""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+
+from netdim.cli import main
+
+LINE = """\
+name: line
+sites:
+  - {id: A}
+  - {id: B}
+  - {id: C}
+links:
+  - {id: AB, ends: [A, B], cost_per_module: 1.0%s}
+  - {id: BC, ends: [B, C], cost_per_module: 2.0}
+demands:
+  - {id: AB, between: [A, B], traffic: 20, routes: [[AB]]}
+  - {id: BC, between: [B, C], traffic: 15, routes: [[BC]]}
+  - {id: AC, between: [A, C], traffic: 10, routes: [[AB, BC]]}
+defaults: {target: 0.01}
+"""
+
+
+@pytest.fixture
+def line_file(tmp_path):
+    p = tmp_path / "line.yaml"
+    p.write_text(LINE % "")
+    return p
+
+
+def test_size_text_report(line_file, capsys):
+    assert main(["size", str(line_file), "--quiet"]) == 0
+    out = capsys.readouterr().out
+    assert "total cost     118" in out  # exhaustive search, tests/test_dimension.py
+    assert "lower bound" in out and "baseline cost" in out and "saving" in out
+    from netdim.report.text import CAUTION
+
+    assert out.rstrip().endswith(CAUTION)
+
+
+def test_size_json_and_out_checks_under_evaluate(line_file, tmp_path, capsys):
+    plan_path = tmp_path / "plan.yaml"
+    assert main(["size", str(line_file), "--json", "--out", str(plan_path)]) == 0
+    captured = capsys.readouterr()
+    d = json.loads(captured.out)
+    assert d["cost"] == pytest.approx(118)  # exhaustive search, tests/test_dimension.py
+    for key in ("cost", "lower_bound", "gap", "links", "demands", "status", "baseline_cost"):
+        assert key in d
+    assert "iteration" in captured.err  # progress lines go to stderr
+    from netdim.evaluate import evaluate
+    from netdim.netfile import read_network
+
+    net = read_network(plan_path)
+    caps = [link.capacity for link in net.links]
+    assert caps == [link["capacity"] for link in d["links"]]
+    assert evaluate(net).all_met
+
+
+def test_size_cbc_and_conservative(line_file, capsys):
+    assert main(["size", str(line_file), "--solver", "cbc", "--json", "--quiet"]) == 0
+    assert json.loads(capsys.readouterr().out)["cost"] == pytest.approx(118)
+    assert main(["size", str(line_file), "--model", "conservative", "--json", "--quiet"]) == 0
+    d = json.loads(capsys.readouterr().out)
+    assert d["model"] == "conservative" and d["gap"] == pytest.approx(0, abs=1e-6)
+
+
+def test_size_infeasible_exits_1_naming_the_demand(tmp_path, capsys):
+    p = tmp_path / "tight.yaml"
+    p.write_text(LINE % ", max_capacity: 30")
+    assert main(["size", str(p), "--quiet"]) == 1
+    captured = capsys.readouterr()
+    assert "targets not met for AB" in captured.err
+    assert "status infeasible" in captured.out  # the best plan is still shown
+
+
+def test_size_bad_input_exits_2(tmp_path, line_file, capsys):
+    assert main(["size", str(tmp_path / "missing.yaml")]) == 2
+    assert "missing.yaml" in capsys.readouterr().err
+    with pytest.raises(SystemExit) as exc:
+        main(["size", str(line_file), "--solver", "gurobi"])
+    assert exc.value.code == 2
+    assert "invalid choice: 'gurobi'" in capsys.readouterr().err
+    assert main(["size", str(line_file), "--gap", "2"]) == 2
+    assert "--gap: must lie in [0, 1)" in capsys.readouterr().err
+    assert main(["size", str(line_file), "--time-limit", "-1"]) == 2
+    assert "--time-limit: must be > 0" in capsys.readouterr().err

@@ -1,0 +1,346 @@
+"""Network files: every kind of bad input, reading, writing back, and the demo networks.
+
+Most checks here are of bookkeeping against the file format's own definition (README, issue 3).
+Outside facts used: traffic = arrival rate x mean holding time (Little's law, J. D. C. Little,
+"A proof for the queuing formula L = lambda W", Operations Research 9(3), 1961); the YAML
+syntax rules are PyYAML's (pyyaml.org), whose parser reports the line of a syntax error.
+"""
+
+import os
+import pathlib
+import re
+
+import pytest
+import yaml
+
+from netdim.errors import NetworkFileError
+from netdim.model import incidence
+from netdim.netfile import (
+    MAX_PROBLEMS,
+    dumps_network,
+    loads_network,
+    network_to_dict,
+    read_network,
+    write_network,
+)
+
+HERE = pathlib.Path(__file__).resolve().parent
+BROKEN = HERE / "data" / "broken"
+NETWORKS = HERE.parent / "networks"
+
+# file -> (line, item, problem regex). Lines counted by hand in each file (line 1 is the
+# comment saying what is broken).
+BROKEN_CASES = {
+    "yaml_syntax": (8, "YAML", r"expected ',' or '\]'"),
+    "unknown_key": (5, "links[1]", r"unknown key 'capcity' \(did you mean 'capacity'\?\)"),
+    "unknown_top_key": (9, "file", r"unknown key 'routng' \(did you mean 'routing'\?\)"),
+    "duplicate_key": (11, "YAML", r"duplicate key 'traffic' \(first on line 10\)"),
+    "missing_ends": (5, "link 'A-B'", r"'ends' is missing"),
+    "missing_sites": (2, "sites", r"missing \(a list of sites\)"),
+    "missing_traffic": (8, "demand 'D1'", r"'traffic' is missing"),
+    "unknown_site": (8, "demand 'D1'", r"site 'Q' is not defined \(valid: A, B, C\)"),
+    "unknown_link": (8, "demand 'D1'",
+                     r"route 1: link 'B-X' is not defined \(did you mean 'B-C'\?\)"),
+    "duplicate_site": (3, "site 'B'", r"duplicate id \(first on line 3\)"),
+    "duplicate_link": (7, "link 'A-B'", r"duplicate id \(first on line 5\)"),
+    "duplicate_demand": (9, "demand 'A-B'", r"duplicate id \(first on line 8\); give each"),
+    "negative_traffic": (8, "demand 'D1'", r"traffic must be >= 0, got -1.0"),
+    "text_traffic": (8, "demand 'D1'", r"traffic must be a number, got 'lots'"),
+    "traffic_and_rate": (8, "demand 'D1'", r"give traffic \(erlangs\) or rate"),
+    "zero_holding": (8, "demand 'D1'", r"holding must be > 0, got 0"),
+    "huge_holding": (8, "demand 'D1'", r"holding 180000 is too large .*hours"),
+    "step_holding": (12, "demand 'D1'", r"route 1: holding must be > 0, got -0.5"),
+    "target_outside": (8, "demand 'D1'", r"target must be in \(0, 1\), got 1.5"),
+    "default_target_zero": (9, "defaults", r"target must be in \(0, 1\), got 0"),
+    "negative_capacity": (5, "link 'A-B'", r"capacity must be >= 0, got -5"),
+    "fractional_capacity": (5, "link 'A-B'", r"capacity must be a whole number, got 5.5"),
+    "zero_module": (5, "link 'A-B'", r"module must be >= 1, got 0"),
+    "negative_cost": (5, "link 'A-B'", r"cost_per_module must be >= 0, got -2"),
+    "max_below_installed": (5, "link 'A-B'", r"max_capacity 6 is below installed 10"),
+    "absurd_capacity": (5, "link 'A-B'", r"capacity 50000000 is too large"),
+    "absurd_traffic": (8, "demand 'D1'", r"traffic 20000000.0 is too large"),
+    "negative_reservation": (5, "link 'A-B'", r"reservation must be >= 0, got -1"),
+    "bandwidth_too_big": (8, "demand 'D1'",
+                          r"bandwidth 6 fits no route: .*link 'A-B' with at most 5 units"),
+    "route_gap": (9, "demand 'D1'", r"route 1: link 'A-C' does not continue from site 'B'"),
+    "route_wrong_end": (8, "demand 'D1'", r"route 1: ends at 'B', not at 'C'"),
+    "route_loop": (9, "demand 'D1'", r"route 1: visits site 'A' twice"),
+    "route_off_ends": (8, "demand 'D1'", r"route 1: ends at 'C', not at 'A'"),
+    "self_demand": (8, "demand 'D1'", r"between names the same site 'A' twice"),
+    "no_route": (8, "demand 'D1'", r"no possible route: no path of at most 2 links joins "
+                                   r"'A' and 'E'"),
+    "unknown_policy": (9, "routing", r"unknown policy 'alternative' \(did you mean "
+                                     r"'alternate'\?\); valid policies: fixed, alternate"),
+    "bool_id": (3, "sites[4]", r"id must be text, got the yes/no value True"),
+    "not_a_mapping": (1, "file", r"must be a mapping"),
+}
+
+
+def test_every_broken_file_has_a_case():
+    assert {p.stem for p in BROKEN.glob("*.yaml")} == set(BROKEN_CASES)
+
+
+@pytest.mark.parametrize("name", sorted(BROKEN_CASES))
+def test_broken_file(name):
+    line, item, problem = BROKEN_CASES[name]
+    path = BROKEN / f"{name}.yaml"
+    pattern = re.escape(f"{path}:{line}: {item}: ") + problem
+    with pytest.raises(NetworkFileError, match=pattern) as info:
+        read_network(path)
+    # one problem per file: nothing else is reported as a knock-on effect
+    assert len(info.value.problems) == 1, info.value.problems
+
+
+def test_missing_file_one_line(tmp_path):
+    path = tmp_path / "nowhere.yaml"
+    with pytest.raises(NetworkFileError, match=re.escape(f"{path}: cannot read: ")) as info:
+        read_network(path)
+    assert len(info.value.problems) == 1
+
+
+BASE = """\
+name: tiny
+sites: [{id: A}, {id: B}, {id: C}]
+links:
+  - {id: A-B, ends: [A, B], capacity: 5}
+  - {id: B-C, ends: [B, C], capacity: 5}
+  - {id: A-C, ends: [A, C], capacity: 5}
+"""
+
+
+def test_every_problem_reported_in_file_order():
+    text = BASE + """\
+demands:
+  - {id: D1, between: [A, Q], traffic: 1}
+  - {id: D2, between: [A, B], traffic: -1, target: 2}
+  - {id: D3, between: [A, B], traffic: 1, routes: [[B-C]]}
+routing: {policy: sometimes}
+"""
+    with pytest.raises(NetworkFileError) as info:
+        loads_network(text, source="many.yaml")
+    lines = info.value.problems
+    assert [int(p.split(":")[1]) for p in lines] == [8, 9, 9, 10, 11]
+    assert "site 'Q' is not defined" in lines[0]
+    assert "unknown policy 'sometimes'" in lines[4]
+
+
+def test_problem_cap():
+    demands = "".join(
+        f"  - {{id: D{i}, between: [A, B], traffic: -1}}\n" for i in range(MAX_PROBLEMS + 7)
+    )
+    with pytest.raises(NetworkFileError, match="and 7 more problems not shown") as info:
+        loads_network(BASE + "demands:\n" + demands, source="cap.yaml")
+    assert len(info.value.problems) == MAX_PROBLEMS + 1
+
+
+# -- reading ---------------------------------------------------------------------------------
+def test_rate_holding_and_defaults():
+    net = loads_network(BASE + """\
+defaults: {target: 0.02, holding: 3.0}
+demands:
+  - {id: visit, between: [A, B], rate: 4, holding: 2.5}
+  - {id: plain, between: [A, C], traffic: 6}
+  - {id: fast, between: [B, C], rate: 12, target: 0.05}
+""")
+    visit, plain, fast = net.demands
+    # Little's law: offered erlangs = arrivals per hour x mean holding (Little 1961)
+    assert visit.traffic == pytest.approx(4 * 2.5)
+    assert visit.holding == 2.5
+    assert visit.rate == pytest.approx(4)
+    assert (plain.traffic, plain.holding, plain.target) == (6.0, 3.0, 0.02)
+    assert fast.traffic == pytest.approx(12 * 3.0)
+    assert fast.target == 0.05
+    assert net.default_target == 0.02 and net.default_holding == 3.0
+
+
+def test_step_holding_overrides_and_incidence():
+    net = loads_network(BASE + """\
+demands:
+  - id: park
+    between: [A, C]
+    rate: 10
+    holding: 3.0
+    routes:
+      - [A-C]
+      - [{link: A-B}, {link: B-C, holding: 0.25}]
+""")
+    d = net.demands[0]
+    assert d.routes[0].holdings == (3.0,)
+    assert d.routes[1].links == (0, 1)
+    assert d.routes[1].holdings == (3.0, 0.25)
+    assert not d.routes_generated
+    inc = incidence(net)
+    # load a route offers a link scales with the holding time there (Little's law)
+    assert list(inc.step_factor) == [1.0, 1.0, 0.25 / 3.0]
+
+
+def test_generated_routes_direct_first_then_tandem():
+    text = """\
+name: star
+sites: [{id: A}, {id: B}, {id: T1}, {id: T2}]
+links:
+  - {id: A-T2, ends: [A, T2], length: 1}
+  - {id: T2-B, ends: [T2, B], length: 1}
+  - {id: A-T1, ends: [A, T1], length: 2}
+  - {id: T1-B, ends: [T1, B], length: 2}
+  - {id: A-B, ends: [A, B], length: 9}
+demands:
+  - {between: [A, B], traffic: 1}
+routing: {policy: alternate, max_hops: 2, reservation: 1}
+"""
+    net = loads_network(text)
+    d = net.demands[0]
+    assert d.id == "A-B"
+    assert d.routes_generated
+    ids = [[net.links[j].id for j in r.links] for r in d.routes]
+    assert ids == [["A-B"], ["A-T2", "T2-B"], ["A-T1", "T1-B"]]
+    net2 = loads_network(text.replace("reservation: 1}", "reservation: 1, max_routes: 2}"))
+    assert len(net2.demands[0].routes) == 2
+    assert net2.routing.max_routes == 2
+    assert net.routing.policy == "alternate" and net.routing.reservation == 1
+
+
+def test_all_link_fields_and_extra():
+    net = loads_network("""\
+name: fields
+description: kept as it is
+x-owner: planning
+sites: [{id: A, name: Alpha, x: 1, y: 2}, B, {id: NO}]
+links:
+  - {id: A-B, ends: [A, B], capacity: 40, installed: 20, module: 10, cost_per_module: 2.5,
+     fixed_cost: 100, max_capacity: 200, length: 3.5, reservation: 2}
+  - {id: B-NO, ends: [B, NO]}
+demands:
+  - {id: 7, between: [A, B], traffic: 1e3, value: 4, bandwidth: 2}
+  - {between: [B, NO], traffic: '2.5'}
+""")
+    link = net.links[0]
+    assert (link.capacity, link.installed, link.module, link.cost_per_module) == (40, 20, 10, 2.5)
+    assert (link.fixed_cost, link.max_capacity, link.length, link.reservation) == (
+        100.0, 200, 3.5, 2)
+    assert net.links[1].capacity is None
+    assert list(net.reservations()) == [2, 0]
+    assert net.sites[0].name == "Alpha" and net.sites[2].id == "NO"
+    d = net.demands[0]
+    assert (d.id, d.traffic, d.value, d.bandwidth) == ("7", 1000.0, 4.0, 2)
+    assert net.demands[1].traffic == 2.5
+    assert net.extra == {"description": "kept as it is", "x-owner": "planning"}
+    assert link.line == 6 and net.demands[0].line == 10
+
+
+# -- writing ---------------------------------------------------------------------------------
+ROUND = BASE + """\
+x-note: a kept field
+defaults: {target: 0.02, holding: 2.0}
+routing: {policy: alternate, max_hops: 2, reservation: 1, max_routes: 3}
+demands:
+  - {id: D1, between: [A, B], traffic: 3.5, value: 2}
+  - id: D2
+    between: [A, C]
+    rate: 3
+    holding: 0.5
+    bandwidth: 2
+    target: 0.1
+    routes:
+      - [A-B, {link: B-C, holding: 0.1}]
+      - [A-C]
+"""
+
+
+def test_round_trip_equal(tmp_path):
+    net = loads_network(ROUND, source="round.yaml")
+    path = tmp_path / "out.yaml"
+    write_network(net, path)
+    back = read_network(path)
+    assert back == net
+    assert back.extra == net.extra
+    assert back.source == str(path)
+    # generated routes are left for the reader to generate again; given ones are written
+    data = yaml.safe_load(path.read_text())
+    assert "routes" not in data["demands"][0]
+    assert data["demands"][1]["routes"] == [["A-B", {"link": "B-C", "holding": 0.1}], ["A-C"]]
+
+
+def test_round_trip_with_capacities(tmp_path):
+    import numpy as np
+
+    net = loads_network(ROUND)
+    path = tmp_path / "plan.yaml"
+    write_network(net, path, capacities=np.array([7, 0, 12]))
+    back = read_network(path)
+    assert list(back.capacities()) == [7, 0, 12]
+    assert back == net.with_capacities([7, 0, 12])
+    with pytest.raises(ValueError, match="capacities: expected 3 values"):
+        network_to_dict(net, capacities=[1, 2])
+    with pytest.raises(ValueError, match="capacities: must be whole numbers >= 0"):
+        network_to_dict(net, capacities=[1, 2, -3])
+
+
+def test_write_refuses_demand_without_routes():
+    import dataclasses
+
+    net = loads_network(ROUND)
+    bare = dataclasses.replace(net.demands[0], routes=())
+    net = dataclasses.replace(net, demands=(bare,) + net.demands[1:])
+    with pytest.raises(ValueError, match="demand 'D1' has no routes"):
+        dumps_network(net)
+
+
+def test_write_to_missing_directory_fails_cleanly(tmp_path):
+    net = loads_network(ROUND)
+    path = tmp_path / "no" / "such" / "dir" / "out.yaml"
+    with pytest.raises(OSError, match="cannot write") as info:
+        write_network(net, path)
+    assert info.value.filename == str(path)
+    assert not (tmp_path / "no").exists()
+
+
+def test_failed_write_leaves_existing_file_untouched(tmp_path, monkeypatch):
+    net = loads_network(ROUND)
+    path = tmp_path / "keep.yaml"
+    path.write_text("old contents\n")
+
+    def broken_dump(*args, **kwargs):
+        raise RuntimeError("disk on fire")
+
+    monkeypatch.setattr(yaml, "dump", broken_dump)
+    with pytest.raises(RuntimeError, match="disk on fire"):
+        write_network(net, path)
+    assert path.read_text() == "old contents\n"
+    assert os.listdir(tmp_path) == ["keep.yaml"]
+
+
+def test_failed_replace_leaves_no_partial_file(tmp_path, monkeypatch):
+    net = loads_network(ROUND)
+    path = tmp_path / "keep.yaml"
+    path.write_text("old contents\n")
+
+    def broken_replace(src, dst):
+        raise PermissionError(13, "Permission denied")
+
+    monkeypatch.setattr(os, "replace", broken_replace)
+    with pytest.raises(OSError, match="cannot write: Permission denied"):
+        write_network(net, path)
+    assert path.read_text() == "old contents\n"
+    assert os.listdir(tmp_path) == ["keep.yaml"]  # the temporary file is gone
+
+
+# -- demo networks ---------------------------------------------------------------------------
+DEMOS = sorted(NETWORKS.glob("*.yaml"))
+
+
+def test_demos_present():
+    assert {"regional-telephone", "campus-parking"} <= {p.stem for p in DEMOS}
+
+
+@pytest.mark.parametrize("path", DEMOS, ids=[p.stem for p in DEMOS])
+def test_demo_loads_with_capacities(path, tmp_path):
+    net = read_network(path)
+    caps = net.capacities()  # every capacity given, so evaluate runs
+    assert len(caps) == len(net.links)
+    for link in net.links:
+        assert (link.capacity - link.installed) % link.module == 0, link.id
+    assert all(d.routes for d in net.demands)
+    out = tmp_path / path.name
+    write_network(net, out)
+    assert read_network(out) == net

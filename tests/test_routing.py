@@ -1,0 +1,135 @@
+"""Generated candidate routes, checked against networkx's own path enumeration.
+
+Outside checks: networkx.all_simple_paths / all_simple_edge_paths with a cutoff (networkx 3.x,
+an independent implementation of simple-path enumeration), on a real topology from the
+Internet Topology Zoo (NSFNET, 13 sites, 15 links; Knight et al., "The Internet Topology Zoo",
+IEEE JSAC 29(9), 2011; file /work/shared/data/real/topozoo-Nsfnet.json, see SOURCES.md there)
+and on SNDlib polska (12 sites, 18 links; Orlowski et al., "SNDlib 1.0", Networks 55(3), 2010).
+The order rules (hops, then length, then cost, then ids) are the documented contract.
+"""
+
+import json
+import pathlib
+
+import networkx as nx
+import pytest
+
+from netdim.model import Link, Network, Site
+from netdim.routing import candidate_routes, link_graph
+
+REAL = pathlib.Path("/work/shared/data/real")
+
+
+def real_links(name):
+    path = REAL / f"{name}.json"
+    if not path.exists():
+        pytest.skip(f"{path} not available")
+    data = json.loads(path.read_text())
+    links = [
+        Link(link["id"], tuple(link["ends"]), length=link["length_km"]) for link in data["links"]
+    ]
+    return [s["id"] for s in data["sites"]], links
+
+
+@pytest.mark.parametrize("name", ["topozoo-Nsfnet", "sndlib-polska"])
+@pytest.mark.parametrize("max_hops", [1, 2, 3, 4])
+def test_same_path_set_as_networkx(name, max_hops):
+    sites, links = real_links(name)
+    g = link_graph(links, sites)
+    simple = nx.Graph()  # these files have no parallel links: compare site sequences
+    simple.add_edges_from(link.ends for link in links)
+    ends_of = {link.id: link.ends for link in links}
+    for origin in sites[:5]:
+        for dest in sites:
+            if dest == origin:
+                continue
+            routes = candidate_routes(g, origin, dest, max_hops)
+            # source: networkx all_simple_paths with cutoff (independent enumeration)
+            expected = {tuple(p) for p in nx.all_simple_paths(simple, origin, dest,
+                                                              cutoff=max_hops)}
+            got = set()
+            for route in routes:
+                here, seq = origin, [origin]
+                for lid in route:
+                    a, b = ends_of[lid]
+                    assert here in (a, b)
+                    here = b if a == here else a
+                    seq.append(here)
+                assert here == dest
+                got.add(tuple(seq))
+            assert got == expected
+            assert len(routes) == len(expected)
+
+
+def test_order_hops_then_length():
+    sites, links = real_links("topozoo-Nsfnet")
+    g = link_graph(links, sites)
+    length = {link.id: link.length for link in links}
+    origin, dest = sites[0], sites[-1]
+    routes = candidate_routes(g, origin, dest, 5)
+    keys = [(len(r), sum(length[k] for k in r)) for r in routes]
+    assert keys == sorted(keys)
+    assert len(routes) > 3
+
+
+def toy(parallel=True):
+    # invented toy topology for the order rules (the rules are the documented contract)
+    sites = tuple(Site(s) for s in "ABCD")
+    links = [
+        Link("A-C", ("A", "C"), length=1.0),
+        Link("C-B", ("C", "B"), length=1.0),
+        Link("A-D", ("A", "D"), length=1.0, cost_per_module=2.0),
+        Link("D-B", ("D", "B"), length=1.0),
+        Link("A-B/2", ("A", "B"), length=5.0),
+        Link("A-B/1", ("A", "B"), length=5.0),
+        Link("C-D", ("C", "D"), length=0.1),
+    ]
+    if parallel:
+        links.append(Link("A-B/0", ("A", "B"), length=3.0))
+    return Network("toy", sites, tuple(links), ())
+
+
+def test_direct_links_first_parallel_links_separate():
+    net = toy()
+    routes = candidate_routes(net, "A", "B", 3)
+    # direct: shorter first, then equal length by id
+    assert routes[:3] == [("A-B/0",), ("A-B/1",), ("A-B/2",)]
+    # two-hop: equal length 2, A-C-B is cheaper (cost 2) than A-D-B (cost 3)
+    assert routes[3:5] == [("A-C", "C-B"), ("A-D", "D-B")]
+    # three-hop via C-D (length 2.1) both ways
+    assert set(routes[5:]) == {("A-C", "C-D", "D-B"), ("A-D", "C-D", "C-B")}
+    assert routes[5] == ("A-C", "C-D", "D-B")  # cost 3 < cost 4
+    assert len(routes) == 7
+
+
+def test_max_routes_and_hops():
+    net = toy()
+    assert candidate_routes(net, "A", "B", 1) == [("A-B/0",), ("A-B/1",), ("A-B/2",)]
+    assert candidate_routes(net, "A", "B", 3, max_routes=4) == [
+        ("A-B/0",), ("A-B/1",), ("A-B/2",), ("A-C", "C-B"),
+    ]
+    # the fast two-hop path agrees with the general enumeration cut at two hops
+    assert candidate_routes(net, "A", "B", 2) == [
+        r for r in candidate_routes(net, "A", "B", 3) if len(r) <= 2
+    ]
+    assert candidate_routes(net, "B", "A", 2)[3] == ("C-B", "A-C")
+
+
+def test_no_path_gives_empty():
+    sites = (Site("A"), Site("B"), Site("C"))
+    net = Network("x", sites, (Link("A-B", ("A", "B")),), ())
+    assert candidate_routes(net, "A", "C", 4) == []
+
+
+@pytest.mark.parametrize(
+    "args, match",
+    [
+        (("A", "Z", 2), "dest: site 'Z' is not in the network"),
+        (("A", "A", 2), "origin and dest are the same site 'A'"),
+        (("A", "B", 0), "max_hops: must be an integer >= 1"),
+        (("A", "B", 2, 0), "max_routes: must be an integer >= 1"),
+    ],
+)
+def test_bad_arguments(args, match):
+    with pytest.raises(ValueError, match=match):
+        candidate_routes(toy(), *args)
