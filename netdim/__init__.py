@@ -4,6 +4,7 @@ The public API: read a network (:func:`read_network`), evaluate it (:func:`evalu
 (:func:`dimension`), and the single-resource loss formulas in :mod:`netdim.erlang`.
 """
 
+from netdim.dimension import Plan, dimension
 from netdim.errors import (
     ConvergenceError,
     InfeasibleError,
@@ -11,7 +12,6 @@ from netdim.errors import (
     NetdimError,
     NetworkFileError,
 )
-from netdim.dimension import Plan, dimension
 from netdim.evaluate import METHODS, Evaluation, evaluate
 from netdim.model import Demand, Link, Network, Route, Routing, Site
 from netdim.netfile import read_network, write_network

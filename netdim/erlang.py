@@ -329,14 +329,32 @@ def _get_block_kernel():
                     starts[k] += 1
             block = 256
             w_inv = np.empty(block)
-            w_ra = np.empty(block)
+            w_rh = np.empty(block)
+            w_rl = np.empty(block)
             w_n = np.empty(block, np.int64)
             for b0 in range(0, total, block):
                 w = min(block, total - b0)
                 for j in range(w):
                     i = perm[b0 + j]
                     w_inv[j] = 1.0
-                    w_ra[j] = 1.0 / a[i]
+                    # 1/a as an unevaluated sum r_hi + r_lo (Dekker's exact product gives
+                    # the residual 1 - a r_hi), so the rounding of 1/a does not act like a
+                    # systematic change of A, which would cost (n - A(1-E)) ulps
+                    ai = a[i]
+                    rh = 1.0 / ai
+                    if ai < 1e290 and rh < 1e290:
+                        p = ai * rh
+                        t = 134217729.0 * ai
+                        xh = t - (t - ai)
+                        xl = ai - xh
+                        t = 134217729.0 * rh
+                        yh = t - (t - rh)
+                        yl = rh - yh
+                        err = ((xh * yh - p) + xh * yl + xl * yh) + xl * yl
+                        w_rl[j] = ((1.0 - p) - err) / ai
+                    else:
+                        w_rl[j] = 0.0
+                    w_rh[j] = rh
                     w_n[j] = n[i]
                 n_hi = w_n[0]
                 n_lo = w_n[w - 1]
@@ -344,7 +362,8 @@ def _get_block_kernel():
                 for k in range(1, n_lo):
                     fk = float(k)
                     for j in range(w):
-                        w_inv[j] = 1.0 + w_inv[j] * w_ra[j] * fk
+                        t = w_inv[j] * fk
+                        w_inv[j] = 1.0 + (t * w_rh[j] + t * w_rl[j])
                 # the last steps, element by element
                 for j in range(w):
                     i = perm[b0 + j]
@@ -352,9 +371,11 @@ def _get_block_kernel():
                     p = v
                     for k in range(n_lo, w_n[j] + 1):
                         p = v
-                        v = 1.0 + v * w_ra[j] * float(k)
-                    inv[i] = v
-                    prev[i] = p
+                        t = v * float(k)
+                        v = 1.0 + (t * w_rh[j] + t * w_rl[j])
+                    # inf * r_lo gives NaN once 1/E overflows: E has underflowed to 0 there
+                    inv[i] = np.inf if v != v else v
+                    prev[i] = np.inf if p != p else p
                 _ = n_hi
             return inv
 
@@ -637,10 +658,16 @@ def traffic_for(servers, target):
             active = active[~done]
         a_final = np.exp(u)
         # the answer must satisfy E <= t: step down by ulps if rounding put it just above
+        # (checked with the same path, scalar or array, the caller will use)
+        def check(f):
+            if scalar:
+                return np.array([f(float(p), float(q)) for p, q in zip(a_final, xs, strict=True)])
+            return np.asarray(f(a_final, xs), dtype=float)
+
         for _ in range(8):
-            tiny = ts < 1e-290
-            le = np.asarray(log_erlang_b(a_final, xs), dtype=float)
-            e = np.asarray(erlang_b(a_final, xs), dtype=float)
+            tiny = ts < 1e-307
+            le = check(log_erlang_b)
+            e = check(erlang_b)
             above = np.where(tiny, le > logt, e > ts)
             if not above.any():
                 break

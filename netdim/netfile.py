@@ -26,23 +26,38 @@ The format (see README and the demo files in ``networks/``)::
 Reading checks the whole file and reports every problem found (up to
 :data:`MAX_PROBLEMS`) in one :class:`~netdim.errors.NetworkFileError`, one line each,
 ``FILE:LINE: ITEM: problem``. Top-level keys starting with ``x-`` and ``description`` /
-``notes`` are kept in ``Network.extra`` and written back unchanged.
+``notes`` are kept in ``Network.extra`` and written back unchanged. A site may be written as
+its bare id. Only ``true``/``false`` are yes/no values (as in YAML 1.2), so ids such as ``NO``
+stay text. Writing lives in :mod:`netdim.netwrite` (re-exported here).
+
+Limits taken for typing mistakes: traffic above :data:`MAX_TRAFFIC` erlangs, capacities above
+:data:`MAX_UNITS`, holding times above :data:`MAX_HOLDING` hours, routes longer than
+:data:`MAX_HOPS` links.
 """
 
 from __future__ import annotations
 
 import difflib
-import math
-import os
 import pathlib
-import re
-import tempfile
 from dataclasses import replace
 
 import yaml
 
+from netdim._netyaml import (
+    BAD,
+    MAX_PROBLEMS,
+    Checker,
+    Loader,
+    Map,
+    Seq,
+    kind,
+    line_of,
+    show,
+    unknown,
+)
 from netdim.errors import NetworkFileError
 from netdim.model import POLICIES, Demand, Link, Network, Route, Routing, Site
+from netdim.netwrite import dumps_network, network_to_dict, plain_data, write_network
 from netdim.routing import candidate_routes, link_graph
 
 __all__ = [
@@ -51,11 +66,10 @@ __all__ = [
     "write_network",
     "network_to_dict",
     "dumps_network",
+    "network_summary",
     "MAX_PROBLEMS",
 ]
 
-#: Most problems reported from one file (the rest are counted).
-MAX_PROBLEMS = 50
 #: Magnitudes above these are taken for typing mistakes.
 MAX_TRAFFIC = 1e7
 MAX_UNITS = 10_000_000
@@ -76,262 +90,6 @@ ROUTING_KEYS = ("policy", "max_hops", "reservation", "max_routes")
 STEP_KEYS = ("link", "holding")
 _KEPT_TOP = ("description", "notes")
 
-_BAD = object()  # a field that was present but wrong (already reported)
-
-
-# --------------------------------------------------------------------------------------------
-# YAML with line numbers
-# --------------------------------------------------------------------------------------------
-class _Map(dict):
-    """A mapping that remembers its line and the line of each key (1-based)."""
-
-    line = 1
-    lines: dict
-
-
-class _Seq(list):
-    """A sequence that remembers its line and the line of each item (1-based)."""
-
-    line = 1
-    lines: list
-
-
-class _Loader(yaml.SafeLoader):
-    """SafeLoader that builds :class:`_Map` / :class:`_Seq` and notes duplicate keys."""
-
-    def __init__(self, stream):
-        super().__init__(stream)
-        self.key_problems = []  # (line, text)
-
-
-def _construct_map(loader, node):
-    loader.flatten_mapping(node)
-    out = _Map()
-    out.line = node.start_mark.line + 1
-    out.lines = {}
-    for knode, vnode in node.value:
-        key = loader.construct_object(knode, deep=True)
-        kline = knode.start_mark.line + 1
-        try:
-            hash(key)
-        except TypeError:
-            loader.key_problems.append((kline, "a key must be plain text"))
-            continue
-        if key in out:
-            loader.key_problems.append(
-                (kline, f"duplicate key '{key}' (first on line {out.lines[key]})")
-            )
-            continue
-        out[key] = loader.construct_object(vnode, deep=True)
-        out.lines[key] = kline
-    return out
-
-
-def _construct_seq(loader, node):
-    out = _Seq(loader.construct_object(child, deep=True) for child in node.value)
-    out.line = node.start_mark.line + 1
-    out.lines = [child.start_mark.line + 1 for child in node.value]
-    return out
-
-
-# Only true/false are yes/no values (as in YAML 1.2): ids such as NO or ON stay text.
-_Loader.yaml_implicit_resolvers = {
-    first: [(tag, rx) for tag, rx in resolvers if tag != "tag:yaml.org,2002:bool"]
-    for first, resolvers in yaml.SafeLoader.yaml_implicit_resolvers.items()
-}
-_Loader.add_implicit_resolver(
-    "tag:yaml.org,2002:bool", re.compile(r"^(?:true|True|TRUE|false|False|FALSE)$"), list("tTfF")
-)
-_Loader.add_constructor("tag:yaml.org,2002:map", _construct_map)
-_Loader.add_constructor("tag:yaml.org,2002:seq", _construct_seq)
-
-
-def _line_of(container, key, default=1):
-    if isinstance(container, _Map):
-        return container.lines.get(key, container.line)
-    if isinstance(container, _Seq):
-        if isinstance(key, int) and 0 <= key < len(container.lines):
-            return container.lines[key]
-        return container.line
-    return default
-
-
-# --------------------------------------------------------------------------------------------
-# Problem collection and field readers
-# --------------------------------------------------------------------------------------------
-class _Checker:
-    def __init__(self, source):
-        self.source = source
-        self.problems = []
-
-    def add(self, line, item, text):
-        self.problems.append(f"{self.source}:{line}: {item}: {text}")
-
-    def raise_if_any(self):
-        if self.problems:
-            # stable sort by line, so the list reads top to bottom like the file
-            self.problems.sort(key=lambda text: int(text[len(self.source) + 1:].split(":")[0]))
-            shown = self.problems[:MAX_PROBLEMS]
-            if len(self.problems) > MAX_PROBLEMS:
-                shown.append(
-                    f"{self.source}: and {len(self.problems) - MAX_PROBLEMS} more problems "
-                    "not shown"
-                )
-            raise NetworkFileError(shown)
-
-    # -- keys ---------------------------------------------------------------------------------
-    def keys(self, m, valid, item, keep=()):
-        for key in m:
-            if key in valid or (isinstance(key, str) and key.startswith(keep or "\0")):
-                continue
-            self.add(m.lines[key], item, _unknown(f"unknown key '{key}'", key, valid))
-
-    def mapping(self, value, line, item, what):
-        if isinstance(value, _Map):
-            return value
-        self.add(line, item, f"{what} must be a mapping (key: value), got {_kind(value)}")
-        return None
-
-    # -- scalars ------------------------------------------------------------------------------
-    def number(self, m, key, item, default=None, *, integer=False, low=None, low_open=False,
-               high=None, high_open=False, high_note="", required=False):
-        """Read a number; report and return ``_BAD`` when it is wrong."""
-        line = _line_of(m, key)
-        if key not in m or m[key] is None:
-            if required:
-                self.add(line, item, f"'{key}' is missing")
-                return _BAD
-            return default
-        raw = m[key]
-        value = _as_number(raw)
-        if value is None:
-            self.add(line, item, f"{key} must be a number, got {_show(raw)}")
-            return _BAD
-        if integer:
-            if not float(value).is_integer():
-                self.add(line, item, f"{key} must be a whole number, got {_show(raw)}")
-                return _BAD
-            value = int(value)
-        if low is not None and (value <= low if low_open else value < low):
-            rel = ">" if low_open else ">="
-            if high is not None and high_open and low_open:
-                self.add(line, item, f"{key} must be in ({low:g}, {high:g}), got {_show(raw)}")
-            else:
-                self.add(line, item, f"{key} must be {rel} {low:g}, got {_show(raw)}")
-            return _BAD
-        if high is not None and (value >= high if high_open else value > high):
-            if high_open and low_open and low is not None:
-                self.add(line, item, f"{key} must be in ({low:g}, {high:g}), got {_show(raw)}")
-            else:
-                note = high_note or "an absurd magnitude; check the units"
-                self.add(line, item, f"{key} {_show(raw)} is too large ({note})")
-            return _BAD
-        return value
-
-    def ident(self, m, key, item, required=True):
-        """Read an id (text, or a whole number taken as text)."""
-        line = _line_of(m, key)
-        if key not in m or m[key] is None:
-            if required:
-                self.add(line, item, f"'{key}' is missing")
-            return None
-        raw = m[key]
-        return self.id_value(raw, line, item, key)
-
-    def id_value(self, raw, line, item, what):
-        if isinstance(raw, bool):
-            self.add(line, item, f"{what} must be text, got the yes/no value {raw!r} "
-                     "(quote it)")
-            return None
-        if isinstance(raw, int):
-            return str(raw)
-        if isinstance(raw, str) and raw.strip():
-            return raw
-        self.add(line, item, f"{what} must be text, got {_show(raw)}")
-        return None
-
-    def text(self, m, key, item, default=None):
-        if key not in m or m[key] is None:
-            return default
-        raw = m[key]
-        if isinstance(raw, (str, int, float)) and not isinstance(raw, bool):
-            return str(raw)
-        self.add(_line_of(m, key), item, f"{key} must be text, got {_show(raw)}")
-        return default
-
-    def pair(self, m, key, item, site_ids):
-        """Two distinct known site ids; None when wrong (reported)."""
-        line = _line_of(m, key)
-        if key not in m or m[key] is None:
-            self.add(line, item, f"'{key}' is missing (two site ids)")
-            return None
-        raw = m[key]
-        if not isinstance(raw, list) or len(raw) != 2:
-            self.add(line, item, f"{key} must be a list of two site ids, got {_show(raw)}")
-            return None
-        ends = []
-        for value in raw:
-            sid = self.id_value(value, line, item, "site id")
-            if sid is None:
-                return None
-            if site_ids is not None and sid not in site_ids:
-                self.add(line, item, _unknown(f"site '{sid}' is not defined", sid, site_ids))
-                return None
-            ends.append(sid)
-        if ends[0] == ends[1]:
-            self.add(line, item, f"{key} names the same site '{ends[0]}' twice")
-            return None
-        return tuple(ends)
-
-
-def _as_number(raw):
-    if isinstance(raw, bool):
-        return None
-    if isinstance(raw, (int, float)):
-        value = raw
-    elif isinstance(raw, str):
-        # PyYAML reads '1e5' (no dot) as text; accept any plain decimal notation
-        try:
-            value = float(raw.strip())
-        except ValueError:
-            return None
-    else:
-        return None
-    if isinstance(value, float) and not math.isfinite(value):
-        return None
-    return value
-
-
-def _show(raw) -> str:
-    if isinstance(raw, str):
-        return repr(raw)
-    if isinstance(raw, (list, dict)):
-        return f"a {_kind(raw)}"
-    return repr(raw)
-
-
-def _kind(raw) -> str:
-    if raw is None:
-        return "nothing"
-    if isinstance(raw, dict):
-        return "mapping"
-    if isinstance(raw, list):
-        return "list"
-    if isinstance(raw, bool):
-        return "yes/no value"
-    if isinstance(raw, str):
-        return f"text {raw!r}"
-    return f"{type(raw).__name__} {raw!r}"
-
-
-def _unknown(what, name, valid) -> str:
-    close = difflib.get_close_matches(str(name), [str(v) for v in valid], n=1, cutoff=0.6)
-    if close:
-        return f"{what} (did you mean '{close[0]}'?)"
-    names = sorted(map(str, valid)) if isinstance(valid, (set, dict)) else list(map(str, valid))
-    if 0 < len(names) <= 12:
-        return f"{what} (valid: {', '.join(names)})"
-    return what
 
 
 # --------------------------------------------------------------------------------------------
@@ -377,8 +135,8 @@ def loads_network(text: str, source: str = "<string>", default_name: str = "netw
     default_name : str
         Network name when the file gives none.
     """
-    chk = _Checker(source)
-    loader = _Loader(text)
+    chk = Checker(source)
+    loader = Loader(text)
     try:
         data = loader.get_single_data()
     except yaml.MarkedYAMLError as exc:
@@ -397,8 +155,8 @@ def loads_network(text: str, source: str = "<string>", default_name: str = "netw
     if data is None:
         chk.add(1, "file", "is empty (expected a mapping with sites, links and demands)")
         chk.raise_if_any()
-    if not isinstance(data, _Map):
-        chk.add(1, "file", f"must be a mapping with sites, links and demands, got {_kind(data)}")
+    if not isinstance(data, Map):
+        chk.add(1, "file", f"must be a mapping with sites, links and demands, got {kind(data)}")
         chk.raise_if_any()
     net = _Builder(chk, data, default_name).build()
     chk.raise_if_any()
@@ -432,21 +190,21 @@ class _Builder:
             routing=routing,
             default_target=defaults["target"],
             default_holding=defaults["holding"],
-            extra=_plain(extra),
+            extra=plain_data(extra),
         )
 
-    def _section_ok(self, key, kind):
+    def _section_ok(self, key, shape):
         value = self.data.get(key)
-        return isinstance(value, _Map) if kind == "mapping" else isinstance(value, _Seq)
+        return isinstance(value, Map) if shape == "mapping" else isinstance(value, Seq)
 
-    def _section(self, key, kind):
+    def _section(self, key, shape):
         data = self.data
         if key not in data or data[key] is None:
             return None
         value = data[key]
-        ok = isinstance(value, _Map) if kind == "mapping" else isinstance(value, _Seq)
+        ok = isinstance(value, Map) if shape == "mapping" else isinstance(value, Seq)
         if not ok:
-            self.chk.add(data.lines[key], key, f"must be a {kind}, got {_kind(value)}")
+            self.chk.add(data.lines[key], key, f"must be a {shape}, got {kind(value)}")
             return None
         return value
 
@@ -460,9 +218,9 @@ class _Builder:
         target = self.chk.number(m, "target", "defaults", 0.01, low=0, low_open=True, high=1,
                                  high_open=True)
         holding = self._holding(m, "holding", "defaults", 1.0)
-        if target is not _BAD:
+        if target is not BAD:
             out["target"] = float(target)
-        if holding is not _BAD:
+        if holding is not BAD:
             out["holding"] = float(holding)
         return out
 
@@ -485,7 +243,7 @@ class _Builder:
                 close = difflib.get_close_matches(str(raw), POLICIES, n=1)
                 hint = f" (did you mean '{close[0]}'?)" if close else ""
                 chk.add(m.lines["policy"], "routing",
-                        f"unknown policy {_show(raw)}{hint}; valid policies: "
+                        f"unknown policy {show(raw)}{hint}; valid policies: "
                         + ", ".join(POLICIES))
         max_hops = chk.number(m, "max_hops", "routing", Routing.max_hops, integer=True, low=1,
                               high=MAX_HOPS, high_note=f"more than {MAX_HOPS} links per route")
@@ -495,9 +253,9 @@ class _Builder:
                                 high=10_000)
         return Routing(
             policy=policy,
-            max_hops=Routing.max_hops if max_hops is _BAD else max_hops,
-            reservation=Routing.reservation if reservation is _BAD else reservation,
-            max_routes=None if max_routes is _BAD else max_routes,
+            max_hops=Routing.max_hops if max_hops is BAD else max_hops,
+            reservation=Routing.reservation if reservation is BAD else reservation,
+            max_routes=None if max_routes is BAD else max_routes,
         )
 
     # -- sites ------------------------------------------------------------------------------
@@ -506,7 +264,7 @@ class _Builder:
         seq = self._section("sites", "list")
         if seq is None:
             if "sites" not in self.data or self.data["sites"] is None:
-                chk.add(_line_of(self.data, "sites"), "sites", "missing (a list of sites)")
+                chk.add(line_of(self.data, "sites"), "sites", "missing (a list of sites)")
             return []
         sites, seen = [], {}
         for i, raw in enumerate(seq):
@@ -526,8 +284,8 @@ class _Builder:
                 name = chk.text(m, "name", item)
                 x = chk.number(m, "x", item)
                 y = chk.number(m, "y", item)
-                x = None if x is _BAD else (None if x is None else float(x))
-                y = None if y is _BAD else (None if y is None else float(y))
+                x = None if x is BAD else (None if x is None else float(x))
+                y = None if y is BAD else (None if y is None else float(y))
             if sid in seen:
                 chk.add(line, f"site '{sid}'", f"duplicate id (first on line {seen[sid]})")
                 continue
@@ -541,7 +299,7 @@ class _Builder:
         seq = self._section("links", "list")
         if seq is None:
             if "links" not in self.data or self.data["links"] is None:
-                chk.add(_line_of(self.data, "links"), "links", "missing (a list of links)")
+                chk.add(line_of(self.data, "links"), "links", "missing (a list of links)")
             return []
         links, seen = [], {}
         self.bad_links = set()
@@ -571,18 +329,18 @@ class _Builder:
             length = chk.number(m, "length", item, None, low=0, high=1e9)
             reservation = chk.number(m, "reservation", item, None, integer=True, low=0,
                                      high=MAX_UNITS)
-            ok = _BAD not in (capacity, installed, max_cap, module, cost, fixed, length,
+            ok = BAD not in (capacity, installed, max_cap, module, cost, fixed, length,
                               reservation)
             if ok and max_cap is not None and max_cap < installed:
-                chk.add(_line_of(m, "max_capacity"), item,
+                chk.add(line_of(m, "max_capacity"), item,
                         f"max_capacity {max_cap} is below installed {installed}")
                 ok = False
             if ok and capacity is not None and capacity < installed:
-                chk.add(_line_of(m, "capacity"), item,
+                chk.add(line_of(m, "capacity"), item,
                         f"capacity {capacity} is below installed {installed}")
                 ok = False
             if ok and capacity is not None and max_cap is not None and capacity > max_cap:
-                chk.add(_line_of(m, "capacity"), item,
+                chk.add(line_of(m, "capacity"), item,
                         f"capacity {capacity} is above max_capacity {max_cap}")
                 ok = False
             if ends is None:
@@ -592,14 +350,14 @@ class _Builder:
                 ends = ("?", "?")
             links.append(Link(
                 id=lid, ends=ends,
-                capacity=None if capacity is _BAD else capacity,
-                module=1 if module is _BAD else module,
-                cost_per_module=1.0 if cost is _BAD else float(cost),
-                fixed_cost=0.0 if fixed is _BAD else float(fixed),
-                max_capacity=None if max_cap is _BAD else max_cap,
-                installed=0 if installed is _BAD else installed,
-                length=None if length in (None, _BAD) else float(length),
-                reservation=None if reservation is _BAD else reservation,
+                capacity=None if capacity is BAD else capacity,
+                module=1 if module is BAD else module,
+                cost_per_module=1.0 if cost is BAD else float(cost),
+                fixed_cost=0.0 if fixed is BAD else float(fixed),
+                max_capacity=None if max_cap is BAD else max_cap,
+                installed=0 if installed is BAD else installed,
+                length=None if length in (None, BAD) else float(length),
+                reservation=None if reservation is BAD else reservation,
                 line=line,
             ))
         return links
@@ -610,7 +368,7 @@ class _Builder:
         seq = self._section("demands", "list")
         if seq is None:
             if "demands" not in self.data or self.data["demands"] is None:
-                chk.add(_line_of(self.data, "demands"), "demands", "missing (a list of demands)")
+                chk.add(line_of(self.data, "demands"), "demands", "missing (a list of demands)")
             return []
         link_pos = {link.id: i for i, link in enumerate(links)}
         good_links = [link for link in links if link.id not in self.bad_links]
@@ -644,19 +402,19 @@ class _Builder:
             value = chk.number(m, "value", item, None, low=0, high=1e15)
             if between is None or did is None:
                 continue
-            hold = 1.0 if holding is _BAD else float(holding)
+            hold = 1.0 if holding is BAD else float(holding)
             routes, generated = self._routes(m, item, between, hold, links, link_pos, graph,
                                              routing)
-            if routes and bandwidth is not _BAD:
+            if routes and bandwidth is not BAD:
                 self._check_bandwidth(m, item, routes, links, bandwidth)
             demands.append(Demand(
                 id=did, between=between,
-                traffic=0.0 if traffic is _BAD else float(traffic),
+                traffic=0.0 if traffic is BAD else float(traffic),
                 holding=hold,
-                bandwidth=1 if bandwidth is _BAD else bandwidth,
-                target=0.01 if target is _BAD else float(target),
+                bandwidth=1 if bandwidth is BAD else bandwidth,
+                target=0.01 if target is BAD else float(target),
                 routes=tuple(routes),
-                value=None if value in (None, _BAD) else float(value),
+                value=None if value in (None, BAD) else float(value),
                 line=line,
                 routes_generated=generated,
             ))
@@ -667,25 +425,25 @@ class _Builder:
         has_t = m.get("traffic") is not None
         has_r = m.get("rate") is not None
         if has_t and has_r:
-            chk.add(_line_of(m, "rate"), item,
+            chk.add(line_of(m, "rate"), item,
                     "give traffic (erlangs) or rate (per hour), not both")
-            return _BAD
+            return BAD
         if not has_t and not has_r:
             chk.add(m.line, item, "'traffic' is missing (erlangs, or give rate and holding)")
-            return _BAD
+            return BAD
         if has_t:
             return chk.number(m, "traffic", item, low=0, high=MAX_TRAFFIC,
                               high_note=f"more than {MAX_TRAFFIC:g} erlangs")
         rate = chk.number(m, "rate", item, low=0, high=MAX_TRAFFIC * 1e3,
                           high_note="calls per hour")
-        if rate is _BAD or holding is _BAD:
-            return _BAD
+        if rate is BAD or holding is BAD:
+            return BAD
         traffic = float(rate) * float(holding)
         if traffic > MAX_TRAFFIC:
-            chk.add(_line_of(m, "rate"), item,
+            chk.add(line_of(m, "rate"), item,
                     f"rate x holding = {traffic:g} erlangs is too large "
                     f"(more than {MAX_TRAFFIC:g} erlangs)")
-            return _BAD
+            return BAD
         return traffic
 
     def _routes(self, m, item, between, holding, links, link_pos, graph, routing):
@@ -708,17 +466,17 @@ class _Builder:
                       for ids in found]
             return routes, True
         raw = m["routes"]
-        line = _line_of(m, "routes")
-        if not isinstance(raw, _Seq) or not raw:
-            what = "is empty" if isinstance(raw, list) else f"must be a list, got {_kind(raw)}"
+        line = line_of(m, "routes")
+        if not isinstance(raw, Seq) or not raw:
+            what = "is empty" if isinstance(raw, list) else f"must be a list, got {kind(raw)}"
             chk.add(line, item, f"routes {what} (omit it to generate routes)")
             return [], False
         routes, seen = [], {}
         for r, route_raw in enumerate(raw):
             rline = raw.lines[r]
             ritem = f"{item}: route {r + 1}"
-            if not isinstance(route_raw, _Seq) or not route_raw:
-                chk.add(rline, ritem, f"must be a list of link ids, got {_kind(route_raw)} "
+            if not isinstance(route_raw, Seq) or not route_raw:
+                chk.add(rline, ritem, f"must be a list of link ids, got {kind(route_raw)} "
                         "(routes is a list of routes: [[A-B], [A-C, C-B]])")
                 continue
             steps = self._steps(route_raw, ritem, holding, links, link_pos)
@@ -740,11 +498,12 @@ class _Builder:
         for s, raw in enumerate(seq):
             sline = seq.lines[s]
             step_holding = holding
-            if isinstance(raw, _Map):
-                chk.keys(raw, STEP_KEYS, ritem)
-                lid = chk.ident(raw, "link", ritem)
+            if isinstance(raw, Map):
+                misspelt = chk.keys(raw, STEP_KEYS, ritem)
+                # a misspelt 'link' is reported once, as the unknown key
+                lid = chk.ident(raw, "link", ritem, required=not misspelt)
                 h = self._holding(raw, "holding", ritem, holding)
-                if h is _BAD:
+                if h is BAD:
                     ok = False
                 else:
                     step_holding = float(h)
@@ -754,7 +513,7 @@ class _Builder:
                 ok = False
                 continue
             if lid not in link_pos:
-                chk.add(sline, ritem, _unknown(f"link '{lid}' is not defined", lid, link_pos))
+                chk.add(sline, ritem, unknown(f"link '{lid}' is not defined", lid, link_pos))
                 ok = False
                 continue
             if lid in self.bad_links:
@@ -794,9 +553,11 @@ class _Builder:
 
     def _check_bandwidth(self, m, item, routes, links, bandwidth):
         def limit(link):
+            # the most the link could ever hold: its sizing bound, else its capacity; a
+            # capacity of 0 is a link out of service (blocks every call), not a size limit
             if link.max_capacity is not None:
                 return link.max_capacity
-            return link.capacity
+            return link.capacity if link.capacity else None
 
         def usable(route):
             return all(limit(links[j]) is None or bandwidth <= limit(links[j])
@@ -805,221 +566,53 @@ class _Builder:
         if not any(usable(r) for r in routes):
             worst = min((limit(links[j]), links[j].id) for r in routes for j in r.links
                         if limit(links[j]) is not None)
-            self.chk.add(_line_of(m, "bandwidth"), item,
+            self.chk.add(line_of(m, "bandwidth"), item,
                          f"bandwidth {bandwidth} fits no route: every route has a link that "
                          f"cannot hold it (e.g. link '{worst[1]}' with at most {worst[0]} units)")
 
 
-def _plain(value):
-    """Strip the line-number containers (for ``Network.extra``)."""
-    if isinstance(value, dict):
-        return {k: _plain(v) for k, v in value.items()}
-    if isinstance(value, list):
-        return [_plain(v) for v in value]
-    return value
-
-
 # --------------------------------------------------------------------------------------------
-# Writing
+# Summary
 # --------------------------------------------------------------------------------------------
-class _FlowList(list):
-    pass
-
-
-class _FlowMap(dict):
-    pass
-
-
-class _Dumper(yaml.SafeDumper):
-    pass
-
-
-_Dumper.add_representer(
-    _FlowList, lambda d, v: d.represent_sequence("tag:yaml.org,2002:seq", v, flow_style=True)
-)
-_Dumper.add_representer(
-    _FlowMap, lambda d, v: d.represent_mapping("tag:yaml.org,2002:map", v.items(),
-                                               flow_style=True)
-)
-
-
-def _num(x):
-    """A plain Python int or float (numpy scalars do not dump)."""
-    if isinstance(x, int) or getattr(getattr(x, "dtype", None), "kind", "") in ("i", "u"):
-        return int(x)
-    return float(x)
-
-
-def network_to_dict(network: Network, capacities=None) -> dict:
-    """The network as plain data in the network-file layout.
-
-    Parameters
-    ----------
-    network : Network
-    capacities : array_like of int, optional
-        Replace the links' capacities (one per link, in link order).
+def network_summary(network: Network) -> dict:
+    """Counts and totals of a network, as ``netdim check`` shows them.
 
     Returns
     -------
     dict
-        Readable by :func:`loads_network` (after YAML dumping) to an equal network. Fields at
-        their defaults are left out; routes equal to the generated ones are left out; a step's
-        holding time only where it differs from the demand's.
-
-    Raises
-    ------
-    ValueError
-        Wrong number of capacities, negative or non-integer capacities, or a demand with no
-        routes (such a network cannot be written as a valid file).
+        ``name``, ``source``, ``sites``, ``links``, ``demands``, ``routes`` (all candidate
+        routes), ``routes_generated`` / ``routes_given`` (routes of demands whose routes were
+        generated / given in the file), ``demands_generated`` (demands with generated
+        routes), ``longest_route`` (links), ``offered_traffic`` (total erlangs),
+        ``policy``, ``max_hops``, ``reservation``, ``max_routes``, ``links_without_capacity``
+        (ids), ``capacity_total``, ``multirate``, ``holding_overrides``, ``economic``
+        (demands with a value).
     """
-    if capacities is not None:
-        network = network.with_capacities(_check_caps(network, capacities))
-    out = {"name": network.name}
-    out.update(_plain(network.extra))
-    out["defaults"] = _FlowMap(target=_num(network.default_target),
-                               holding=_num(network.default_holding))
+    routes_gen = sum(len(d.routes) for d in network.demands if d.routes_generated)
+    routes_all = sum(len(d.routes) for d in network.demands)
+    missing = [link.id for link in network.links if link.capacity is None]
     r = network.routing
-    routing = {"policy": r.policy, "max_hops": int(r.max_hops),
-               "reservation": int(r.reservation)}
-    if r.max_routes is not None:
-        routing["max_routes"] = int(r.max_routes)
-    out["routing"] = _FlowMap(routing)
-    sites = []
-    for s in network.sites:
-        entry = _FlowMap(id=s.id)
-        for key in ("name", "x", "y"):
-            value = getattr(s, key)
-            if value is not None:
-                entry[key] = value if key == "name" else _num(value)
-        sites.append(entry)
-    out["sites"] = sites
-    out["links"] = [_link_dict(link) for link in network.links]
-
-    graph = link_graph(network.links, sites=[s.id for s in network.sites])
-    ids = network.link_ids
-    out["demands"] = [_demand_dict(network, d, graph, ids) for d in network.demands]
-    return out
-
-
-def _check_caps(network, capacities):
-    import numpy as np
-
-    caps = np.asarray(capacities)
-    if caps.shape != (len(network.links),):
-        raise ValueError(f"capacities: expected {len(network.links)} values (one per link), "
-                         f"got shape {caps.shape}")
-    if caps.dtype.kind not in "iuf" or np.any(caps != np.round(caps)) or np.any(caps < 0):
-        raise ValueError("capacities: must be whole numbers >= 0")
-    return caps.astype(np.int64)
+    return {
+        "name": network.name,
+        "source": network.source,
+        "sites": len(network.sites),
+        "links": len(network.links),
+        "demands": len(network.demands),
+        "routes": routes_all,
+        "routes_generated": routes_gen,
+        "routes_given": routes_all - routes_gen,
+        "demands_generated": sum(1 for d in network.demands if d.routes_generated),
+        "longest_route": max((rt.hops for d in network.demands for rt in d.routes), default=0),
+        "offered_traffic": float(sum(d.traffic for d in network.demands)),
+        "policy": r.policy,
+        "max_hops": r.max_hops,
+        "reservation": r.reservation,
+        "max_routes": r.max_routes,
+        "links_without_capacity": missing,
+        "capacity_total": int(sum(link.capacity or 0 for link in network.links)),
+        "multirate": network.is_multirate,
+        "holding_overrides": network.has_holding_overrides,
+        "economic": sum(1 for d in network.demands if d.value is not None),
+    }
 
 
-def _link_dict(link: Link) -> dict:
-    entry = {"id": link.id, "ends": _FlowList(link.ends)}
-    if link.capacity is not None:
-        entry["capacity"] = int(link.capacity)
-    if link.installed:
-        entry["installed"] = int(link.installed)
-    if link.module != 1:
-        entry["module"] = int(link.module)
-    if link.cost_per_module != 1.0:
-        entry["cost_per_module"] = _num(link.cost_per_module)
-    if link.fixed_cost != 0.0:
-        entry["fixed_cost"] = _num(link.fixed_cost)
-    if link.max_capacity is not None:
-        entry["max_capacity"] = int(link.max_capacity)
-    if link.length is not None:
-        entry["length"] = _num(link.length)
-    if link.reservation is not None:
-        entry["reservation"] = int(link.reservation)
-    return entry
-
-
-def _demand_dict(network, d: Demand, graph, ids) -> dict:
-    if not d.routes:
-        raise ValueError(f"demand '{d.id}' has no routes: a network file cannot say that")
-    entry = {"id": d.id, "between": _FlowList(d.between), "traffic": _num(d.traffic)}
-    if d.holding != network.default_holding:
-        entry["holding"] = _num(d.holding)
-    if d.bandwidth != 1:
-        entry["bandwidth"] = int(d.bandwidth)
-    if d.target != network.default_target:
-        entry["target"] = _num(d.target)
-    if d.value is not None:
-        entry["value"] = _num(d.value)
-    r = network.routing
-    generated = candidate_routes(graph, d.between[0], d.between[1], r.max_hops, r.max_routes)
-    given = [tuple(ids[j] for j in route.links) for route in d.routes]
-    plain = all(h == d.holding for route in d.routes for h in route.holdings)
-    if not (plain and given == generated):
-        entry["routes"] = [_route_list(route, d, ids) for route in d.routes]
-    return entry
-
-
-def _route_list(route: Route, d: Demand, ids):
-    steps = _FlowList()
-    for j, h in zip(route.links, route.holdings, strict=True):
-        if h == d.holding:
-            steps.append(ids[j])
-        else:
-            steps.append(_FlowMap(link=ids[j], holding=_num(h)))
-    return steps
-
-
-def dumps_network(network: Network, capacities=None) -> str:
-    """The network file text (see :func:`network_to_dict`)."""
-    data = network_to_dict(network, capacities)
-    head = f"# netdim network file: {network.name}\n"
-    return head + yaml.dump(data, Dumper=_Dumper, sort_keys=False, allow_unicode=True,
-                            default_flow_style=False, width=100)
-
-
-def write_network(network: Network, path, capacities=None) -> None:
-    """Write ``network`` as a network file, whole or not at all.
-
-    Parameters
-    ----------
-    network : Network
-    path : str or path-like
-    capacities : array_like of int, optional
-        Capacities to write instead of the links' own (e.g. a sizing plan's).
-
-    Raises
-    ------
-    ValueError
-        See :func:`network_to_dict`.
-    OSError
-        The file cannot be written (named in the error); an existing file is left as it was.
-
-    Notes
-    -----
-    The text goes to a temporary file in the same directory, is flushed to disk, and then
-    replaces ``path`` in one :func:`os.replace` step, so readers see the old file or the new
-    one, never a partial one.
-    """
-    text = dumps_network(network, capacities)
-    target = pathlib.Path(path)
-    directory = target.parent if str(target.parent) else pathlib.Path(".")
-    tmp_name = None
-    try:
-        fd, tmp_name = tempfile.mkstemp(dir=directory, prefix=f".{target.name}.",
-                                        suffix=".tmp")
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        if target.exists():
-            os.chmod(tmp_name, target.stat().st_mode & 0o7777)
-        else:
-            umask = os.umask(0)
-            os.umask(umask)
-            os.chmod(tmp_name, 0o666 & ~umask)
-        os.replace(tmp_name, target)
-        tmp_name = None
-    except OSError as exc:
-        raise OSError(exc.errno, f"cannot write: {exc.strerror or exc}", str(path)) from None
-    finally:
-        if tmp_name is not None:
-            try:
-                os.unlink(tmp_name)
-            except OSError:
-                pass

@@ -57,8 +57,8 @@ def candidate_routes(network_or_graph, origin, dest, max_hops: int, max_routes=N
     ----------
     network_or_graph : Network or networkx.MultiGraph
         A network (its :meth:`~netdim.model.Network.to_graph` is used) or a multigraph whose
-        edge keys are link ids, as :func:`link_graph` builds. When generating routes for many
-        demands, build the graph once and pass it.
+        edge keys are link ids (text, or at least mutually comparable), as :func:`link_graph`
+        builds. When generating routes for many demands, build the graph once and pass it.
     origin, dest : str
         Site ids (distinct).
     max_hops : int
@@ -99,34 +99,40 @@ def candidate_routes(network_or_graph, origin, dest, max_hops: int, max_routes=N
     ):
         raise ValueError(f"max_routes: must be an integer >= 1 or None, got {max_routes!r}")
 
+    # the plain dict-of-dicts behind graph.adj: views cost a call per look-up, and dense
+    # meshes make millions of them
+    adj = getattr(graph, "_adj", None) or graph.adj
     if max_hops <= 2:
-        paths = _short_paths(graph, origin, dest, max_hops)
+        keyed = _short_paths(adj, origin, dest, max_hops)
     else:
-        paths = [
-            tuple((u, v, k) for u, v, k in path)
+        keyed = [
+            _keyed([(k, adj[u][v][k]) for u, v, k in path])
             for path in nx.all_simple_edge_paths(graph, origin, dest, cutoff=int(max_hops))
         ]
-
-    def sort_key(path):
-        datas = [graph.edges[u, v, k] for u, v, k in path]
-        return (
-            len(path),
-            sum(_edge_attr(d, "length") for d in datas),
-            sum(_edge_attr(d, "cost_per_module") for d in datas),
-            tuple(str(k) for _, _, k in path),
-        )
-
-    paths.sort(key=sort_key)
-    routes = [tuple(k for _, _, k in path) for path in paths]
+    keyed.sort()
+    routes = [item[3] for item in keyed]
     if max_routes is not None:
         routes = routes[: int(max_routes)]
     return routes
 
 
-def _short_paths(graph, origin, dest, max_hops):
-    """Direct and (when ``max_hops == 2``) two-link paths, as (u, v, key) triples."""
-    adj = graph.adj
-    paths = [((origin, dest, k),) for k in adj[origin].get(dest, {})]
+def _keyed(steps):
+    """(hops, total length, total cost per module, ids): the sort key, ids last."""
+    ids = tuple(k for k, _ in steps)
+    return (
+        len(steps),
+        sum(_edge_attr(d, "length") for _, d in steps),
+        sum(_edge_attr(d, "cost_per_module") for _, d in steps),
+        ids,
+        ids,
+    )
+
+
+def _short_paths(adj, origin, dest, max_hops):
+    """Sort keys of the direct and (when ``max_hops == 2``) two-link paths."""
+    out = []
+    for k, d in adj[origin].get(dest, {}).items():
+        out.append((1, _edge_attr(d, "length"), _edge_attr(d, "cost_per_module"), (k,), (k,)))
     if max_hops >= 2:
         for mid, keys in adj[origin].items():
             if mid == dest or mid == origin:
@@ -134,7 +140,10 @@ def _short_paths(graph, origin, dest, max_hops):
             onward = adj[mid].get(dest)
             if not onward:
                 continue
-            for k1 in keys:
-                for k2 in onward:
-                    paths.append(((origin, mid, k1), (mid, dest, k2)))
-    return paths
+            for k1, d1 in keys.items():
+                l1, c1 = _edge_attr(d1, "length"), _edge_attr(d1, "cost_per_module")
+                for k2, d2 in onward.items():
+                    ids = (k1, k2)
+                    out.append((2, l1 + _edge_attr(d2, "length"),
+                                c1 + _edge_attr(d2, "cost_per_module"), ids, ids))
+    return out

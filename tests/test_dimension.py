@@ -259,3 +259,39 @@ def test_economic_line_network_matches_enumeration():
     ref = max(objective(c1, c2) for c1 in range(25, 50) for c2 in range(18, 42))
     plan = dimension(_valued(line_network(), values))
     assert plan.details["objective"] == pytest.approx(ref, rel=1e-9)
+
+
+def test_demand_without_buildable_route_is_infeasible():
+    # max_capacity 0 on B-C: the B-C and A-C demands have no capacity at all on their only
+    # route (a call needs one free circuit; common practice, no source).
+    plan = dimension(line_network(bc={"max_capacity": 0}))
+    assert plan.status == "infeasible"
+    assert "demand 'BC'" in plan.message and "demand 'AC'" in plan.message
+    assert "demand 'AB'" not in plan.message
+    assert plan.capacities[1] == 0
+    assert plan.evaluation.met[0]
+
+
+@pytest.mark.slow
+def test_line_plan_checked_by_simulation():
+    # The fixed-point plan of the line network, simulated: no demand's 95 % interval lies
+    # wholly above its target (the plan also meets the exact product form, checked above).
+    plan = dimension(line_network())
+    from netdim.evaluate import evaluate
+
+    ev = evaluate(line_network(), plan.capacities, method="simulate", seed=7, calls=200_000)
+    assert ev.blocking_interval is not None
+    assert np.all(ev.blocking_interval[:, 0] <= ev.target)
+    c1, c2 = (int(c) for c in plan.capacities)
+    assert max(line_exact(c1, c2)) <= 0.01
+
+
+def test_exact_model_refuses_large_networks():
+    from netdim.errors import ModelTooLargeError
+
+    big = line_network()
+    from dataclasses import replace
+
+    big = replace(big, demands=tuple(replace(d, traffic=d.traffic * 40) for d in big.demands))
+    with pytest.raises(ModelTooLargeError, match="model 'exact': network 'line' has about"):
+        dimension(big, model="exact")

@@ -163,3 +163,26 @@ def test_alternate_routing_plan_meets_targets_and_is_least_cost_under_exact():
     fp = dimension(net)
     assert fp.evaluation.all_met
     assert evaluate(net, fp.capacities, method="fixed-point").all_met
+
+
+def test_multirate_least_cost_by_enumeration():
+    # A-C calls take 2 circuits on both links. Reference: every plan in range enumerated and
+    # evaluated by netdim's fixed point (Kaufman-Roberts links, checked in its own tests);
+    # this checks the search.
+    links = [Link("AB", ("A", "B")), Link("BC", ("B", "C"), cost_per_module=2.0)]
+    demands = [Demand("AB", ("A", "B"), 8.0, routes=(R(0),)),
+               Demand("BC", ("B", "C"), 6.0, routes=(R(1),)),
+               Demand("AC", ("A", "C"), 3.0, bandwidth=2, routes=(R(0, 1),))]
+    net = network(links, demands)
+    best = math.inf
+    for caps in itertools.product(range(14, 34), range(12, 32)):
+        cost = caps[0] + 2 * caps[1]
+        if cost < best and evaluate(net, np.array(caps)).all_met:
+            best = cost
+    plan = dimension(net)
+    assert plan.cost == pytest.approx(best)
+    assert plan.lower_bound <= best + 1e-9
+    # The baseline holds every class to target / hops, so it meets the targets too.
+    assert evaluate(net, plan.baseline_capacities).all_met
+    assert plan.cost <= plan.baseline_cost
+    assert net.is_multirate

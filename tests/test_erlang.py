@@ -130,6 +130,20 @@ def test_log1m_erlang_b_matches_mpmath_reference():
         assert _rel(vec[i], l1m) <= 1e-12, (ai, ni)
 
 
+def test_vectorised_path_agrees_with_mpmath_at_large_recursion_depth():
+    # source: mpmath (incomplete-gamma formula) at n up to 5000, where the array path still
+    # runs the recursion; a rounding of 1/A that acted like a change of A would show here
+    mp.mp.dps = 40
+    a = np.array([4000.0, 4999.5, 4500.0, 3000.0, 123.456])
+    n = np.array([5000, 5000, 4321, 3100, 4000], dtype=float)
+    got = erlang_b(a, n)
+    for g, ai, ni in zip(got, a, n, strict=True):
+        exact = mp.exp(ni * mp.log(ai) - ai - mp.log(mp.gammainc(ni + 1, ai)))
+        if exact > mp.mpf("1e-300"):
+            assert _rel(g, exact) <= 1e-13
+            assert _rel(erlang_b(float(ai), float(ni)), exact) <= 1e-13
+
+
 def test_large_server_counts_stay_finite():
     # source: mpmath evaluated here (same incomplete-gamma formula) at servers up to 1e7
     mp.mp.dps = 40
@@ -211,10 +225,15 @@ def test_servers_for_is_smallest():
 def test_traffic_for_precision():
     # source: definition (largest A with E(A, n) <= target): E at A is <= target and E at
     # A (1 + 1e-12) is above it
-    for n in [1, 2.5, 7, 20, 100, 1000, 2e4]:
+    for n in [0.5, 1, 2.5, 3.3, 7, 20, 100, 1000, 2e4]:
         for t in [0.5, 0.01, 1e-9, 1e-300]:
             a = traffic_for(n, t)
-            assert erlang_b(a, n) <= t or log_erlang_b(a, n) <= math.log(t)
+            if a == 0.0:
+                # the answer is below the smallest double: E ~ A^n / n! for small A
+                # (leading term of Erlang's formula) puts it at exp((log t + lgamma(n+1))/n)
+                assert (math.log(t) + math.lgamma(n + 1)) / n < math.log(5e-324)
+                continue
+            assert erlang_b(a, n) <= t
             assert log_erlang_b(a * (1 + 1e-12), n) > math.log(t)
     vec = traffic_for(np.array([20, 100, 0]), 0.01)
     assert vec[2] == 0.0

@@ -371,3 +371,15 @@ def test_multirate_overflow_with_reservation():
     b0 = product_form_blocking([c0], [[0], [0]], a, bws)
     b1 = product_form_blocking([c1 - r], [[0], [0]], [a[0] * b0[0], a[1] * b0[1]], bws)
     assert ev.blocking == pytest.approx(b0 * b1, rel=1e-8)
+
+
+def test_demand_without_route_and_unknown_policy():
+    # Source: common practice, no source (a call with no route is lost).
+    net = network([10], [(5.0, [[0]]), (2.0, [])])
+    ev = fixed_point(net)
+    assert ev.blocking[1] == 1.0
+    assert ev.blocking[0] == pytest.approx(erlang_b_ref(5.0, 10), rel=1e-10)
+    from dataclasses import replace
+    bad = replace(net, routing=Routing(policy="random"))
+    with pytest.raises(ValueError, match="routing policy: unknown policy 'random'"):
+        fixed_point(bad)

@@ -31,7 +31,8 @@ NETWORKS = HERE.parent / "networks"
 # file -> (line, item, problem regex). Lines counted by hand in each file (line 1 is the
 # comment saying what is broken).
 BROKEN_CASES = {
-    "yaml_syntax": (8, "YAML", r"expected ',' or '\]'"),
+    # wording differs between PyYAML's pure-Python parser and libyaml's
+    "yaml_syntax": (8, "YAML", r"(did not find )?expected ',' or '\]'"),
     "unknown_key": (5, "links[1]", r"unknown key 'capcity' \(did you mean 'capacity'\?\)"),
     "unknown_top_key": (9, "file", r"unknown key 'routng' \(did you mean 'routing'\?\)"),
     "duplicate_key": (11, "YAML", r"duplicate key 'traffic' \(first on line 10\)"),
@@ -344,3 +345,89 @@ def test_demo_loads_with_capacities(path, tmp_path):
     out = tmp_path / path.name
     write_network(net, out)
     assert read_network(out) == net
+
+
+# -- further error paths, inline (each one problem on a known line of BASE + text) ---------
+def demand(fields):
+    return BASE + "demands:\n  - {id: D1, between: [A, B], " + fields + "}\n"
+
+
+NODEMANDS = BASE + "demands: []\n"  # a valid file with no demands
+MORE_CASES = [
+    # (text, line, item, problem regex)
+    (demand("traffic: 1, routes: [A-B]"), 8, "demand 'D1'",
+     r"route 1: must be a list of link ids, got text 'A-B'"),
+    (demand("traffic: 1, routes: []"), 8, "demand 'D1'", r"routes is empty \(omit it"),
+    (demand("traffic: 1, routes: 3"), 8, "demand 'D1'", r"routes must be a list, got int 3"),
+    (demand("traffic: 1, routes: [[A-B], [A-B]]"), 8, "demand 'D1'",
+     r"route 2: repeats route 1"),
+    (demand("traffic: 1, routes: [[{lnk: A-B}]]"), 8, "demand 'D1'",
+     r"route 1: unknown key 'lnk' \(did you mean 'link'\?\)"),
+    (demand("traffic: .nan"), 8, "demand 'D1'", r"traffic must be a number, got nan"),
+    (demand("traffic: [1]"), 8, "demand 'D1'", r"traffic must be a number, got a list"),
+    (demand("rate: 2.0e+12, holding: 1"), 8, "demand 'D1'", r"rate .* is too large"),
+    (demand("rate: 2.0e+6, holding: 9"), 8, "demand 'D1'",
+     r"rate x holding = 1.8e\+07 erlangs is too large"),
+    (demand("traffic: 1, bandwidth: 0"), 8, "demand 'D1'", r"bandwidth must be >= 1, got 0"),
+    (demand("traffic: 1, value: -3"), 8, "demand 'D1'", r"value must be >= 0, got -3"),
+    (demand("traffic: 1, id: D2"), 8, "YAML", r"duplicate key 'id' \(first on line 8\)"),
+    (BASE + "demands: 4\n", 7, "demands", r"must be a list, got int 4"),
+    (BASE + "demands:\n  - 4\n", 8, "demands[1]", r"a demand must be a mapping"),
+    (NODEMANDS.replace("capacity: 5}\n  - {id: B-C", "capacity: 5, installed: 8}\n  - {id: B-C"),
+     4, "link 'A-B'", r"capacity 5 is below installed 8"),
+    (NODEMANDS.replace("{id: B-C, ends: [B, C], capacity: 5}",
+                  "{id: B-C, ends: [B, C], capacity: 50, max_capacity: 40}"),
+     5, "link 'B-C'", r"capacity 50 is above max_capacity 40"),
+    (NODEMANDS.replace("{id: B-C, ends: [B, C], capacity: 5}", "{id: B-C, ends: [B, B]}"),
+     5, "link 'B-C'", r"ends names the same site 'B' twice"),
+    (NODEMANDS.replace("{id: B-C, ends: [B, C], capacity: 5}", "{id: B-C, ends: [B]}"),
+     5, "link 'B-C'", r"ends must be a list of two site ids, got a list"),
+    (NODEMANDS.replace("capacity: 5}\n  - {id: A-C", "length: x}\n  - {id: A-C"),
+     5, "link 'B-C'", r"length must be a number, got 'x'"),
+    (NODEMANDS.replace("{id: B-C, ends: [B, C], capacity: 5}", "[B-C]"),
+     5, "links[2]", r"a link must be a mapping"),
+    (NODEMANDS.replace("{id: B-C, ends: [B, C], capacity: 5}", "{ends: [B, C]}"),
+     5, "links[2]", r"'id' is missing"),
+    (NODEMANDS.replace("{id: C}]", "{id: C, x: east}]"),
+     2, "site 'C'", r"x must be a number, got 'east'"),
+    (NODEMANDS.replace("{id: C}]", "{id: C, name: [1]}]"),
+     2, "site 'C'", r"name must be text, got a list"),
+    (NODEMANDS.replace("{id: C}]", "{id: C}, [D]]"),
+     2, "sites[4]", r"a site must be a mapping"),
+    (NODEMANDS.replace("name: tiny", "name: [tiny]"), 1, "name", r"name must be text, got a list"),
+    (NODEMANDS.replace("name: tiny", "name: tiny\n? [a]\n: 1"), 2, "YAML",
+     r"a key must be plain text"),
+    (BASE + "demands: []\nrouting: {max_hops: 50}\n", 8, "routing",
+     r"max_hops 50 is too large \(more than 20 links per route\)"),
+    (BASE + "demands: []\nrouting: {max_routes: 0}\n", 8, "routing", r"max_routes must be >= 1"),
+    (BASE + "demands: []\nrouting: 2\n", 8, "routing", r"must be a mapping, got int 2"),
+    (BASE + "demands: []\ndefaults: {holding: -1}\n", 8, "defaults", r"holding must be > 0"),
+    ("", 1, "file", r"is empty"),
+    ("just text\n", 1, "file", r"must be a mapping .*got text 'just text'"),
+    ("a: 1\n---\nb: 2\n", 2, "YAML", r".*single document"),
+]
+
+
+@pytest.mark.parametrize("text, line, item, problem", MORE_CASES)
+def test_more_error_paths(text, line, item, problem):
+    pattern = re.escape(f"inline.yaml:{line}: {item}: ") + f"({problem})"
+    with pytest.raises(NetworkFileError, match=pattern) as info:
+        loads_network(text, source="inline.yaml")
+    assert len(info.value.problems) == 1, info.value.problems
+
+
+def test_zero_capacity_link_is_not_a_bandwidth_limit():
+    # a link at capacity 0 is out of service: it blocks calls but does not make the file wrong
+    net = loads_network(BASE.replace("capacity: 5}\n  - {id: B-C", "capacity: 0}\n  - {id: B-C")
+                        + "demands:\n  - {id: D1, between: [A, B], traffic: 1, bandwidth: 3,"
+                          " routes: [[A-B]]}\n")
+    assert net.links[0].capacity == 0
+    # one route that fits is enough (A-C and B-C get room for 6 units)
+    roomy = BASE.replace("ends: [B, C], capacity: 5", "ends: [B, C], capacity: 6").replace(
+        "ends: [A, C], capacity: 5", "ends: [A, C], max_capacity: 60")
+    net = loads_network(roomy + "demands:\n  - {id: D1, between: [A, B], traffic: 1, "
+                                "bandwidth: 6, routes: [[A-B], [A-C, {link: B-C}]]}\n")
+    assert net.demands[0].bandwidth == 6
+    with pytest.raises(NetworkFileError, match="bandwidth 7 fits no route"):
+        loads_network(roomy + "demands:\n  - {id: D1, between: [A, B], traffic: 1, "
+                              "bandwidth: 7, routes: [[A-B], [A-C, {link: B-C}]]}\n")

@@ -133,3 +133,39 @@ def test_no_path_gives_empty():
 def test_bad_arguments(args, match):
     with pytest.raises(ValueError, match=match):
         candidate_routes(toy(), *args)
+
+
+def brute_force_routes(links, origin, dest, max_hops):
+    """Every loop-free link sequence from origin to dest, by plain depth-first search.
+
+    Written here, independent of networkx and of netdim.routing (parallel links included).
+    """
+    found = []
+
+    def walk(here, used, visited):
+        if here == dest:
+            found.append(tuple(used))
+            return
+        if len(used) == max_hops:
+            return
+        for link in links:
+            if here in link.ends:
+                there = link.ends[1] if link.ends[0] == here else link.ends[0]
+                if there not in visited:
+                    walk(there, used + [link.id], visited | {there})
+
+    walk(origin, [], {origin})
+    return found
+
+
+@pytest.mark.parametrize("max_hops", [1, 2, 3, 4])
+def test_same_routes_as_brute_force_with_parallel_links(max_hops):
+    net = toy()
+    for origin in "ABCD":
+        for dest in "ABCD":
+            if origin == dest:
+                continue
+            got = candidate_routes(net, origin, dest, max_hops)
+            expected = brute_force_routes(net.links, origin, dest, max_hops)
+            assert sorted(got) == sorted(expected)
+            assert len(set(got)) == len(got)

@@ -18,7 +18,7 @@ from netdim.errors import NetdimError, NetworkFileError
 __all__ = ["main", "build_parser"]
 
 #: Sub-command modules, in the order ``netdim --help`` lists them.
-COMMAND_MODULES = ("erlang_cmd", "size_cmd", "evaluate_cmd")
+COMMAND_MODULES = ("erlang_cmd", "check_cmd", "evaluate_cmd", "size_cmd")
 
 
 class _Parser(argparse.ArgumentParser):

@@ -119,7 +119,8 @@ def run(args) -> int:
         if args.json:
             print(json.dumps(result.to_dict(), indent=2))
         else:
-            print(comparison_text(result), end="")
+            text = comparison_text(result)
+            print(text, end="" if text.endswith("\n") else "\n")
         return 0
 
     from netdim.evaluate import evaluate

@@ -2,9 +2,11 @@
 
 Every link is given the fewest modules such that Erlang B at its un-thinned load (all the
 first-route traffic over it) is at most the strictest ``target / hops`` of the demands whose
-first route uses it. Splitting a target evenly over the hops is the old rule of thumb for a
-tandem connection (common practice, no source); it ignores that links are shared and that
-loads are thinned, which is what the least-cost sizer exploits.
+first route uses it; on a link carrying calls of several bandwidths, every class's
+Kaufman-Roberts blocking is held to that share instead. Splitting a target evenly over
+the hops is the old rule of thumb for a tandem connection (common practice, no source);
+it ignores that links are shared and that loads are thinned, which is what the least-cost
+sizer exploits.
 """
 
 from __future__ import annotations
@@ -48,5 +50,29 @@ def baseline(network, space: LinkSpace | None = None):
     if len(used):
         n = np.asarray(servers_for(loads[used], share[used]), dtype=np.int64)
         need[used] = np.maximum(n, bw[used])
+    _multirate(network, share, need)
     k = np.minimum(space.modules_for(need), space.kmax)
     return space.capacity(k), space.cost(k)
+
+
+def _multirate(network, share, need):
+    """Raise ``need`` on multi-rate links until every class meets ``share`` (Kaufman-Roberts)."""
+    from netdim.linkmodels import kaufman_roberts
+
+    classes: dict[int, dict[int, float]] = {}
+    for d in network.demands:
+        if not d.routes:
+            continue
+        r = d.routes[0]
+        for j, h in zip(r.links, r.holdings, strict=True):
+            cl = classes.setdefault(j, {})
+            cl[d.bandwidth] = cl.get(d.bandwidth, 0.0) + d.traffic * h / d.holding
+    for j, cl in classes.items():
+        if len(cl) < 2 and 1 in cl:
+            continue
+        bws = np.array(sorted(cl), dtype=np.int64)
+        loads = np.array([cl[b] for b in bws])
+        n = int(need[j])
+        while np.max(kaufman_roberts(loads, bws, n)) > share[j]:
+            n += 1
+        need[j] = n

@@ -118,7 +118,8 @@ def solve_secant_milp(space, table, routes, budgets, solver="highs", mip_gap=1e-
     -------
     MilpResult
         ``k`` is the plan; a demand whose constraint cannot hold even at every link's bound
-        is listed in ``infeasible_demands`` and its links are set to their bound.
+        is listed in ``infeasible_demands``; its constraint is dropped and each of its links
+        that alone breaks its budget is set to its bound.
     """
     import pulp
 
@@ -157,8 +158,11 @@ def solve_secant_milp(space, table, routes, budgets, solver="highs", mip_gap=1e-
     for d, r in enumerate(routes):
         if len(r) and gfix[list(r)].sum() > budgets[d] * (1 + 1e-9):
             bad.append(d)
+            # Its constraint is dropped; a link that alone breaks the budget goes to its
+            # bound (the best that link can do), the others stay sized for other demands.
             for j in r:
-                klo[j] = khi[j]
+                if gfix[j] > budgets[d]:
+                    klo[j] = khi[j]
 
     prob = pulp.LpProblem("size", pulp.LpMinimize)
     cat = pulp.LpContinuous if relax else pulp.LpInteger

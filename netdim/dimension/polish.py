@@ -89,6 +89,8 @@ def repair(evaluator, k, alternate, max_rounds=200, progress=None):
     space = evaluator.space
     k = np.asarray(k, np.int64).copy()
     dl = _demand_links(evaluator.network, alternate)
+    routes = [[r.links for r in (d.routes if alternate else d.routes[:1])]
+              for d in evaluator.network.demands]
     stuck = []
     best_excess, idle = np.inf, 0
     for _ in range(max_rounds):
@@ -98,7 +100,8 @@ def repair(evaluator, k, alternate, max_rounds=200, progress=None):
             return k, []
         # Stop when the excess -log survival over the budgets no longer falls: the broken
         # demands are held by links at their bounds.
-        excess = float(np.sum(np.log1p(-ev.target[broken]) - np.log1p(-ev.blocking[broken])))
+        lost = np.minimum(ev.blocking[broken], 1 - 1e-12)  # a demand losing every call
+        excess = float(np.sum(np.log1p(-ev.target[broken]) - np.log1p(-lost)))
         if excess < best_excess * (1 - 1e-6):
             best_excess, idle = excess, 0
         else:
@@ -107,7 +110,16 @@ def repair(evaluator, k, alternate, max_rounds=200, progress=None):
                 return k, [int(d) for d in broken]
         add = set()
         stuck = []
+        lb = np.asarray(ev.link_blocking, float)
         for d in broken:
+            budget = -np.log1p(-ev.target[d])
+            if len(routes[d]) == 1 and any(
+                k[j] >= space.kmax[j] and -np.log1p(-min(lb[j], 1 - 1e-12)) > budget
+                for j in routes[d][0]
+            ):
+                # A link of its only route, at its bound, alone loses more than the target.
+                stuck.append(int(d))
+                continue
             cand = [j for j in dl[d] if k[j] < space.kmax[j]]
             if not cand:
                 stuck.append(int(d))

@@ -90,6 +90,11 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
     every target starts the local search, which makes every target hold under the chosen
     evaluation.
 
+    *Multi-rate.* The MILP works on the one-unit scale (Erlang B at the link's load in
+    units) and divides a b-unit demand's budget by b, since class blocking ratios tend to
+    the bandwidth ratios on large links (Labourdette and Hart 1992); the local search makes
+    the targets hold under the evaluation (Kaufman-Roberts per link).
+
     *Fixed costs.* The MILP sizes a given route set. Links with a fixed cost and nothing
     installed are then tried for dropping, dearest first: routes over a dropped link become
     unusable (a demand's first usable route becomes its first choice), the network is
@@ -113,6 +118,9 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
     ----------
     E. J. Messerli, "Proof of a convexity property of the Erlang B formula", BSTJ 51 (1972).
     ITU-T Recommendation E.529, "Network dimensioning using end-to-end GOS objectives".
+    J.-F. P. Labourdette and G. W. Hart, "Blocking probabilities in multitraffic loss
+    systems: insensitivity, asymptotic behavior, and approximations", IEEE Transactions on
+    Communications 40 (1992) 1355-1366.
     F. P. Kelly, "Blocking probabilities in large circuit-switched networks", Advances in
     Applied Probability 18 (1986) 473-505.
     """
@@ -130,6 +138,8 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
     say = progress or (lambda s: None)
     space = LinkSpace.of(network)
     base_caps, base_cost = baseline(network, space)
+    if model == "exact":
+        _check_exact_size(network, base_caps)
     if economic is None:
         economic = bool(network.demands) and all(d.value is not None for d in network.demands)
     if economic:
@@ -172,7 +182,7 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
     used = _used_links(net)
     k = np.where(used | (space.installed > 0), k, 0)
     ev = Evaluator(net, space, _method(model), warm=False)(k)
-    if not ev.all_met and evaluator.warm:
+    if not ev.all_met and evaluator.warm and not stuck:
         # The warm-started search tracked another solution of the fixed-point equations:
         # repair under the full evaluation.
         say("repairing under the fresh evaluation")
@@ -261,6 +271,7 @@ def _size_routes(network, space, model, solver, mip_gap, time_limit, max_iter, s
 
     routes = [d.routes[0].links if d.routes else () for d in network.demands]
     target = np.array([d.target for d in network.demands], dtype=float)
+    bw = np.array([d.bandwidth for d in network.demands], dtype=float)
     kmin = _kmin(network, space)
     loads = first_route_loads(network)
     q = np.ones(len(target))
@@ -274,7 +285,10 @@ def _size_routes(network, space, model, solver, mip_gap, time_limit, max_iter, s
     best_ok = None
     for it in range(1, max_iter + 1):
         eff = np.minimum(target / np.maximum(q, 1e-12), _MAX_EFFECTIVE_TARGET)
-        budgets = -np.log1p(-eff)
+        # Multi-rate: a call of b units is blocked about b times as often as a one-unit call
+        # on a large link (Labourdette and Hart 1992), so its budget on the one-unit scale
+        # g_j is divided by b; the local search then checks with Kaufman-Roberts.
+        budgets = -np.log1p(-eff) / bw
         table = LossTable(loads, space.installed, space.module)
         res = solve_secant_milp(space, table, routes, budgets, solver=solver, mip_gap=mip_gap,
                                 time_limit=time_limit, kmin=kmin)
@@ -424,3 +438,17 @@ def _infeasible_message(net, space, ev, hint):
                      f"{ev.target[i]:.4g} ({why})")
     more = f" and {len(names) - 10} more" if len(names) > 10 else ""
     return "targets cannot be met: " + "; ".join(parts) + more
+
+
+def _check_exact_size(network, caps, max_states=200_000):
+    """Fail early when the exact method could not evaluate plans near the baseline's size."""
+    from netdim.errors import ModelTooLargeError
+    from netdim.evaluate.exact import count_states
+
+    n = count_states(network, caps, limit=max_states)
+    if n > max_states:
+        raise ModelTooLargeError(
+            f"model 'exact': network '{network.name}' has about {n:.3g} states at the "
+            f"baseline capacities, more than {max_states}; size with model 'fixed-point' "
+            "and check the plan by simulation"
+        )

@@ -7,9 +7,11 @@ fixed and alternate routing, single- and multi-rate calls and per-link holding t
 ``conservative`` variant offers every link its un-thinned load (the product bound).
 
 The iteration runs on flat per-step arrays (one entry per (route, link) step, from
-:func:`netdim.model.incidence`): sums of ``log(1 - B)`` per route by ``bincount``, the own
-link excluded per step as ``exp(S_r - l_j)``, loads gathered onto links by ``bincount``. No
-Python loop over demands runs inside the iteration.
+:func:`netdim.model.incidence`): the product of ``1 - B`` over each route by
+``multiply.reduceat`` (steps come route by route; a sum of logs by ``bincount`` otherwise),
+the own link excluded per step as ``Q_r / q_j``, loads gathered onto links by ``bincount``.
+Final route blockings come from sums of ``log(1 - B)`` (``1 - exp(S_r)`` by ``expm1``) for
+full relative precision. No Python loop over demands runs inside the iteration.
 """
 
 from __future__ import annotations
@@ -462,7 +464,9 @@ def fixed_point(network, capacities=None, conservative=False, tol=1e-10, max_ite
     gap_l = float(np.max(np.abs(B2 - B))) if B.size else 0.0
     gap = max(float(gap_d.max()) if gap_d.size else 0.0, gap_l)
     if gap <= BISTABLE_GAP:
-        return _replace(main, iterations=it + it2)
+        return _replace(main, iterations=it + it2, message=(
+            f"converged in {it} iterations from idle links and {it2} from full links, to the "
+            f"same solution (largest change {max(res, res2):.2g})"))
     i = int(np.argmax(gap_d)) if gap_d.size else 0
     worst = (f"; demand '{main.demand_ids[i]}' {main.blocking[i]:.4g} vs "
              f"{other.blocking[i]:.4g}") if gap_d.size else ""

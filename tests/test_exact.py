@@ -1,0 +1,181 @@
+"""Tests of the exact evaluator (product form and Markov chain)."""
+
+import itertools
+import math
+
+import numpy as np
+import pytest
+
+from netdim.errors import ModelTooLargeError
+from netdim.evaluate.exact import exact
+from netdim.model import Demand, Link, Network, Route, Routing, Site
+
+
+def erlang_b(a, c):
+    # Erlang B by the standard recursion B(0)=1, B(k)=aB/(k+aB) (Erlang 1917; any handbook)
+    b = 1.0
+    for k in range(1, c + 1):
+        b = a * b / (k + a * b)
+    return b
+
+
+def one_link(cap, demands):
+    sites = (Site("A"), Site("B"))
+    ds = tuple(
+        Demand(f"D{i}", ("A", "B"), a, bandwidth=b, routes=(Route((0,), (1.0,)),))
+        for i, (a, b) in enumerate(demands)
+    )
+    return Network("one", sites, (Link("AB", ("A", "B"), cap),), ds)
+
+
+def tandem(cap, a):
+    sites = (Site("A"), Site("B"), Site("C"))
+    links = (Link("AB", ("A", "B"), cap), Link("BC", ("B", "C"), cap))
+    d = Demand("AC", ("A", "C"), a, routes=(Route((0, 1), (1.0, 1.0)),))
+    return Network("tandem", sites, links, (d,))
+
+
+def triangle(cap, a, reservation, policy="alternate", holdings=(1.0, 1.0)):
+    sites = (Site("A"), Site("B"), Site("C"))
+    links = (Link("AB", ("A", "B"), cap), Link("BC", ("B", "C"), cap),
+             Link("AC", ("A", "C"), cap))
+    ds = (
+        Demand("AB", ("A", "B"), a, routes=(Route((0,), (1.0,)), Route((2, 1), holdings))),
+        Demand("BC", ("B", "C"), a, routes=(Route((1,), (1.0,)), Route((0, 2), holdings))),
+        Demand("AC", ("A", "C"), a, routes=(Route((2,), (1.0,)), Route((0, 1), holdings))),
+    )
+    return Network("tri", sites, links, ds, routing=Routing(policy, reservation=reservation))
+
+
+@pytest.mark.parametrize("a,c", [(5.0, 10), (2.0, 1), (20.0, 25), (0.5, 3)])
+def test_single_link_equals_erlang_b(a, c):
+    # source: Erlang B recursion (written above)
+    ev = exact(one_link(c, [(a, 1)]))
+    assert ev.blocking[0] == pytest.approx(erlang_b(a, c), rel=1e-10)
+    assert ev.status == "exact"
+
+
+def test_erlang_b_tabulated_value():
+    # source: E(5, 10) = 0.01838 (standard Erlang B tables, from memory)
+    assert exact(one_link(10, [(5.0, 1)])).blocking[0] == pytest.approx(0.018384, abs=1e-6)
+
+
+def test_multirate_link_equals_kaufman_roberts():
+    # source: Kaufman (1981) / Roberts (1981) recursion q(n) n = sum_k a_k b_k q(n - b_k),
+    # written here, and checked against brute-force enumeration of the product form
+    cap, classes = 12, [(3.0, 1), (1.5, 2), (0.7, 4)]
+    q = np.zeros(cap + 1)
+    q[0] = 1.0
+    for n in range(1, cap + 1):
+        q[n] = sum(a * b * q[n - b] for a, b in classes if n >= b) / n
+    q /= q.sum()
+    kr = [q[cap - b + 1:].sum() for _, b in classes]
+    # brute force: all (n1, n2, n3) fitting the link, weight prod a^n/n!
+    tot, blk = 0.0, np.zeros(3)
+    ranges = [range(cap // b + 1) for _, b in classes]
+    for ns in itertools.product(*ranges):
+        used = sum(n * b for n, (_, b) in zip(ns, classes))
+        if used > cap:
+            continue
+        w = math.prod(a**n / math.factorial(n) for n, (a, _) in zip(ns, classes))
+        tot += w
+        for k, (_, b) in enumerate(classes):
+            if used + b > cap:
+                blk[k] += w
+    ev = exact(one_link(cap, classes))
+    np.testing.assert_allclose(ev.blocking, kr, rtol=1e-10)
+    np.testing.assert_allclose(ev.blocking, blk / tot, rtol=1e-10)
+
+
+def test_product_form_and_markov_chain_agree():
+    # source: Kelly (1979) ch. 8 -- the product form solves the chain's global balance under
+    # fixed routing; here both are computed independently by the two solvers
+    net = triangle(4, 3.0, 0, policy="fixed")
+    net = Network("mixed", net.sites, net.links, net.demands + (
+        Demand("AC2", ("A", "C"), 1.0, bandwidth=2, routes=(Route((0, 1), (1.0, 1.0)),)),))
+    pf = exact(net, solver="product")
+    mc = exact(net, solver="markov")
+    assert pf.details["solver"] == "product-form" and mc.details["solver"] == "markov-chain"
+    np.testing.assert_allclose(pf.blocking, mc.blocking, rtol=1e-8)
+    np.testing.assert_allclose(pf.link_carried, mc.link_carried, rtol=1e-8)
+    assert mc.residual < 1e-9
+
+
+def test_two_link_route_is_erlang_b_while_fixed_point_is_not():
+    # source: one route over two equal links behaves as one link: E(5, 10) exactly (Erlang B
+    # recursion); the reduced-load approximation treats the links as independent and gives
+    # about 0.033 (Kelly 1991, Ann. Appl. Probab. 1, discussion of the approximation error)
+    net = tandem(10, 5.0)
+    ev = exact(net)
+    assert ev.blocking[0] == pytest.approx(erlang_b(5.0, 10), rel=1e-10)
+    assert ev.blocking[0] == pytest.approx(0.0184, abs=5e-5)
+    fixed_point = pytest.importorskip("netdim.evaluate.fixed_point").fixed_point
+    fp = fixed_point(net, net.capacities())
+    assert fp.blocking[0] == pytest.approx(0.033, abs=1e-3)
+    assert fp.blocking[0] > 1.7 * ev.blocking[0]
+
+
+def test_markov_chain_balance_by_brute_force():
+    # source: a chain built and solved directly in the test (dense generator, numpy lstsq):
+    # alternate routing with reservation on a triangle of 2-unit links
+    net = triangle(2, 1.2, 1)
+    ev = exact(net)
+    # states: calls on each of the 6 routes (direct AB, BC, AC, then the three 2-link ones)
+    routes = [(0,), (1,), (2,), (2, 1), (0, 2), (0, 1)]
+    cap, res = 2, 1
+    states = [s for s in itertools.product(range(3), repeat=6)
+              if all(sum(s[r] for r in range(6) if j in routes[r]) <= cap for j in range(3))]
+    index = {s: i for i, s in enumerate(states)}
+    n = len(states)
+    qm = np.zeros((n, n))
+    lost = np.zeros((n, 3))
+    for s in states:
+        i = index[s]
+        use = [sum(s[r] for r in range(6) if j in routes[r]) for j in range(3)]
+        for d in range(3):
+            if use[d] < cap:
+                t = list(s)
+                t[d] += 1
+            elif all(cap - use[j] - 1 >= res for j in routes[3 + d]):
+                t = list(s)
+                t[3 + d] += 1
+            else:
+                lost[i, d] = 1
+                continue
+            qm[i, index[tuple(t)]] += 1.2
+        for r in range(6):
+            if s[r]:
+                t = list(s)
+                t[r] -= 1
+                qm[i, index[tuple(t)]] += s[r]
+    qm -= np.diag(qm.sum(axis=1))
+    a = np.vstack([qm.T, np.ones(n)])
+    pi = np.linalg.lstsq(a, np.r_[np.zeros(n), 1.0], rcond=None)[0]
+    np.testing.assert_allclose(ev.blocking, pi @ lost, rtol=1e-8)
+
+
+def test_per_link_holding_reduces_to_equal_case():
+    # source: with equal holdings on every link the phase chain collapses to the plain chain
+    # (common practice, no source); both solved here by the Markov chain
+    a = exact(triangle(3, 2.0, 1, holdings=(1.0, 1.0)))
+    b = exact(triangle(3, 2.0, 1, holdings=(1.0, 0.999999999)))
+    np.testing.assert_allclose(a.blocking, b.blocking, rtol=1e-6)
+    assert b.details["states"] > a.details["states"]
+
+
+def test_too_large_network_is_refused():
+    # source: the limit is an option; a triangle of 30-unit links with alternates has
+    # far more than 1000 states (common practice, no source)
+    with pytest.raises(ModelTooLargeError, match=r"about .* states, more than the limit 1000; "
+                                                 r"use method 'simulate'"):
+        exact(triangle(30, 20.0, 2), max_states=1000)
+
+
+def test_bad_options():
+    net = tandem(3, 1.0)
+    with pytest.raises(ValueError, match="solver: unknown solver 'x'"):
+        exact(net, solver="x")
+    with pytest.raises(ValueError, match="max_states: must be a positive integer"):
+        exact(net, max_states=0)
+    with pytest.raises(ValueError, match="solver: the product form needs fixed routing"):
+        exact(triangle(2, 1.0, 0), solver="product")
