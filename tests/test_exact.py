@@ -74,10 +74,10 @@ def test_multirate_link_equals_kaufman_roberts():
     tot, blk = 0.0, np.zeros(3)
     ranges = [range(cap // b + 1) for _, b in classes]
     for ns in itertools.product(*ranges):
-        used = sum(n * b for n, (_, b) in zip(ns, classes))
+        used = sum(n * b for n, (_, b) in zip(ns, classes, strict=True))
         if used > cap:
             continue
-        w = math.prod(a**n / math.factorial(n) for n, (a, _) in zip(ns, classes))
+        w = math.prod(a**n / math.factorial(n) for n, (a, _) in zip(ns, classes, strict=True))
         tot += w
         for k, (_, b) in enumerate(classes):
             if used + b > cap:
@@ -154,13 +154,21 @@ def test_markov_chain_balance_by_brute_force():
     np.testing.assert_allclose(ev.blocking, pi @ lost, rtol=1e-8)
 
 
-def test_per_link_holding_reduces_to_equal_case():
-    # source: with equal holdings on every link the phase chain collapses to the plain chain
-    # (common practice, no source); both solved here by the Markov chain
-    a = exact(triangle(3, 2.0, 1, holdings=(1.0, 1.0)))
-    b = exact(triangle(3, 2.0, 1, holdings=(1.0, 0.999999999)))
-    np.testing.assert_allclose(a.blocking, b.blocking, rtol=1e-6)
-    assert b.details["states"] > a.details["states"]
+def test_holding_times_only_scale_time():
+    # source: blocking depends on holding times only through the erlangs offered, when every
+    # holding time is scaled alike (a change of time unit; common practice, no source).
+    # The phase chain (two holding values per alternate route) is used on both sides.
+    from dataclasses import replace
+
+    base = triangle(3, 2.0, 1, holdings=(1.0, 0.25))
+    half = replace(base, demands=tuple(
+        replace(d, holding=0.5, routes=tuple(
+            Route(r.links, tuple(0.5 * h for h in r.holdings)) for r in d.routes))
+        for d in base.demands))
+    a, b = exact(base), exact(half)
+    assert a.details["solver"] == "markov-chain"
+    np.testing.assert_allclose(a.blocking, b.blocking, rtol=1e-8)
+    np.testing.assert_allclose(a.link_carried, b.link_carried, rtol=1e-8)
 
 
 def test_too_large_network_is_refused():

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import sys
+import time
 
 __all__ = ["register", "run"]
 
@@ -82,7 +83,15 @@ def _progress(args):
     if args.quiet:
         return None
 
+    # Long runs only: the first line after 2 s, then at most one every 2 s.
+    start = time.monotonic()
+    last = [start]
+
     def progress(fraction, message):
+        now = time.monotonic()
+        if now - start < 2.0 or (now - last[0] < 2.0 and fraction < 1.0):
+            return
+        last[0] = now
         print(f"netdim evaluate: {100 * fraction:.0f}% {message}", file=sys.stderr, flush=True)
 
     return progress

@@ -30,7 +30,8 @@ _POLISH_SECONDS = 120.0
 
 
 def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_limit=None,
-              max_iter=20, polish=True, progress=None, economic=None) -> Plan:
+              max_iter=20, polish=True, progress=None, economic=None, verify=None, seed=0,
+              verify_calls=None, verify_rounds=4) -> Plan:
     """Choose integer capacities meeting every demand's blocking target at least cost.
 
     Parameters
@@ -54,6 +55,17 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
     economic : bool or None
         Maximise value carried minus cost instead of meeting targets. None: when every
         demand has a ``value``.
+    verify : {None, 'none', 'simulate'}
+        ``'simulate'``: check the plan by simulation and, where a demand misses its target
+        there, tighten that demand's working target and size again (see
+        :func:`netdim.dimension.verify.verify_plan`). None or ``'none'``: no check.
+    seed : int, Generator or None
+        Seed of the verification runs (the same stream in every round).
+    verify_calls : int or None
+        Arrivals per verification run (default
+        :data:`netdim.dimension.verify.DEFAULT_VERIFY_CALLS`).
+    verify_rounds : int
+        Most re-sizings with tightened working targets.
 
     Returns
     -------
@@ -62,8 +74,9 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
     Raises
     ------
     ValueError
-        Unknown model or solver (listing the valid ones), bad ``mip_gap`` / ``max_iter``,
-        or a link whose bounds contradict each other.
+        Unknown model, solver or verify value (listing the valid ones), bad ``mip_gap`` /
+        ``max_iter`` / ``verify_calls`` / ``verify_rounds``, or a link whose bounds
+        contradict each other.
     ModelTooLargeError
         ``model='exact'`` on a network too large for the exact method.
 
@@ -135,7 +148,18 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
         raise ValueError(f"max_iter: must be >= 1, got {max_iter!r}")
     if time_limit is not None and not time_limit > 0:
         raise ValueError(f"time_limit: must be > 0 seconds, got {time_limit!r}")
+    from netdim.dimension.verify import check_verify_options, verify_plan
+
+    verify = check_verify_options(verify, verify_calls, verify_rounds)
     say = progress or (lambda s: None)
+    if verify is not None:
+        plan = dimension(network, model=model, solver=solver, mip_gap=mip_gap,
+                         time_limit=time_limit, max_iter=max_iter, polish=polish,
+                         progress=progress, economic=economic)
+        resize = dict(model=model, solver=solver, mip_gap=mip_gap, time_limit=time_limit,
+                      max_iter=max_iter, polish=polish, say=say)
+        return verify_plan(network, plan, resize, seed=seed, calls=verify_calls,
+                           rounds=int(verify_rounds), t_start=t_start)
     space = LinkSpace.of(network)
     base_caps, base_cost = baseline(network, space)
     if model == "exact":
@@ -167,29 +191,8 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
             dropped.append(network.links[j].id)
 
     net = best_net
-    k = best.k
-    evaluator = Evaluator(net, space, _method(model))
-    stuck: list[int] = []
-    polish_stats = {}
-    if polish or model != "fixed-point":
-        say("polishing under the " + model + " model")
-        # Keep the search bounded in time too: trial evaluations grow with the network.
-        budget = _POLISH_SECONDS if time_limit is None else max(4 * time_limit, 5.0)
-        deadline = time.perf_counter() + budget
-        k, stuck, polish_stats = polish_plan(evaluator, k, best.kmin, deadline=deadline,
-                                             progress=say)
-    # Links no usable route needs are not built.
-    used = _used_links(net)
-    k = np.where(used | (space.installed > 0), k, 0)
-    ev = Evaluator(net, space, _method(model), warm=False)(k)
-    if not ev.all_met and evaluator.warm and not stuck:
-        # The warm-started search tracked another solution of the fixed-point equations:
-        # repair under the full evaluation.
-        say("repairing under the fresh evaluation")
-        cold = Evaluator(net, space, _method(model), warm=False)
-        k, extra = repair(cold, k, net.routing.policy == "alternate")
-        stuck = sorted(set(stuck) | set(extra))
-        ev = cold(k)
+    k, ev, stuck, polish_stats, calls = polish_and_check(
+        net, space, best.k, best.kmin, model, polish or model != "fixed-point", time_limit, say)
     caps = space.capacity(k)
     cost = space.cost(k)
     bound, bound_kind = _lower_bound(network, net, space, model, solver, mip_gap, time_limit,
@@ -229,11 +232,41 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
             "milp_seconds": float(best.milp_seconds),
             "milp_cuts": int(best.cuts),
             "bound": bound_kind,
-            "evaluations": int(polish_stats.get("evaluations", evaluator.calls)),
+            "evaluations": int(polish_stats.get("evaluations", calls)),
             "dropped_by_search": list(dropped),
             "milp_cost": float(space.cost(best.k)),
         },
     )
+
+
+def polish_and_check(net, space, k, kmin, model, polish, time_limit, say):
+    """Local search under ``model``, then a fresh evaluation (and repair when it disagrees).
+
+    Returns ``(k, evaluation, stuck demands, polish stats, evaluations)``.
+    """
+    evaluator = Evaluator(net, space, _method(model))
+    stuck: list[int] = []
+    polish_stats = {}
+    if polish:
+        say("polishing under the " + model + " model")
+        # Keep the search bounded in time too: trial evaluations grow with the network.
+        budget = _POLISH_SECONDS if time_limit is None else max(4 * time_limit, 5.0)
+        deadline = time.perf_counter() + budget
+        k, stuck, polish_stats = polish_plan(evaluator, k, kmin, deadline=deadline,
+                                             progress=say)
+    # Links no usable route needs are not built.
+    used = _used_links(net)
+    k = np.where(used | (space.installed > 0), k, 0)
+    ev = Evaluator(net, space, _method(model), warm=False)(k)
+    if not ev.all_met and evaluator.warm and not stuck:
+        # The warm-started search tracked another solution of the fixed-point equations:
+        # repair under the full evaluation.
+        say("repairing under the fresh evaluation")
+        cold = Evaluator(net, space, _method(model), warm=False)
+        k, extra = repair(cold, k, net.routing.policy == "alternate")
+        stuck = sorted(set(stuck) | set(extra))
+        ev = cold(k)
+    return k, ev, stuck, polish_stats, evaluator.calls
 
 
 # -- the outer loop ---------------------------------------------------------------------------

@@ -1,0 +1,72 @@
+"""Speed of the event-driven simulation (a benchmark, not a test).
+
+Run: ``python tests/benchmarks/bench_simulate.py [--calls 1000000] [--repeats 3] [--big]``
+
+Prints simulated call arrivals per second, warm-up included (after compilation, medians of
+repeats) on the
+bundled networks and on full meshes of 20 and 100 sites (direct link first, then up to three
+two-link routes, alternate routing with reservation 2, capacities near a 1 % grade of service).
+The first call's compile time (or cache load) is printed separately.
+
+Goals on one core: at least 5e5 arrivals/s on the bundled networks and the 20-site mesh,
+2.5e5 at 100 sites.
+"""
+
+from __future__ import annotations
+
+import argparse
+import pathlib
+import statistics
+import sys
+import time
+
+sys.path.insert(0, str(pathlib.Path(__file__).resolve().parent))
+
+from bench_fixed_point import mesh  # noqa: E402
+
+from netdim.erlang import servers_for  # noqa: E402
+from netdim.evaluate.simulate import simulate  # noqa: E402
+from netdim.netfile import read_network  # noqa: E402
+
+NETWORKS = pathlib.Path(__file__).resolve().parents[2] / "networks"
+
+
+def sized_mesh(n_sites, traffic=10.0):
+    caps = servers_for(traffic, 0.01)
+    return mesh(n_sites, traffic, int(caps), n_alt=3, policy="alternate", reservation=2)
+
+
+def rate(net, calls, repeats):
+    times = []
+    for r in range(repeats):
+        t0 = time.perf_counter()
+        ev = simulate(net, seed=r + 1, calls=calls)
+        times.append(time.perf_counter() - t0)
+    total = calls + ev.details.get("warmup", 0)
+    return total / statistics.median(times), statistics.median(times), ev
+
+
+def main(argv=None):
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--calls", type=int, default=1_000_000)
+    ap.add_argument("--repeats", type=int, default=3)
+    args = ap.parse_args(argv)
+
+    cases = [(p.stem, read_network(p)) for p in sorted(NETWORKS.glob("*.yaml"))]
+    cases += [("mesh-20", sized_mesh(20)), ("mesh-100", sized_mesh(100))]
+
+    t0 = time.perf_counter()
+    simulate(cases[0][1], seed=0, calls=1000)
+    print(f"first call (compile or cache load): {time.perf_counter() - t0:.2f} s")
+    print(f"{'network':<22} {'links':>6} {'demands':>8} {'calls':>9} {'median s':>9} "
+          f"{'arrivals/s':>12}  goal")
+    for name, net in cases:
+        per_s, secs, ev = rate(net, args.calls, args.repeats)
+        goal = 2.5e5 if name == "mesh-100" else 5e5
+        flag = "met" if per_s >= goal else "MISSED"
+        print(f"{name:<22} {len(net.links):>6} {len(net.demands):>8} {args.calls:>9} "
+              f"{secs:>9.3f} {per_s:>12,.0f}  {goal:,.0f} {flag}")
+
+
+if __name__ == "__main__":
+    main()
