@@ -8,10 +8,10 @@ only 40 circuits are installed, and the economic size for a given circuit cost.
 from netdim.erlang import (
     erlang_b,
     moe_servers,
-    overflow_moments,
     servers_for,
     traffic_for,
 )
+from netdim.overflow import overflow_moments
 
 load = 42.5  # erlangs offered in the busy hour
 n = servers_for(load, 0.01)

@@ -13,19 +13,12 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from netdim.erlang import (
-    engset_call,
-    engset_time,
-    equivalent_random,
     erlang_b,
     erlang_b_dservers,
     erlang_b_dtraffic,
     log1m_erlang_b,
     log_erlang_b,
     moe_servers,
-    overflow_blocking,
-    overflow_moments,
-    peakedness,
-    rapp,
     servers_for,
     traffic_for,
 )
@@ -334,114 +327,6 @@ def test_derivatives_vs_finite_differences_and_arrays():
     assert erlang_b_dservers(0.0, 3) == 0.0
 
 
-# -- Engset -----------------------------------------------------------------------------------
-
-
-def _engset_sum(N, alpha, n):
-    """Defining sum: C(N, n) alpha^n / sum_{k<=n} C(N, k) alpha^k (Engset 1918), exact."""
-    if n > N:
-        return mp.mpf(0)
-    terms = [mp.binomial(N, k) * mp.mpf(alpha) ** k for k in range(n + 1)]
-    return terms[n] / mp.fsum(terms)
-
-
-@pytest.mark.parametrize("N,alpha,n", [(10, 0.5, 3), (40, 0.05, 6), (200, 0.2, 30),
-                                       (5, 2.0, 5), (5, 2.0, 7), (1, 0.3, 1), (300, 1.5, 250)])
-def test_engset_vs_defining_sum(N, alpha, n):
-    # source: Engset's defining sum evaluated in mpmath (time congestion with N sources,
-    # call congestion = time congestion with N - 1 sources)
-    mp.mp.dps = 40
-    assert _rel(engset_time(N, alpha, n), _engset_sum(N, alpha, n)) <= 1e-13
-    assert _rel(engset_call(N, alpha, n), _engset_sum(N - 1, alpha, n)) <= 1e-13
-    vec = engset_time(np.array([N, N]), alpha, np.array([n, 0]))
-    assert vec[1] == 1.0 and _rel(vec[0], _engset_sum(N, alpha, n)) <= 1e-13
-
-
-def test_engset_approaches_erlang():
-    # source: Engset tends to Erlang as N -> inf with N alpha = A fixed (textbook limit)
-    assert engset_time(10**6, 8.0 / 10**6, 10) == pytest.approx(erlang_b(8.0, 10), rel=1e-4)
-
-
-# -- overflow traffic -------------------------------------------------------------------------
-
-
-def _overflow_chain(a, n, k_over):
-    """Markov chain of a primary group of n servers whose overflow goes to a group of
-    k_over servers (large enough to lose nothing); stationary law by a linear solve.
-    Returns the mean and variance of the busy servers in the overflow group."""
-    states = [(i, j) for i in range(n + 1) for j in range(k_over + 1)]
-    idx = {s: t for t, s in enumerate(states)}
-    Q = np.zeros((len(states), len(states)))
-    for (i, j), t in idx.items():
-        if i < n:
-            Q[t, idx[(i + 1, j)]] += a
-        elif j < k_over:
-            Q[t, idx[(i, j + 1)]] += a
-        if i > 0:
-            Q[t, idx[(i - 1, j)]] += i
-        if j > 0:
-            Q[t, idx[(i, j - 1)]] += j
-        Q[t, t] = -Q[t].sum()
-    M = np.vstack([Q.T, np.ones(len(states))])
-    rhs = np.zeros(len(states) + 1)
-    rhs[-1] = 1.0
-    p = np.linalg.lstsq(M, rhs, rcond=None)[0]
-    j = np.array([s[1] for s in states], dtype=float)
-    mean = float(p @ j)
-    return mean, float(p @ j**2) - mean**2
-
-
-@pytest.mark.parametrize("a,n", [(2.5, 3), (6.0, 4), (1.0, 0), (4.0, 8)])
-def test_riordan_vs_markov_chain(a, n):
-    # source: the primary + overflow group Markov chain solved directly (numpy) in the test
-    mean, var = _overflow_chain(a, n, 45)
-    m, v = overflow_moments(a, n)
-    assert m == pytest.approx(mean, rel=1e-9)
-    assert v == pytest.approx(var, rel=1e-8)
-    assert peakedness(a, n) == pytest.approx(var / mean, rel=1e-8)
-
-
-def test_overflow_moments_arrays():
-    # source: Riordan's formula evaluated by the scalar path
-    m, v = overflow_moments(np.array([2.5, 6.0]), np.array([3, 4]))
-    assert m[1] == pytest.approx(overflow_moments(6.0, 4)[0], rel=1e-14)
-    assert v[0] == pytest.approx(overflow_moments(2.5, 3)[1], rel=1e-14)
-
-
-@pytest.mark.parametrize("a,n", [(10.0, 8), (30.0, 35), (4.0, 2.5), (80.0, 70)])
-def test_equivalent_random_inverts_riordan(a, n):
-    # source: Riordan's moments (checked against the chain above): the ERT of the overflow
-    # of (A, n) is (A, n) itself (Wilkinson 1956)
-    m, v = overflow_moments(a, n)
-    a_star, n_star = equivalent_random(m, v)
-    assert a_star == pytest.approx(a, rel=1e-9)
-    assert n_star == pytest.approx(n, rel=1e-9, abs=1e-9)
-    # Rapp's approximation lands near the exact ERT parameters (Rapp 1964: a few percent)
-    ra, rn = rapp(m, v)
-    assert ra == pytest.approx(a, rel=0.1)
-    assert rn == pytest.approx(n, rel=0.15, abs=0.5)
-
-
-def test_overflow_blocking_exact_cases():
-    # source: sequential hunting -- the overflow of (A, n) offered to m more servers is lost
-    # exactly as on n + m servers, so B = E(A, n + m) / E(A, n)
-    m, v = overflow_moments(10.0, 8)
-    assert overflow_blocking([m], [v], 5) == pytest.approx(
-        erlang_b(10.0, 13) / erlang_b(10.0, 8), rel=1e-9
-    )
-    # Poisson traffic (variance = mean) is its own equivalent random group (Wilkinson 1956)
-    assert overflow_blocking([1.0, 2.0], [1.0, 2.0], 5) == pytest.approx(
-        erlang_b(3.0, 5), rel=1e-12
-    )
-    assert overflow_blocking([0.0], [0.0], 3) == 0.0
-    # two streams: the result uses the summed moments
-    m2, v2 = overflow_moments(4.0, 3)
-    a_star, n_star = equivalent_random(m + m2, v + v2)
-    assert overflow_blocking([m, m2], [v, v2], 6) == pytest.approx(
-        a_star * erlang_b(a_star, n_star + 6) / (m + m2), rel=1e-12
-    )
-
-
 # -- Moe's principle --------------------------------------------------------------------------
 
 
@@ -468,26 +353,6 @@ def test_errors_second_tier():
         erlang_b_dtraffic(-1.0, 2)
     with pytest.raises(ValueError, match=r"servers: must be >= 0, got -1\.0"):
         erlang_b_dservers(1.0, -1)
-    with pytest.raises(ValueError, match=r"sources: must be a whole number >= 0, got 2\.5"):
-        engset_time(2.5, 0.1, 1)
-    with pytest.raises(ValueError, match=r"alpha: must be >= 0, got -0\.1"):
-        engset_call(3, -0.1, 1)
-    with pytest.raises(ValueError, match=r"servers: must be a whole number >= 0, got -1\.0"):
-        engset_time(3, 0.1, -1)
-    with pytest.raises(ValueError, match=r"traffic: must be >= 0, got nan"):
-        overflow_moments(float("nan"), 3)
-    with pytest.raises(ValueError, match=r"servers: must be >= 0, got -3\.0"):
-        peakedness(1.0, -3)
-    with pytest.raises(ValueError, match=r"mean: must be > 0, got 0\.0"):
-        rapp(0.0, 1.0)
-    with pytest.raises(ValueError, match=r"variance: must be >= mean \(peakedness >= 1\)"):
-        equivalent_random(2.0, 1.0)
-    with pytest.raises(ValueError, match=r"means: must be >= 0, got -1\.0"):
-        overflow_blocking([-1.0], [1.0], 2)
-    with pytest.raises(ValueError, match=r"variance: must be >= mean"):
-        overflow_blocking([2.0], [1.0], 2)
-    with pytest.raises(ValueError, match=r"servers: must be >= 0, got -2\.0"):
-        overflow_blocking([1.0], [1.0], -2)
     with pytest.raises(ValueError, match=r"cost_per_circuit: must be > 0, got 0\.0"):
         moe_servers(3.0, 0.0, 1.0)
     with pytest.raises(ValueError, match=r"value_per_erlang: must be >= 0, got -1\.0"):
