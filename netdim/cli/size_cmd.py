@@ -29,6 +29,13 @@ def register(subparsers):
                    help="relative MILP gap (default 1e-4)")
     p.add_argument("--time-limit", type=float, default=None, metavar="S",
                    help="seconds allowed to each MILP")
+    p.add_argument("--verify", action="store_true",
+                   help="check the plan by simulation and, where a demand misses its target "
+                   "there, tighten its working target and size again")
+    p.add_argument("--seed", type=int, default=0, metavar="N",
+                   help="seed of the verification runs (default 0)")
+    p.add_argument("--verify-calls", type=int, default=None, metavar="N",
+                   help="arrivals per verification run (default 1000000)")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     p.set_defaults(func=run)
     return p
@@ -43,19 +50,29 @@ def run(args) -> int:
         raise ValueError(f"--gap: must lie in [0, 1), got {args.gap!r}")
     if args.time_limit is not None and not args.time_limit > 0:
         raise ValueError(f"--time-limit: must be > 0 seconds, got {args.time_limit!r}")
+    if args.verify_calls is not None and args.verify_calls <= 0:
+        raise ValueError(f"--verify-calls: must be a positive integer, got {args.verify_calls}")
     network = read_network(args.file)
+    if not args.verify and network.routing.policy == "alternate" and not args.quiet:
+        print("netdim size: note: under alternate routing the fixed point is optimistic; "
+              "add --verify to check the plan by simulation and calibrate it",
+              file=sys.stderr)
 
     def progress(line):
         print(f"netdim size: {line}", file=sys.stderr, flush=True)
 
     plan = dimension(network, model=args.model, solver=args.solver, mip_gap=args.gap,
-                     time_limit=args.time_limit, progress=None if args.quiet else progress)
+                     time_limit=args.time_limit, progress=None if args.quiet else progress,
+                     verify="simulate" if args.verify else None, seed=args.seed,
+                     verify_calls=args.verify_calls)
     if args.out:
         write_network(plan.network, args.out, capacities=plan.capacities)
     if args.json:
         print(json.dumps(plan.to_dict(), indent=2))
     else:
         print(format_plan(plan))
+    for w in plan.warnings:
+        print(f"netdim size: warning: {w}", file=sys.stderr)
     if not plan.feasible:
         names = ", ".join(plan.evaluation.unmet)
         print(f"netdim size: targets not met for {names}", file=sys.stderr)

@@ -61,7 +61,14 @@ class Plan:
         The network the plan is for, with routes over dropped links removed (what
         :func:`netdim.netfile.write_network` should write).
     details : dict
-        Extra figures (MILP times, polish moves, objective in economic mode).
+        Extra figures (MILP times, polish moves, objective in economic mode; with
+        verification: ``verify_calls``, ``verify_seed``, ``verify_rounds``,
+        ``unverified_cost``, ``working_targets``, ...).
+    verification : Evaluation or None
+        The plan simulated (``dimension(verify='simulate')``), against the original
+        targets; None when not verified.
+    warnings : tuple of str
+        E.g. the demands that still miss their target in simulation.
     """
 
     capacities: np.ndarray
@@ -82,6 +89,8 @@ class Plan:
     model: str = "fixed-point"
     network: object = field(default=None, repr=False, compare=False)
     details: dict = field(default_factory=dict, compare=False)
+    verification: object = field(default=None, repr=False, compare=False)
+    warnings: tuple = ()
 
     def __post_init__(self):
         object.__setattr__(self, "capacities", _frozen(self.capacities, np.int64))
@@ -91,6 +100,7 @@ class Plan:
             self, "baseline_capacities", _frozen(self.baseline_capacities, np.int64)
         )
         object.__setattr__(self, "dropped_links", tuple(self.dropped_links))
+        object.__setattr__(self, "warnings", tuple(self.warnings))
 
     @property
     def feasible(self) -> bool:
@@ -147,9 +157,35 @@ class Plan:
             "model": self.model,
             "dropped_links": list(self.dropped_links),
             "message": self.message,
+            "warnings": list(self.warnings),
+            "verification": _verification_dict(self.verification),
             "details": {
                 k: v
                 for k, v in self.details.items()
                 if isinstance(v, (int, float, str, bool, list, type(None)))
             },
         }
+
+
+def _verification_dict(ev):
+    """``{'method', 'calls', 'confidence', 'all_met', 'demands': [{'id', 'blocking',
+    'interval', 'target', 'met'}]}``, or None when the plan was not verified."""
+    if ev is None:
+        return None
+    iv = ev.blocking_interval
+    return {
+        "method": ev.method,
+        "calls": int(ev.details.get("calls", 0)),
+        "confidence": None if ev.confidence is None else float(ev.confidence),
+        "all_met": bool(ev.all_met),
+        "demands": [
+            {
+                "id": did,
+                "blocking": float(ev.blocking[i]),
+                "interval": None if iv is None else [float(iv[i, 0]), float(iv[i, 1])],
+                "target": float(ev.target[i]),
+                "met": bool(ev.met[i]),
+            }
+            for i, did in enumerate(ev.demand_ids)
+        ],
+    }

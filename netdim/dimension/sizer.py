@@ -31,7 +31,7 @@ _POLISH_SECONDS = 120.0
 
 def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_limit=None,
               max_iter=20, polish=True, progress=None, economic=None, verify=None, seed=0,
-              verify_calls=None, verify_rounds=4) -> Plan:
+              verify_calls=None, verify_rounds=4, verify_restart="warm") -> Plan:
     """Choose integer capacities meeting every demand's blocking target at least cost.
 
     Parameters
@@ -66,6 +66,10 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
         :data:`netdim.dimension.verify.DEFAULT_VERIFY_CALLS`).
     verify_rounds : int
         Most re-sizings with tightened working targets.
+    verify_restart : {'warm', 'full'}
+        How a verification round sizes again: the local search from the current plan
+        (``'warm'``, cheaper in time and sure to add capacity where it is missing) or the
+        whole sizing (``'full'``, sometimes cheaper, may not converge).
 
     Returns
     -------
@@ -150,7 +154,7 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
         raise ValueError(f"time_limit: must be > 0 seconds, got {time_limit!r}")
     from netdim.dimension.verify import check_verify_options, verify_plan
 
-    verify = check_verify_options(verify, verify_calls, verify_rounds)
+    verify = check_verify_options(verify, verify_calls, verify_rounds, verify_restart)
     say = progress or (lambda s: None)
     if verify is not None:
         plan = dimension(network, model=model, solver=solver, mip_gap=mip_gap,
@@ -159,7 +163,8 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
         resize = dict(model=model, solver=solver, mip_gap=mip_gap, time_limit=time_limit,
                       max_iter=max_iter, polish=polish, say=say)
         return verify_plan(network, plan, resize, seed=seed, calls=verify_calls,
-                           rounds=int(verify_rounds), t_start=t_start)
+                           rounds=int(verify_rounds), t_start=t_start,
+                           restart=verify_restart)
     space = LinkSpace.of(network)
     base_caps, base_cost = baseline(network, space)
     if model == "exact":

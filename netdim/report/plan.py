@@ -30,19 +30,27 @@ def format_plan(plan, max_rows=None) -> str:
         ])
     order = sorted(range(len(ev.demand_ids)),
                    key=lambda i: -(ev.blocking[i] / ev.target[i] if ev.target[i] > 0 else 0))
-    demand_rows = [
-        [ev.demand_ids[i], fmt_num(float(ev.offered[i])), fmt_prob(float(ev.blocking[i])),
-         fmt_prob(float(ev.target[i])), "yes" if ev.met[i] else "NO"]
-        for i in order
-    ]
+    ver = getattr(plan, "verification", None)
+    demand_rows = []
+    for i in order:
+        row = [ev.demand_ids[i], fmt_num(float(ev.offered[i])), fmt_prob(float(ev.blocking[i]))]
+        if ver is not None:
+            row.append(_simulated(ver, i))
+        row += [fmt_prob(float(ev.target[i])), "yes" if ev.met[i] else "NO"]
+        if ver is not None:
+            row.append("yes" if ver.met[i] else "NO")
+        demand_rows.append(row)
+    demand_headers = ["demand", "offered", "blocking", "target", "met"]
+    if ver is not None:
+        demand_headers = ["demand", "offered", "blocking", "simulated", "target", "met",
+                          "met (sim.)"]
     out = []
     out.append(f"Plan ({plan.model} model): status {plan.status}")
     out.append("")
     out.append(_table(["link", "capacity", "modules", "cost", "utilisation", "baseline"],
                       link_rows, max_rows))
     out.append("")
-    out.append(_table(["demand", "offered", "blocking", "target", "met"], demand_rows,
-                      max_rows))
+    out.append(_table(demand_headers, demand_rows, max_rows))
     out.append("")
     out.append(f"total cost     {fmt_num(plan.cost)}")
     out.append(f"lower bound    {fmt_num(plan.lower_bound)}  ({plan.details.get('bound', '')})")
@@ -57,12 +65,28 @@ def format_plan(plan, max_rows=None) -> str:
         shown = ", ".join(plan.dropped_links[:20])
         more = f" and {len(plan.dropped_links) - 20} more" if len(plan.dropped_links) > 20 else ""
         out.append(f"not built      {shown}{more}")
+    if ver is not None:
+        d = plan.details
+        out.append(f"verified       by simulation, {d.get('verify_calls', '?')} calls, seed "
+                   f"{d.get('verify_seed', '?')}, {d.get('verify_rounds', 0)} calibration "
+                   f"rounds; unverified plan cost {fmt_num(d.get('unverified_cost', plan.cost))}")
     if plan.message:
         out.append("")
         out.append(plan.message)
+    for w in getattr(plan, "warnings", ()):
+        out.append("warning: " + w)
     out.append("")
     out.append(CAUTION)
     return "\n".join(out)
+
+
+def _simulated(ver, i):
+    """Simulated blocking with its interval, e.g. ``0.0281 [0.0262, 0.0300]``."""
+    text = fmt_prob(float(ver.blocking[i]))
+    if ver.blocking_interval is not None:
+        lo, hi = ver.blocking_interval[i]
+        text += f" [{fmt_prob(float(lo))}, {fmt_prob(float(hi))}]"
+    return text
 
 
 def _table(headers, rows, max_rows):

@@ -72,6 +72,9 @@ def main():
     ap.add_argument("--sizes", default="10,20,30,50")
     ap.add_argument("--solver", default="highs")
     ap.add_argument("--no-demo", action="store_true")
+    ap.add_argument("--verify", action="store_true",
+                    help="also the demos with verify='simulate' (cost and simulated "
+                    "worst blocking/target before and after calibration)")
     args = ap.parse_args()
     sizes = [int(s) for s in args.sizes.split(",") if s]
     if args.big:
@@ -88,6 +91,18 @@ def main():
             net = read_network(path)
             for model in ("fixed-point", "conservative"):
                 run(path, net, model=model, solver=args.solver)
+            if args.verify:
+                for restart in ("warm", "full"):
+                    p = run(f"{path} verify/{restart}", net, solver=args.solver,
+                            verify="simulate", verify_restart=restart)
+                    d = p.details
+                    hist = d["verify_history"]
+                    print(f"{'':28s} unverified cost={d['unverified_cost']:.1f} "
+                          f"verified cost={p.cost:.1f} "
+                          f"(+{100 * (p.cost / d['unverified_cost'] - 1):.2f}%) "
+                          f"simulated worst blocking/target {hist[0][1]:.3f} -> "
+                          f"{hist[-1][1]:.3f} rounds={d['verify_rounds']} "
+                          f"verify time={d['verify_seconds']:.1f}s", flush=True)
 
 
 if __name__ == "__main__":
