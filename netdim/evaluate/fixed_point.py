@@ -293,7 +293,7 @@ class _Problem:
             method=method,
             demand_ids=self.demand_ids,
             offered=self.traffic,
-            blocking=np.clip(blocking, 0.0, 1.0),
+            blocking=np.clip(blocking, 0.0, 1.0) + 0.0,  # + 0.0 turns -0.0 into 0.0
             target=self.target,
             link_ids=self.link_ids,
             capacity=self.caps,
