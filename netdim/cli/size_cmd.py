@@ -36,6 +36,9 @@ def register(subparsers):
                    help="seed of the verification runs (default 0)")
     p.add_argument("--verify-calls", type=int, default=None, metavar="N",
                    help="arrivals per verification run (default 1000000)")
+    p.add_argument("--verify-rounds", type=int, default=4, metavar="N",
+                   help="most calibration rounds after the first check (default 4; 0 checks "
+                   "the plan without changing it)")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     p.set_defaults(func=run)
     return p
@@ -52,6 +55,8 @@ def run(args) -> int:
         raise ValueError(f"--time-limit: must be > 0 seconds, got {args.time_limit!r}")
     if args.verify_calls is not None and args.verify_calls <= 0:
         raise ValueError(f"--verify-calls: must be a positive integer, got {args.verify_calls}")
+    if args.verify_rounds < 0:
+        raise ValueError(f"--verify-rounds: must be >= 0, got {args.verify_rounds}")
     network = read_network(args.file)
     if not args.verify and network.routing.policy == "alternate" and not args.quiet:
         print("netdim size: note: under alternate routing the fixed point is optimistic; "
@@ -64,7 +69,7 @@ def run(args) -> int:
     plan = dimension(network, model=args.model, solver=args.solver, mip_gap=args.gap,
                      time_limit=args.time_limit, progress=None if args.quiet else progress,
                      verify="simulate" if args.verify else None, seed=args.seed,
-                     verify_calls=args.verify_calls)
+                     verify_calls=args.verify_calls, verify_rounds=args.verify_rounds)
     if args.out:
         write_network(plan.network, args.out, capacities=plan.capacities)
     if args.json:
@@ -76,5 +81,9 @@ def run(args) -> int:
     if not plan.feasible:
         names = ", ".join(plan.evaluation.unmet)
         print(f"netdim size: targets not met for {names}", file=sys.stderr)
+        return 1
+    if plan.verification is not None and not plan.verification.all_met:
+        names = ", ".join(plan.verification.unmet)
+        print(f"netdim size: targets not met in simulation for {names}", file=sys.stderr)
         return 1
     return 0
