@@ -116,6 +116,22 @@ def test_single_link_equals_erlang_b(a, c):
     assert ev.status == "converged" and ev.method == "fixed-point"
 
 
+@pytest.mark.parametrize("a,c", [(1e12, 2), (1e7, 3), (3e4, 2), (50.0, 40)])
+def test_carried_load_accurate_near_saturation(a, c):
+    # Source: mpmath at 50 digits, carried = A (1 - E(A, C)); near saturation 1 - E is tiny
+    # and must not be lost to cancellation (here 1 - E is about C / A).
+    import mpmath
+
+    with mpmath.workdps(50):
+        A = mpmath.mpf(a)
+        inv = mpmath.mpf(1)
+        for k in range(1, c + 1):
+            inv = 1 + inv * k / A
+        carried = float(A * (1 - 1 / inv))
+    ev = fixed_point(network([c], [(a, [[0]])]))
+    assert ev.link_carried[0] == pytest.approx(carried, rel=1e-9)
+
+
 # -- product form: the approximation error ---------------------------------------------------
 def test_two_link_route_error_against_exact():
     # Source: exact blocking of one route over two links is E(5, 10) = 0.0184 (both links

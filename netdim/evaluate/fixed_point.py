@@ -137,12 +137,19 @@ class _Problem:
     def link_blocking(self, loads):
         """Blocking per (link, stream) and 1 - blocking (floored), from loads in erlangs."""
         if not self.alternate and self.n_classes == 1:
-            from netdim.erlang import log1m_erlang_b
+            from netdim.erlang import erlang_b
 
-            # one Erlang evaluation: log(1 - E) is accurate at both ends, and
-            # -expm1(log(1 - E)) gives E back to full relative precision when E is small
-            logq = np.array(log1m_erlang_b(loads[:, 0], self.caps), dtype=float).reshape(-1, 1)
-            B = -np.expm1(logq)
+            # E itself is accurate to full relative precision, and log1p(-E) keeps about
+            # 1e-16 / (1 - E) relative accuracy: ample unless E is within 1e-6 of 1. There use
+            # the recursion's 1 - E_n = n E_n / (A E_{n-1}), in which every factor is far from
+            # 0 (Erlang B recursion; common practice).
+            B = np.array(erlang_b(loads[:, 0], self.caps), dtype=float).reshape(-1, 1)
+            logq = np.log1p(-np.minimum(B, 1.0 - 1e-6))
+            high = (B[:, 0] > 1.0 - 1e-6) & (self.caps > 0)
+            if high.any():
+                a, n, bn = loads[high, 0], self.caps[high], B[high, 0]
+                prev = np.asarray(erlang_b(a, n - 1), dtype=float)
+                logq[high, 0] = np.log(n * bn) - np.log(a * prev)
         elif not self.alternate:
             from netdim.linkmodels import kaufman_roberts_many
 
