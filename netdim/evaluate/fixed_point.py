@@ -286,7 +286,9 @@ class _Problem:
         bw = self.stream_bw[None, :]
         cap_loads = loads * bw
         link_offered = cap_loads.sum(axis=1)
-        link_carried = (cap_loads * (1.0 - B)).sum(axis=1)
+        # q = 1 - B kept accurate near saturation, where 1.0 - B would cancel
+        keep = np.where(B >= 1.0, 0.0, np.broadcast_to(q, B.shape))
+        link_carried = (cap_loads * keep).sum(axis=1)
         first = ~self.stream_overflow
         link_blocking = _weighted(B[:, first], cap_loads[:, first])
         if self.alternate:
