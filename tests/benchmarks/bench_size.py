@@ -6,7 +6,7 @@ networks/*.yaml. Prints cost, lower bound, gap, baseline cost, saving, time and 
 iterations. Goals (issue 5): gap <= 0.5 % at 50 sites within 60 s, 100 sites within 10
 minutes, cost below the baseline on every case.
 
-Run: /work/venv/bin/python tests/benchmarks/bench_size.py [--big] [--alternate] [--sizes 10,20]
+Run: python tests/benchmarks/bench_size.py [--big] [--alternate] [--sizes 10,20]
 """
 
 from __future__ import annotations
