@@ -109,6 +109,18 @@ def erlang_b(traffic, servers):
     return _finish(_erlang_b_array(traffic, servers))
 
 
+def _array_cases(traffic, servers, at_one, at_zero):
+    """Flat arrays with the trivial cases filled in: E = 1 (no servers or infinite traffic)
+    gets ``at_one``, E = 0 (no traffic) gets ``at_zero``; ``work`` indexes the rest."""
+    a, x, shape = _prepare(traffic, servers)
+    out = np.empty(a.shape)
+    one = (x == 0) | (a == np.inf)
+    zero = (a == 0) & ~one
+    out[one] = at_one
+    out[zero] = at_zero
+    return a, x, shape, out, np.flatnonzero(~(one | zero))
+
+
 def log_erlang_b(traffic, servers):
     """Natural log of E(A, n), accurate (relatively) also when E underflows.
 
@@ -123,13 +135,7 @@ def log_erlang_b(traffic, servers):
     _check_nonneg("servers", servers)
     if _is_scalar(traffic, servers):
         return _log_erlang_b_scalar(float(traffic), float(servers))
-    a, x, shape = _prepare(traffic, servers)
-    out = np.empty(a.shape)
-    one = (x == 0) | (a == np.inf)
-    zero = (a == 0) & ~one
-    out[one] = 0.0
-    out[zero] = -np.inf
-    work = np.flatnonzero(~(one | zero))
+    a, x, shape, out, work = _array_cases(traffic, servers, at_one=0.0, at_zero=-np.inf)
     if work.size:
         inv, prev = _inv_array(a[work], x[work])
         out[work] = -np.log(inv)
@@ -158,13 +164,7 @@ def log1m_erlang_b(traffic, servers):
     _check_nonneg("servers", servers)
     if _is_scalar(traffic, servers):
         return _log1m_erlang_b_scalar(float(traffic), float(servers))
-    a, x, shape = _prepare(traffic, servers)
-    out = np.empty(a.shape)
-    one = (x == 0) | (a == np.inf)
-    zero = (a == 0) & ~one
-    out[one] = -np.inf
-    out[zero] = 0.0
-    work = np.flatnonzero(~(one | zero))
+    a, x, shape, out, work = _array_cases(traffic, servers, at_one=-np.inf, at_zero=0.0)
     if work.size:
         inv, prev = _inv_array(a[work], x[work])
         with np.errstate(divide="ignore"):

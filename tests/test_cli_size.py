@@ -10,30 +10,15 @@ from __future__ import annotations
 import json
 
 import pytest
+from _networks import line_yaml  # tests/ is on sys.path under pytest
 
 from netdim.cli import main
-
-LINE = """\
-name: line
-sites:
-  - {id: A}
-  - {id: B}
-  - {id: C}
-links:
-  - {id: AB, ends: [A, B], cost_per_module: 1.0%s}
-  - {id: BC, ends: [B, C], cost_per_module: 2.0}
-demands:
-  - {id: AB, between: [A, B], traffic: 20, routes: [[AB]]}
-  - {id: BC, between: [B, C], traffic: 15, routes: [[BC]]}
-  - {id: AC, between: [A, C], traffic: 10, routes: [[AB, BC]]}
-defaults: {target: 0.01}
-"""
 
 
 @pytest.fixture
 def line_file(tmp_path):
     p = tmp_path / "line.yaml"
-    p.write_text(LINE % "")
+    p.write_text(line_yaml())
     return p
 
 
@@ -75,7 +60,7 @@ def test_size_cbc_and_conservative(line_file, capsys):
 
 def test_size_infeasible_exits_1_naming_the_demand(tmp_path, capsys):
     p = tmp_path / "tight.yaml"
-    p.write_text(LINE % ", max_capacity: 30")
+    p.write_text(line_yaml(", max_capacity: 30"))
     assert main(["size", str(p), "--quiet"]) == 1
     captured = capsys.readouterr()
     assert "targets not met for AB" in captured.err

@@ -14,6 +14,7 @@ import pathlib
 
 import numpy as np
 import pytest
+from _networks import line_yaml  # tests/ is on sys.path under pytest
 
 from netdim.cli import main
 from netdim.dimension import dimension
@@ -109,21 +110,6 @@ def test_verify_none_is_no_verification():
     assert plan.to_dict()["verification"] is None
 
 
-LINE = """\
-name: line
-sites:
-  - {id: A}
-  - {id: B}
-  - {id: C}
-links:
-  - {id: AB, ends: [A, B], cost_per_module: 1.0}
-  - {id: BC, ends: [B, C], cost_per_module: 2.0}
-demands:
-  - {id: AB, between: [A, B], traffic: 20, routes: [[AB]]}
-  - {id: BC, between: [B, C], traffic: 15, routes: [[BC]]}
-  - {id: AC, between: [A, C], traffic: 10, routes: [[AB, BC]]}
-defaults: {target: 0.01}
-%s"""
 
 
 def test_cli_verify_json_has_the_verification(tmp_path, capsys):
@@ -131,7 +117,7 @@ def test_cli_verify_json_has_the_verification(tmp_path, capsys):
     # tests/test_dimension.py) also meets its targets under the product form, so the
     # simulation should agree; checked only for the shape of the output here.
     p = tmp_path / "line.yaml"
-    p.write_text(LINE % "")
+    p.write_text(line_yaml())
     assert main(["size", str(p), "--verify", "--seed", "3", "--verify-calls", "200000",
                  "--json", "--quiet"]) == 0
     out = json.loads(capsys.readouterr().out)
@@ -144,7 +130,7 @@ def test_cli_verify_json_has_the_verification(tmp_path, capsys):
 
 def test_cli_text_report_shows_simulated_column(tmp_path, capsys):
     p = tmp_path / "line.yaml"
-    p.write_text(LINE % "")
+    p.write_text(line_yaml())
     assert main(["size", str(p), "--verify", "--verify-calls", "100000", "--quiet"]) == 0
     out = capsys.readouterr().out
     assert "simulated" in out and "verified       by simulation" in out
@@ -152,14 +138,14 @@ def test_cli_text_report_shows_simulated_column(tmp_path, capsys):
 
 def test_cli_notes_verify_for_alternate_routing(tmp_path, capsys):
     p = tmp_path / "alt.yaml"
-    p.write_text(LINE % "routing: {policy: alternate}\n")
+    p.write_text(line_yaml(tail="routing: {policy: alternate}\n"))
     assert main(["size", str(p)]) == 0
     assert "add --verify" in capsys.readouterr().err
 
 
 def test_cli_bad_verify_calls_exits_2(tmp_path, capsys):
     p = tmp_path / "line.yaml"
-    p.write_text(LINE % "")
+    p.write_text(line_yaml())
     assert main(["size", str(p), "--verify", "--verify-calls", "0"]) == 2
     assert "--verify-calls: must be a positive integer" in capsys.readouterr().err
 
