@@ -359,6 +359,50 @@ def test_conservative_bounds_fixed_point():
     assert two.blocking[0] >= ex
 
 
+def _reservation_chain(nu1, nu2, c, r):
+    """First-choice and overflow blocking of one link by its birth-death chain, directly."""
+    w = [1.0]
+    for i in range(1, c + 1):
+        lam = nu1 + nu2 if i - 1 < c - r else nu1
+        w.append(w[-1] * lam / i)
+    tot = sum(w)
+    return w[c] / tot, sum(w[c - r:]) / tot
+
+
+def test_conservative_alternate_triangle_against_scalar_equations():
+    # Source: the un-thinned overflow equations (route k offered A prod_{m<k} L_m on every
+    # link, no thinning) with the trunk-reservation chain (Girard 1990 ch. 4). On a symmetric
+    # triangle, each link carries its own demand (A) and the overflow of the two others
+    # (2 A B1), so the largest solution is a scalar iteration from B = 1, written here.
+    a, c, r = 6.0, 9, 1
+    sites = tuple(Site(s) for s in "XYZ")
+    links = (Link("XY", ("X", "Y"), c), Link("YZ", ("Y", "Z"), c), Link("XZ", ("X", "Z"), c))
+    other = {0: (2, 1), 1: (0, 2), 2: (0, 1)}
+    dem = tuple(Demand(f"D{j}", links[j].ends, a,
+                       routes=(Route((j,), (1.0,)), Route(other[j], (1.0, 1.0))))
+                for j in range(3))
+    net = Network("tri", sites, links, dem, routing=Routing(policy="alternate", reservation=r))
+    b1, b2 = 1.0, 1.0
+    for _ in range(500):
+        b1, b2 = _reservation_chain(a, 2 * a * b1, c, r)
+    expected = b1 * (1 - (1 - b2) ** 2)
+    cons = fixed_point(net, conservative=True)
+    assert cons.method == "conservative"
+    assert cons.blocking == pytest.approx([expected] * 3, rel=1e-8)
+    assert np.all(cons.blocking >= fixed_point(net).blocking)
+    assert any("not proven above the exact" in w for w in cons.warnings)
+
+
+def test_conservative_alternate_above_both_solutions_of_bistable_mesh():
+    # Source: Tarski's fixed-point theorem on the increasing un-thinned map, which lies above
+    # the thinned one; the bistable case is Gibbens, Hunt and Kelly 1990 (as above).
+    ev = fixed_point(mesh(6, 30, 22.2, 4))
+    cons = fixed_point(mesh(6, 30, 22.2, 4), conservative=True)
+    assert ev.status == "bistable"
+    assert np.all(cons.blocking >= ev.alternative.blocking - 1e-12)
+    assert np.all(cons.blocking >= ev.blocking)
+
+
 def test_zero_capacity_and_zero_traffic():
     # Source: a link of 0 circuits blocks every call (E(a, 0) = 1; Erlang 1917).
     net = network([0, 10, 10], [(3.0, [[0, 1]]), (0.0, [[1, 2]]), (2.0, [[2]])])
