@@ -165,3 +165,66 @@ def test_cli_bad_verify_rounds_exits_2(capsys):
     path = pathlib.Path(__file__).resolve().parent.parent / "networks" / "three-villages.yaml"
     assert main(["size", str(path), "--verify", "--verify-rounds", "-1"]) == 2
     assert "--verify-rounds: must be >= 0, got -1" in capsys.readouterr().err
+
+
+# -- judging by the confidence interval ------------------------------------------------------
+def _erlang_b(a, n):
+    # Erlang B by its recursion (Erlang 1917; common practice, no source).
+    b = 1.0
+    for k in range(1, n + 1):
+        b = a * b / (k + a * b)
+    return b
+
+
+def one_link(a=10.0, n=18, margin=1.02):
+    """One link, target 2 % above E(a, n): the least capacity is n, and a simulation of it
+    lands above the target now and then by noise alone."""
+    t = _erlang_b(a, n) * margin
+    return Network("one", (Site("A"), Site("B")), (Link("AB", ("A", "B")),),
+                   (Demand("AB", ("A", "B"), a, target=t, routes=(R(0),)),))
+
+
+def test_judge_by_interval():
+    net = one_link()
+    ev = evaluate(net, [18], method="simulate", seed=0, calls=20_000)
+    t = float(ev.target[0])
+    from dataclasses import replace
+
+    from netdim.dimension.verify import judge
+
+    def at(point, lo, hi):
+        return replace(ev, blocking=np.array([point]), blocking_interval=np.array([[lo, hi]]))
+
+    assert list(judge(at(t, t / 2, 2 * t))) == ["met"]
+    assert list(judge(at(1.1 * t, 0.9 * t, 1.3 * t))) == ["unclear"]
+    assert list(judge(at(1.1 * t, 1.01 * t, 1.3 * t))) == ["missed"]
+    assert list(judge(replace(at(1.1 * t, 0, 0), blocking_interval=None))) == ["missed"]
+
+
+def test_unclear_result_is_simulated_longer_not_chased():
+    net = one_link()
+    # Precondition (so that the test cannot pass vacuously): with seed 1 the first run of
+    # 20000 calls puts the point estimate above the target, its interval reaching it.
+    first = evaluate(net, [18], method="simulate", seed=1, calls=20_000)
+    assert first.blocking[0] > first.target[0] >= first.blocking_interval[0, 0]
+    plan = dimension(net, verify="simulate", seed=1, verify_calls=20_000)
+    # The least capacity meeting the target is 18 by Erlang B (recursion above): no
+    # calibration round adds a circuit against noise.
+    assert _erlang_b(10.0, 17) > net.demands[0].target >= _erlang_b(10.0, 18)
+    assert list(plan.capacities) == [18]
+    assert plan.details["verify_rounds"] == 0
+    assert plan.details["verify_calls_last"] > 20_000
+    assert plan.simulated_misses == ()
+
+
+def test_still_unclear_after_longest_run_is_accepted_with_a_warning():
+    net = one_link()
+    plan = dimension(net, verify="simulate", seed=2, verify_calls=20_000)
+    assert plan.details["verify_calls_last"] == 16 * 20_000
+    assert plan.details["verify_unclear"] == ["AB"] and plan.details["verify_missed"] == []
+    assert plan.status == "optimal-within-gap" and list(plan.capacities) == [18]
+    assert any("within the interval after 320000 calls" in w for w in plan.warnings)
+    assert plan.to_dict()["verification"]["demands"][0]["judged"] == "unclear"
+    from netdim.report.plan import format_plan
+
+    assert "unclear" in format_plan(plan)

@@ -92,6 +92,17 @@ class Plan:
     verification: object = field(default=None, repr=False, compare=False)
     warnings: tuple = ()
 
+    @property
+    def simulated_misses(self):
+        """Demands whose whole simulated confidence interval lies above the target."""
+        if self.verification is None:
+            return ()
+        from netdim.dimension.verify import judge
+
+        verdict = judge(self.verification)
+        return tuple(d for d, v in zip(self.verification.demand_ids, verdict, strict=True)
+                     if v == "missed")
+
     def __post_init__(self):
         object.__setattr__(self, "capacities", _frozen(self.capacities, np.int64))
         object.__setattr__(self, "modules", _frozen(self.modules, np.int64))
@@ -169,9 +180,16 @@ class Plan:
 
 def _verification_dict(ev):
     """``{'method', 'calls', 'confidence', 'all_met', 'demands': [{'id', 'blocking',
-    'interval', 'target', 'met'}]}``, or None when the plan was not verified."""
+    'interval', 'target', 'met', 'judged'}]}``, or None when the plan was not verified.
+
+    ``met`` compares the point estimate with the target; ``judged`` is ``'met'``,
+    ``'missed'`` (the whole interval above the target) or ``'unclear'``
+    (:func:`netdim.dimension.verify.judge`)."""
     if ev is None:
         return None
+    from netdim.dimension.verify import judge
+
+    verdict = judge(ev)
     iv = ev.blocking_interval
     return {
         "method": ev.method,
@@ -185,6 +203,7 @@ def _verification_dict(ev):
                 "interval": None if iv is None else [float(iv[i, 0]), float(iv[i, 1])],
                 "target": float(ev.target[i]),
                 "met": bool(ev.met[i]),
+                "judged": str(verdict[i]),
             }
             for i, did in enumerate(ev.demand_ids)
         ],

@@ -31,6 +31,10 @@ def format_plan(plan, max_rows=None) -> str:
     order = sorted(range(len(ev.demand_ids)),
                    key=lambda i: -(ev.blocking[i] / ev.target[i] if ev.target[i] > 0 else 0))
     ver = getattr(plan, "verification", None)
+    if ver is not None:
+        from netdim.dimension.verify import judge
+
+        verdict = judge(ver)
     demand_rows = []
     for i in order:
         row = [ev.demand_ids[i], fmt_num(float(ev.offered[i])), fmt_prob(float(ev.blocking[i]))]
@@ -38,7 +42,7 @@ def format_plan(plan, max_rows=None) -> str:
             row.append(_simulated(ver, i))
         row += [fmt_prob(float(ev.target[i])), "yes" if ev.met[i] else "NO"]
         if ver is not None:
-            row.append("yes" if ver.met[i] else "NO")
+            row.append({"met": "yes", "missed": "NO", "unclear": "unclear"}[verdict[i]])
         demand_rows.append(row)
     demand_headers = ["demand", "offered", "blocking", "target", "met"]
     if ver is not None:
@@ -70,6 +74,9 @@ def format_plan(plan, max_rows=None) -> str:
         out.append(f"verified       by simulation, {d.get('verify_calls', '?')} calls, seed "
                    f"{d.get('verify_seed', '?')}, {d.get('verify_rounds', 0)} calibration "
                    f"rounds; unverified plan cost {fmt_num(d.get('unverified_cost', plan.cost))}")
+    if ver is not None and (verdict == "unclear").any():
+        out.append("unclear        simulated blocking above target, but the confidence "
+                   "interval reaches it")
     if plan.message:
         out.append("")
         out.append(plan.message)
