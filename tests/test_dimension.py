@@ -244,6 +244,11 @@ def test_economic_single_link_is_moes_optimum():
     plan = dimension(net)
     assert plan.status == "economic"
     assert int(plan.capacities[0]) == ref
+    # One link, one demand: the bound's relaxation is exact at integer n (its secants pass
+    # through every integer point of the carried-load curve), so it equals the optimum.
+    best = 12.0 * (1 - erlang_b(12.0, ref)) - 0.2 * ref
+    assert plan.details["objective_bound"] == pytest.approx(best, rel=1e-6)
+    assert plan.gap == pytest.approx(0, abs=1e-6)
 
 
 def test_economic_line_network_matches_enumeration():
@@ -259,6 +264,19 @@ def test_economic_line_network_matches_enumeration():
     ref = max(objective(c1, c2) for c1 in range(25, 50) for c2 in range(18, 42))
     plan = dimension(_valued(line_network(), values))
     assert plan.details["objective"] == pytest.approx(ref, rel=1e-9)
+    # The upper bound holds against the enumerated optimum (5.2 % above it when measured).
+    ub = plan.details["objective_bound"]
+    assert ref <= ub + 1e-9 * abs(ref)
+    assert plan.gap == pytest.approx((ub - ref) / ub, rel=1e-6)
+    assert "upper bound" in plan.message
+    # Under the exact model only "capacity >= carried" applies: still above the optimum of
+    # every plan under that model, here checked against the fixed point's optimum too.
+    from netdim.dimension.economic import objective_bound
+    from netdim.dimension.space import LinkSpace
+
+    net = _valued(line_network(), values)
+    ub_any, kind = objective_bound(net, LinkSpace.of(net), model="exact")
+    assert kind == "MILP: capacity >= carried load" and ub_any >= ub - 1e-6
 
 
 def test_demand_without_buildable_route_is_infeasible():

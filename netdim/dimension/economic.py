@@ -7,10 +7,15 @@ starts from Moe's size per link (at the un-thinned load, with the route value sp
 over its links) and then a local search adds or removes one module at a time while
 ``sum_d value_d x carried_d - cost`` under the chosen evaluation increases.
 
+The plan's objective is compared with an upper bound (:func:`objective_bound`), which gives
+the gap reported in economic mode.
+
 References
 ----------
 A. Jensen, "Moe's principle: an econometric investigation intended as an aid in
 dimensioning and managing telephone plant", Copenhagen Telephone Company (1950).
+E. J. Messerli, "Proof of a convexity property of the Erlang B formula", Bell System
+Technical Journal 51 (1972) 951-953.
 """
 
 from __future__ import annotations
@@ -23,13 +28,114 @@ from netdim.dimension.plan import Plan
 from netdim.dimension.polish import Evaluator
 from netdim.dimension.space import first_route_loads
 
-__all__ = ["size_economic", "objective"]
+__all__ = ["size_economic", "objective", "objective_bound"]
+
+#: Secants of a link's carried-load curve stop where its blocking falls below this.
+_NEGLIGIBLE = 1e-10
 
 
 def objective(network, space, ev, k) -> float:
     """Value carried minus cost (demands without a value count for nothing)."""
     value = np.array([0.0 if d.value is None else float(d.value) for d in network.demands])
     return float(np.sum(value * ev.carried)) - space.cost(k)
+
+
+def objective_bound(network, space, model="fixed-point", solver="highs", mip_gap=1e-6,
+                    time_limit=None):
+    """An upper bound on value carried minus cost over every integer plan.
+
+    Returns ``(bound, kind)``.
+
+    Notes
+    -----
+    A MILP relaxation: per demand and usable route a carried traffic ``x >= 0``, the
+    demand's total at most its offered traffic ``A``; on every link the traffic its routes
+    carry (times bandwidth and holding ratio) at most ``h_j``; maximise ``sum value x`` minus
+    the cost of the modules (and fixed costs of links built new). Two caps on ``h_j``:
+
+    - *Any model:* a loss system never carries more than its capacity, ``h_j <= n_j``.
+    - *Single-rate, fixed-point or conservative model:* the load a link is offered is at
+      most its un-thinned load ``U_j`` (every route's traffic in full; under alternate
+      routing each route offered at most the demand's whole traffic), and an Erlang link's
+      carried load ``a (1 - E(a, n))`` grows with ``a``. A trunk-reservation link carries
+      no more than the Erlang link of the same total load (its arrival rates are lower in
+      the reserved states, so its occupancy is stochastically smaller; common practice, no
+      source). So ``h_j <= U_j (1 - E(U_j, n_j))``, which is concave in integer ``n_j``
+      (E is convex, Messerli 1972): its secants between consecutive module counts, extended,
+      lie above it at every integer point and are exact at their ends, so they are valid
+      linear cuts.
+
+    Every plan, with the carried traffic of each route under the model, is feasible for the
+    relaxation with the same objective, so the relaxation's optimum (the solver's proven
+    bound on it) bounds the objective of every plan.
+    """
+    import pulp
+
+    from netdim.dimension.milp import _dual_bound, make_solver
+    from netdim.erlang import erlang_b
+
+    nl = space.n_links
+    alt = network.routing.policy == "alternate"
+    curve = model in ("fixed-point", "conservative") and not network.is_multirate
+    unthinned = np.zeros(nl)
+    prob = pulp.LpProblem("economic_bound", pulp.LpMinimize)
+    usage = [[] for _ in range(nl)]
+    value_terms = []
+    for i, d in enumerate(network.demands):
+        routes = d.routes if alt else d.routes[:1]
+        xs = []
+        for r_i, r in enumerate(routes):
+            x = prob.add_variable(f"x{i}_{r_i}", lowBound=0)
+            xs.append(x)
+            for j, h in zip(r.links, r.holdings, strict=True):
+                f = d.bandwidth * h / d.holding
+                usage[j].append((x, f))
+                unthinned[j] += d.traffic * f
+        if xs:
+            prob += pulp.lpSum(xs) <= float(d.traffic)
+            if d.value:
+                value_terms += [(x, -float(d.value)) for x in xs]
+    cost_terms = []
+    n_cuts = 0
+    for j in range(nl):
+        if not usage[j]:
+            continue
+        inst, mod, kmax = int(space.installed[j]), int(space.module[j]), int(space.kmax[j])
+        k = prob.add_variable(f"k{j}", lowBound=0, upBound=kmax, cat=pulp.LpInteger)
+        h = prob.add_variable(f"h{j}", lowBound=0)
+        prob += pulp.LpAffineExpression(usage[j]) <= h
+        prob += pulp.LpAffineExpression([(h, 1.0), (k, -float(mod))]) <= float(inst)
+        cost_terms.append((k, float(space.cost_per_module[j])))
+        if space.fixed_cost[j] > 0 and inst == 0:
+            z = prob.add_variable(f"z{j}", cat=pulp.LpBinary)
+            prob += pulp.LpAffineExpression([(k, 1.0), (z, -float(kmax))]) <= 0
+            cost_terms.append((z, float(space.fixed_cost[j])))
+        a = unthinned[j]
+        if curve and a > 0:
+            prob += h <= float(a)
+            # carried a (1 - E(a, n)) at n = inst + mod k, k = 0 .. where E is negligible
+            ks = [0]
+            carried = [a * (1.0 - float(erlang_b(a, inst)))]
+            while ks[-1] < kmax and carried[-1] < a * (1.0 - _NEGLIGIBLE):
+                ks.append(ks[-1] + 1)
+                carried.append(a * (1.0 - float(erlang_b(a, inst + mod * ks[-1]))))
+            for i in range(len(ks) - 1):
+                slope = carried[i + 1] - carried[i]
+                prob += pulp.LpAffineExpression([(h, 1.0), (k, -slope)]) <= float(
+                    carried[i] - slope * ks[i])
+                n_cuts += 1
+    prob += pulp.LpAffineExpression(cost_terms + value_terms)
+    code = prob.solve(make_solver(solver, mip_gap, time_limit))
+    obj = pulp.value(prob.objective)
+    if pulp.LpStatus.get(code) != "Optimal" or obj is None:
+        return float("inf"), "none (the bound MILP did not solve)"
+    status = "optimal" if pulp.LpStatus.get(code) == "Optimal" else "time-limit"
+    low = _dual_bound(prob, solver, float(obj), mip_gap, status)
+    if not np.isfinite(low):
+        return float("inf"), "none (no proven bound)"
+    kind = ("MILP: carried <= Erlang carried at un-thinned loads" if curve
+            else "MILP: capacity >= carried load")
+    return -float(low), kind
 
 
 def size_economic(network, space, model="fixed-point", progress=None, t_start=None,
@@ -92,6 +198,10 @@ def size_economic(network, space, model="fixed-point", progress=None, t_start=No
     ev = evaluator(k)
     caps = space.capacity(k)
     cost = space.cost(k)
+    ub, kind = objective_bound(network, space, model=model, solver=solver)
+    ub = max(ub, best)
+    gap = (ub - best) / abs(ub) if np.isfinite(ub) and abs(ub) > 1e-12 else (
+        0.0 if np.isfinite(ub) else 1.0)
     base_caps, base_cost = baseline if baseline is not None else (caps, cost)
     return Plan(
         capacities=caps,
@@ -99,10 +209,11 @@ def size_economic(network, space, model="fixed-point", progress=None, t_start=No
         link_costs=space.link_costs(k),
         cost=cost,
         lower_bound=0.0,
-        gap=1.0 if cost > 0 else 0.0,
+        gap=gap,
         status="economic",
-        message=(f"economic plan: value carried minus cost {best:g} under the {model} model "
-                 "(no lower bound on cost in this mode; targets not enforced)"),
+        message=(f"economic plan: value carried minus cost {best:g} under the {model} model, "
+                 f"upper bound {ub:g} ({kind}), gap {100 * gap:.2f}% (no lower bound on cost "
+                 "in this mode; targets not enforced)"),
         evaluation=ev,
         iterations=1,
         solver="local search",
@@ -113,5 +224,6 @@ def size_economic(network, space, model="fixed-point", progress=None, t_start=No
                             if caps[j] == 0 and link.installed == 0),
         model=model,
         network=network.with_capacities(caps),
-        details={"objective": best, "evaluations": evaluator.calls},
+        details={"objective": best, "objective_bound": ub, "bound": kind,
+                 "evaluations": evaluator.calls},
     )

@@ -84,6 +84,11 @@ def main():
     if args.alternate:
         for n in sizes:
             run(f"mesh {n} alternate", mesh(n, policy="alternate"), solver=args.solver)
+        if args.verify:
+            for n in (n for n in sizes if n <= 20):
+                p = run(f"mesh {n} alternate verify", mesh(n, policy="alternate"),
+                        solver=args.solver, verify="simulate")
+                _verify_line(p)
     if not args.no_demo:
         from netdim.netfile import read_network
 
@@ -95,14 +100,18 @@ def main():
                 for restart in ("warm", "full"):
                     p = run(f"{path} verify/{restart}", net, solver=args.solver,
                             verify="simulate", verify_restart=restart)
-                    d = p.details
-                    hist = d["verify_history"]
-                    print(f"{'':28s} unverified cost={d['unverified_cost']:.1f} "
-                          f"verified cost={p.cost:.1f} "
-                          f"(+{100 * (p.cost / d['unverified_cost'] - 1):.2f}%) "
-                          f"simulated worst blocking/target {hist[0][1]:.3f} -> "
-                          f"{hist[-1][1]:.3f} rounds={d['verify_rounds']} "
-                          f"verify time={d['verify_seconds']:.1f}s", flush=True)
+                    _verify_line(p)
+
+
+def _verify_line(p):
+    d = p.details
+    hist = d["verify_history"]
+    print(f"{'':28s} unverified cost={d['unverified_cost']:.1f} verified cost={p.cost:.1f} "
+          f"(+{100 * (p.cost / d['unverified_cost'] - 1):.2f}%) "
+          f"simulated worst blocking/target {hist[0][1]:.3f} -> {hist[-1][1]:.3f} "
+          f"rounds={d['verify_rounds']} calls(last)={d['verify_calls_last']} "
+          f"missed={len(d['verify_missed'])} unclear={len(d['verify_unclear'])} "
+          f"verify time={d['verify_seconds']:.1f}s", flush=True)
 
 
 if __name__ == "__main__":
