@@ -36,8 +36,8 @@ def register(subparsers):
                    help="seed of the verification runs (default 0)")
     p.add_argument("--verify-calls", type=int, default=None, metavar="N",
                    help="arrivals per verification run (default 1000000)")
-    p.add_argument("--verify-rounds", type=int, default=4, metavar="N",
-                   help="most calibration rounds after the first check (default 4; 0 checks "
+    p.add_argument("--verify-rounds", type=int, default=8, metavar="N",
+                   help="most calibration rounds after the first check (default 8; 0 checks "
                    "the plan without changing it)")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     p.set_defaults(func=run)

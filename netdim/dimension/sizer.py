@@ -31,7 +31,7 @@ _POLISH_SECONDS = 120.0
 
 def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_limit=None,
               max_iter=20, polish=True, progress=None, economic=None, verify=None, seed=0,
-              verify_calls=None, verify_rounds=4, verify_restart="warm") -> Plan:
+              verify_calls=None, verify_rounds=8, verify_restart="warm") -> Plan:
     """Choose integer capacities meeting every demand's blocking target at least cost.
 
     Parameters

@@ -82,7 +82,7 @@ def with_targets(network, targets):
     return replace(network, demands=demands)
 
 
-def verify_plan(network, plan, resize, seed=0, calls=None, rounds=4, t_start=None,
+def verify_plan(network, plan, resize, seed=0, calls=None, rounds=8, t_start=None,
                 restart="warm"):
     """Simulate ``plan``; tighten the working targets of demands that miss and size again.
 
@@ -141,14 +141,14 @@ def verify_plan(network, plan, resize, seed=0, calls=None, rounds=4, t_start=Non
     *Restart.* ``'warm'``: from the current plan, the local search (repair, trim, move) under
     the model and the working targets, on the route set the plan kept. ``'full'``: the whole
     sizing (MILP loop, link dropping, local search) with the working targets. Measured on the
-    demo networks (1e6 calls, seed 0): campus parking 1905 -> 1965 either way (warm 0.8 s,
-    full 3.2 s of verification); regional telephone 3002.3 -> 3159.3 warm (1 round, 1.5 s)
-    but 3013.4 full (2 rounds, 19 s): the repair adds capacity where the missed demands
-    run, while a fresh MILP spreads it over the network. But the full restart moves capacity
-    away from demands that passed, so it need not converge: on the 10-site alternate mesh
-    of the sizing benchmark it still missed after 4 rounds (worst simulated blocking 1.74 x
-    target, cost 3199.0), where the warm restart passed in 4 rounds at 3112.7 (unverified
-    3031.7, 2.94 x target). Hence ``'warm'`` by default.
+    demo networks (1e6 calls, seed 0): campus parking 1905 -> 1965 either way (1 round);
+    regional telephone 3003.8 -> 3201.0 warm (1 round, 2.0 s of verification) and 3262.3
+    full (1 round, 10.7 s). The full restart moves capacity away from demands that passed,
+    so it need not converge: on the 10-site alternate mesh of the sizing benchmark it still
+    missed after 4 rounds (worst simulated blocking 1.74 x target) where the warm restart
+    passed. Hence ``'warm'`` by default. Warm, on the alternate meshes of the benchmark:
+    10 sites 2990.4 -> 3096.1 in 5 rounds (32 s in all), 20 sites 12331.8 -> 12742.5 in 6
+    rounds (94 s), 14 demands left unclear at 16e6 calls.
     """
     from netdim.dimension.sizer import _kmin, dimension, polish_and_check
     from netdim.dimension.space import LinkSpace
@@ -173,18 +173,21 @@ def verify_plan(network, plan, resize, seed=0, calls=None, rounds=4, t_start=Non
         say(f"verifying by simulation ({n_calls} calls, seed {stream})")
         return simulate(net, p.capacities, seed=stream, calls=n_calls)
 
+    level = [calls]
+
     def settled(p):
-        """Simulate ``p``; more calls while some demand is unclear and none missed."""
-        n_calls = calls
-        ver = simulated(p, n_calls)
+        """Simulate ``p``; more calls while some demand is unclear and none missed.
+
+        A later round starts at the number of calls the last one needed."""
+        ver = simulated(p, level[0])
         while True:
             verdict = judge(ver)
             if (verdict == "missed").any() or not (verdict == "unclear").any():
                 return ver, verdict
-            if n_calls * 4 > calls * _MAX_CALL_FACTOR:
+            if level[0] * 4 > calls * _MAX_CALL_FACTOR:
                 return ver, verdict
-            n_calls *= 4
-            ver = simulated(p, n_calls)
+            level[0] *= 4
+            ver = simulated(p, level[0])
 
     cur = plan
     ver, verdict = settled(cur)
