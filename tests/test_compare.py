@@ -3,7 +3,7 @@
 import json
 
 import pytest
-from test_exact import erlang_b, tandem
+from _networks import erlang_b, tandem
 
 from netdim.report.text import CAUTION
 

@@ -5,46 +5,11 @@ import math
 
 import numpy as np
 import pytest
+from _networks import erlang_b, one_link, tandem, triangle  # tests/ is on sys.path under pytest
 
 from netdim.errors import ModelTooLargeError
 from netdim.evaluate.exact import exact
-from netdim.model import Demand, Link, Network, Route, Routing, Site
-
-
-def erlang_b(a, c):
-    # Erlang B by the standard recursion B(0)=1, B(k)=aB/(k+aB) (Erlang 1917; any handbook)
-    b = 1.0
-    for k in range(1, c + 1):
-        b = a * b / (k + a * b)
-    return b
-
-
-def one_link(cap, demands):
-    sites = (Site("A"), Site("B"))
-    ds = tuple(
-        Demand(f"D{i}", ("A", "B"), a, bandwidth=b, routes=(Route((0,), (1.0,)),))
-        for i, (a, b) in enumerate(demands)
-    )
-    return Network("one", sites, (Link("AB", ("A", "B"), cap),), ds)
-
-
-def tandem(cap, a):
-    sites = (Site("A"), Site("B"), Site("C"))
-    links = (Link("AB", ("A", "B"), cap), Link("BC", ("B", "C"), cap))
-    d = Demand("AC", ("A", "C"), a, routes=(Route((0, 1), (1.0, 1.0)),))
-    return Network("tandem", sites, links, (d,))
-
-
-def triangle(cap, a, reservation, policy="alternate", holdings=(1.0, 1.0)):
-    sites = (Site("A"), Site("B"), Site("C"))
-    links = (Link("AB", ("A", "B"), cap), Link("BC", ("B", "C"), cap),
-             Link("AC", ("A", "C"), cap))
-    ds = (
-        Demand("AB", ("A", "B"), a, routes=(Route((0,), (1.0,)), Route((2, 1), holdings))),
-        Demand("BC", ("B", "C"), a, routes=(Route((1,), (1.0,)), Route((0, 2), holdings))),
-        Demand("AC", ("A", "C"), a, routes=(Route((2,), (1.0,)), Route((0, 1), holdings))),
-    )
-    return Network("tri", sites, links, ds, routing=Routing(policy, reservation=reservation))
+from netdim.model import Demand, Network, Route
 
 
 @pytest.mark.parametrize("a,c", [(5.0, 10), (2.0, 1), (20.0, 25), (0.5, 3)])

@@ -6,7 +6,7 @@ interval check fails with probability about 0.1% per demand (the false-failure b
 
 import numpy as np
 import pytest
-from test_exact import erlang_b, one_link, tandem, triangle
+from _networks import erlang_b, one_link, tandem, triangle
 
 from netdim.evaluate.exact import exact
 from netdim.evaluate.simulate import simulate
