@@ -29,6 +29,7 @@ __all__ = [
     "kaufman_roberts_many",
     "reservation_link",
     "reservation_link_many",
+    "reservation_link_multi_many",
 ]
 
 _RESCALE = 1e250
@@ -360,3 +361,81 @@ def reservation_link_many(first_load, overflow_load, capacities, reservations):
     b_first[order] = p / total
     b_over[order] = tail / total
     return b_first, b_over
+
+
+def reservation_link_multi_many(loads, bandwidths, capacities, limits):
+    """:func:`reservation_link` with several bandwidths, vectorised over links.
+
+    Parameters
+    ----------
+    loads : array_like, shape (n_links, n_streams)
+        Offered traffic of each stream on each link, erlangs.
+    bandwidths : array_like of int, shape (n_streams,)
+    capacities : array_like of int, shape (n_links,)
+    limits : array_like of int, shape (n_links, n_streams)
+        Units each stream must leave free on each link (0 for first-choice calls, the
+        reservation for overflow calls).
+
+    Returns
+    -------
+    ndarray, shape (n_links, n_streams)
+        Blocking of each stream on each link.
+
+    Raises
+    ------
+    ValueError
+        Bad values or shapes.
+
+    Notes
+    -----
+    The Roberts approximation of :func:`reservation_link`, ``k q(k) = sum_i a_i b_i
+    q(k - b_i) [k <= C - limits_i]`` (Roberts, ITC-10, 1983), run over occupancy k on
+    arrays of links sorted by capacity (the links still growing at step k form a prefix),
+    each row rescaled on its own; stream i is blocked in the states above
+    ``C - limits_i - b_i``.
+    """
+    a = _loads("loads", loads, 2)
+    b = _ints("bandwidths", bandwidths, 1, 1)
+    caps = _ints("capacities", capacities, 1, 0)
+    lim = np.asarray(limits)
+    if a.shape != (len(caps), len(b)):
+        raise ValueError(
+            f"loads: expected shape ({len(caps)}, {len(b)}) (links x streams), got {a.shape}"
+        )
+    if lim.shape != a.shape:
+        raise ValueError(f"limits: expected shape {a.shape} (links x streams), got {lim.shape}")
+    lim = _ints("limits", lim.reshape(-1), 1, 0).reshape(a.shape)
+    n_links = len(caps)
+    out = np.ones((n_links, len(b)))
+    if n_links == 0 or len(b) == 0:
+        return out
+    order = np.argsort(-caps, kind="stable")
+    cs = caps[order]
+    ab = (a * b)[order]
+    thr = cs[:, None] - lim[order]  # stream i admitted into state k only if k <= thr
+    cmax = int(cs[0])
+    q = np.zeros((n_links, cmax + 1))
+    q[:, 0] = 1.0
+    n_active = np.searchsorted(-cs, -np.arange(cmax + 1), side="right")
+    for k in range(1, cmax + 1):
+        m = n_active[k]
+        s = np.zeros(m)
+        for i, bi in enumerate(b):
+            if bi <= k:
+                s += np.where(k <= thr[:m, i], ab[:m, i] * q[:m, k - bi], 0.0)
+        s /= k
+        q[:m, k] = s
+        big = np.flatnonzero(s > _RESCALE)
+        if big.size:
+            q[big, : k + 1] /= _RESCALE
+    tail = np.cumsum(q[:, ::-1], axis=1)[:, ::-1]  # tail[l, k] = sum_{j >= k} q[l, j]
+    total = tail[:, 0]
+    rows = np.arange(n_links)
+    res = np.ones((n_links, len(b)))
+    for i, bi in enumerate(b):
+        first = thr[:, i] - bi + 1  # first state in which stream i is blocked
+        ok = (first >= 1) & (first <= cs)
+        res[ok, i] = tail[rows[ok], first[ok]] / total[ok]
+        res[first > cs, i] = 0.0
+    out[order] = res
+    return out

@@ -15,6 +15,7 @@ from netdim.linkmodels import (
     kaufman_roberts_occupancy,
     reservation_link,
     reservation_link_many,
+    reservation_link_multi_many,
 )
 
 
@@ -171,6 +172,35 @@ def test_reservation_link_many_equals_single():
     # reservation >= capacity: overflow always refused, first-choice sees Erlang
     bf, bo = reservation_link_many([30.0], [10.0], [45], [45])
     assert bo[0] == 1.0 and bf[0] == pytest.approx(erlang_b(30.0, 45), rel=1e-12)
+
+
+def test_reservation_link_multi_many_equals_single():
+    # source: reservation_link, per link (checked against the direct chain above), and with
+    # one-unit streams the exact chain of reservation_link_many
+    rng = np.random.default_rng(4)
+    bw = np.array([1, 1, 4, 4])  # first-choice and overflow of two classes
+    caps = np.array([12, 0, 30, 7, 3, 60])
+    loads = rng.uniform(0, 8, (len(caps), len(bw)))
+    loads[2, 1] = 0.0
+    res = np.array([2, 1, 0, 3, 5, 4])
+    limits = np.column_stack([np.zeros(6, int), res, np.zeros(6, int), res])
+    got = reservation_link_multi_many(loads, bw, caps, limits)
+    for j in range(len(caps)):
+        want = reservation_link(loads[j], int(caps[j]), limits[j], bandwidths=bw)
+        np.testing.assert_allclose(got[j], want, rtol=1e-12, atol=1e-300)
+    one = reservation_link_multi_many(loads[:, :2], [1, 1], caps, limits[:, :2])
+    bf, bo = reservation_link_many(loads[:, 0], loads[:, 1], caps, res)
+    np.testing.assert_allclose(one[:, 0], bf, rtol=1e-12)
+    np.testing.assert_allclose(one[:, 1], bo, rtol=1e-12)
+
+
+def test_reservation_link_multi_many_bad_shapes():
+    with pytest.raises(ValueError, match=r"loads: expected shape \(2, 2\) \(links x streams\)"):
+        reservation_link_multi_many(np.ones((2, 3)), [1, 2], [5, 5], np.zeros((2, 3), int))
+    with pytest.raises(ValueError, match=r"limits: expected shape \(2, 2\)"):
+        reservation_link_multi_many(np.ones((2, 2)), [1, 2], [5, 5], np.zeros((2, 3), int))
+    with pytest.raises(ValueError, match="limits"):
+        reservation_link_multi_many(np.ones((2, 2)), [1, 2], [5, 5], -np.ones((2, 2), int))
 
 
 def test_reservation_link_many_large_capacity():

@@ -163,14 +163,10 @@ class _Problem:
             B = np.column_stack([np.asarray(b1, dtype=float), np.asarray(b2, dtype=float)])
             logq = None
         else:
-            from netdim.linkmodels import reservation_link
+            from netdim.linkmodels import reservation_link_multi_many
 
             logq = None
-            B = np.empty_like(loads)
-            for j in range(self.n_links):
-                B[j] = reservation_link(
-                    loads[j], int(self.caps[j]), self.limits[j], bandwidths=self.stream_bw_int
-                )
+            B = reservation_link_multi_many(loads, self.stream_bw_int, self.caps, self.limits)
         if self.any_zero_cap:
             B[self.zero_cap] = 1.0
         np.clip(B, 0.0, 1.0, out=B)
@@ -515,14 +511,15 @@ def _conservative(prob, tol, max_iter):
              "but not proven above the exact blocking (overflow is peakier than Poisson); "
              "check plans by simulation"]
     it = 0
-    for it in range(1, max_iter + 1):
+    while it < max_iter:
+        it += 1
         Bn, qn = prob.link_blocking(prob.sweep(q, thin=False)[2])
         res = float(np.max(np.abs(Bn - B))) if B.size else 0.0
         # The iterates fall monotonically; the minimum guards against rounding.
         B, q = np.minimum(B, Bn), np.maximum(q, qn)
         if res <= tol:
             break
-    else:
+    if res > tol:
         warns.append(f"conservative iteration stopped after {max_iter} sweeps (largest "
                      f"change {res:.2g}); its blockings stay at or above the limit")
     return prob.evaluation(

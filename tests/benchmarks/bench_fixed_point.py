@@ -15,6 +15,10 @@ under fixed and alternate routing, it prints side by side (medians of repeats):
   sweep, and the speed-up against it.
 
 Goals at 200 sites: within 2x of the per-iteration floor, at least 20x faster than the loop.
+
+``--multirate``: also the same meshes with every third demand a 4-unit class, single-rate
+against two-class times per iteration, fixed and alternate routing (multi-rate under
+alternate routing evaluates the reservation link one link at a time).
 """
 
 from __future__ import annotations
@@ -53,6 +57,33 @@ def mesh(n_sites, traffic, capacity, n_alt=3, policy="fixed", reservation=2):
                               routes=tuple(routes)))
     return Network(f"mesh{n_sites}", sites, links, tuple(demands),
                    routing=Routing(policy=policy, reservation=reservation))
+
+
+def multirate(net, every=3, width=4):
+    """The mesh with every ``every``-th demand a ``width``-unit call class."""
+    from dataclasses import replace
+
+    ds = tuple(replace(d, bandwidth=width, traffic=d.traffic / width) if i % every == 0 else d
+               for i, d in enumerate(net.demands))
+    return replace(net, demands=ds)
+
+
+def multirate_section(sites, repeats):
+    head = (f"{'sites':>5} {'policy':>9} {'classes':>7} {'iter':>5} {'total s':>8} "
+            f"{'ms/iter':>8} {'x single':>8}")
+    print()
+    print(head)
+    print("-" * len(head))
+    for n in sites:
+        for policy in ("fixed", "alternate"):
+            single = None
+            for label, net in (("1", mesh(n, 20.0, 30, policy=policy)),
+                               ("1+4", multirate(mesh(n, 20.0, 30, policy=policy)))):
+                t, ev = median_time(lambda net=net: fixed_point(net, start="idle"), repeats)
+                per_it = t / ev.iterations
+                single = per_it if single is None else single
+                print(f"{n:>5} {policy:>9} {label:>7} {ev.iterations:>5} {t:>8.3f} "
+                      f"{per_it * 1e3:>8.2f} {per_it / single:>8.1f}", flush=True)
 
 
 def median_time(fn, repeats):
@@ -151,6 +182,8 @@ def main(argv=None):
     ap.add_argument("--sites", type=int, nargs="+", default=[50, 100, 200])
     ap.add_argument("--repeats", type=int, default=3)
     ap.add_argument("--policies", nargs="+", default=["fixed", "alternate"])
+    ap.add_argument("--multirate", action="store_true",
+                    help="also time two call classes against one")
     args = ap.parse_args(argv)
     head = (f"{'sites':>5} {'policy':>9} {'load':>5} {'links':>6} {'steps':>7} {'iter':>5} "
             f"{'cold s':>7} {'warm s':>7} {'ms/iter':>8} {'floor ms':>8} {'x floor':>7} "
@@ -179,6 +212,8 @@ def main(argv=None):
                       f"{floor * 1e3:>8.2f} {per_it / floor:>7.2f} {loop * 1e3:>9.1f} "
                       f"{loop / per_it:>8.1f}",
                       flush=True)
+    if args.multirate:
+        multirate_section(args.sites, args.repeats)
 
 
 if __name__ == "__main__":
