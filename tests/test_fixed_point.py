@@ -391,6 +391,10 @@ def test_conservative_alternate_triangle_against_scalar_equations():
     assert cons.blocking == pytest.approx([expected] * 3, rel=1e-8)
     assert np.all(cons.blocking >= fixed_point(net).blocking)
     assert any("not proven above the exact" in w for w in cons.warnings)
+    # Stopped early, the iterate is still above the limit (the iteration falls to it).
+    early = fixed_point(net, conservative=True, max_iter=1)
+    assert np.all(early.blocking >= cons.blocking)
+    assert any("conservative iteration stopped after 1 sweeps" in w for w in early.warnings)
 
 
 def test_conservative_alternate_above_both_solutions_of_bistable_mesh():
