@@ -250,8 +250,9 @@ def kaufman_roberts_many(loads, bandwidths, capacities):
 
     Notes
     -----
-    The recursion runs over occupancy k on arrays of links (links sorted by capacity, so the
-    links still growing at step k form a prefix); each row is rescaled on its own.
+    The recursion of :func:`reservation_link_multi_many` with no stream kept off any unit:
+    over occupancy k on arrays of links (links sorted by capacity, so the links still growing
+    at step k form a prefix), each row rescaled on its own.
     """
     a = _loads("loads", loads, 2)
     b = _ints("bandwidths", bandwidths, 1, 1)
@@ -260,39 +261,8 @@ def kaufman_roberts_many(loads, bandwidths, capacities):
         raise ValueError(
             f"loads: expected shape ({len(caps)}, {len(b)}) (links x classes), got {a.shape}"
         )
-    n_links = len(caps)
-    out = np.ones((n_links, len(b)))
-    if n_links == 0 or len(b) == 0:
-        return out
-    order = np.argsort(-caps, kind="stable")
-    cs = caps[order]
-    ab = (a * b)[order]
-    cmax = int(cs[0])
-    q = np.zeros((n_links, cmax + 1))
-    q[:, 0] = 1.0
-    # number of links with capacity >= k, for each k
-    n_active = np.searchsorted(-cs, -np.arange(cmax + 1), side="right")
-    for k in range(1, cmax + 1):
-        m = n_active[k]
-        s = np.zeros(m)
-        for i, bi in enumerate(b):
-            if bi <= k:
-                s += ab[:m, i] * q[:m, k - bi]
-        s /= k
-        q[:m, k] = s
-        big = np.flatnonzero(s > _RESCALE)
-        if big.size:
-            q[big, : k + 1] /= _RESCALE
-    tail = np.cumsum(q[:, ::-1], axis=1)[:, ::-1]  # tail[l, k] = sum_{j >= k} q[l, j]
-    total = tail[:, 0]
-    rows = np.arange(n_links)
-    res = np.ones((n_links, len(b)))
-    for i, bi in enumerate(b):
-        cut = cs - bi + 1  # first blocking state
-        ok = cut >= 1
-        res[ok, i] = tail[rows[ok], cut[ok]] / total[ok]
-    out[order] = res
-    return out
+    # The recursion of the reservation link with nothing reserved.
+    return reservation_link_multi_many(a, b, caps, np.zeros(a.shape, np.int64))
 
 
 def reservation_link_many(first_load, overflow_load, capacities, reservations):

@@ -71,26 +71,20 @@ def objective_bound(network, space, model="fixed-point", solver="highs", mip_gap
     """
     import pulp
 
-    from netdim.dimension.milp import _dual_bound, make_solver
+    from netdim.dimension.milp import _dual_bound, add_route_flows, make_solver
     from netdim.erlang import erlang_b
 
     nl = space.n_links
     alt = network.routing.policy == "alternate"
     curve = model in ("fixed-point", "conservative") and not network.is_multirate
-    unthinned = np.zeros(nl)
     prob = pulp.LpProblem("economic_bound", pulp.LpMinimize)
-    usage = [[] for _ in range(nl)]
+    flows, usage = add_route_flows(prob, network, alt)
+    # every route offered its demand's whole traffic: coefficient times that traffic
+    traffic = {id(x): d.traffic for d, xs in zip(network.demands, flows, strict=True)
+               for x in xs}
+    unthinned = np.array([sum(f * traffic[id(x)] for x, f in terms) for terms in usage])
     value_terms = []
-    for i, d in enumerate(network.demands):
-        routes = d.routes if alt else d.routes[:1]
-        xs = []
-        for r_i, r in enumerate(routes):
-            x = prob.add_variable(f"x{i}_{r_i}", lowBound=0)
-            xs.append(x)
-            for j, h in zip(r.links, r.holdings, strict=True):
-                f = d.bandwidth * h / d.holding
-                usage[j].append((x, f))
-                unthinned[j] += d.traffic * f
+    for d, xs in zip(network.demands, flows, strict=True):
         if xs:
             prob += pulp.lpSum(xs) <= float(d.traffic)
             if d.value:

@@ -21,7 +21,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["SOLVERS", "MilpResult", "solve_secant_milp", "make_solver"]
+__all__ = ["SOLVERS", "MilpResult", "solve_secant_milp", "make_solver", "add_route_flows"]
 
 #: Solver names accepted by :func:`netdim.dimension.dimension`.
 SOLVERS = ("highs", "cbc")
@@ -65,6 +65,27 @@ def make_solver(name, mip_gap, time_limit):
         # PuLP 3 warns that the bundled CBC goes in PuLP 4; it is still the bundled one here.
         warnings.simplefilter("ignore", DeprecationWarning)
         return pulp.PULP_CBC_CMD(msg=False, gapRel=mip_gap, timeLimit=time_limit)
+
+
+def add_route_flows(prob, network, all_routes):
+    """Add a carried-traffic variable per demand and route to the PuLP problem ``prob``.
+
+    Returns ``(flows, usage)``: ``flows[i]`` the variables of demand i (its usable routes:
+    every route when ``all_routes``, else the first), ``usage[j]`` the ``(variable, units
+    per erlang)`` terms of link j, units being bandwidth times the step's holding over the
+    demand's holding.
+    """
+    usage = [[] for _ in network.links]
+    flows = []
+    for i, d in enumerate(network.demands):
+        xs = []
+        for r_i, r in enumerate(d.routes if all_routes else d.routes[:1]):
+            x = prob.add_variable(f"x{i}_{r_i}", lowBound=0)
+            xs.append(x)
+            for j, h in zip(r.links, r.holdings, strict=True):
+                usage[j].append((x, d.bandwidth * h / d.holding))
+        flows.append(xs)
+    return flows, usage
 
 
 _HIGHS_READY = False

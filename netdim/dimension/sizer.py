@@ -466,15 +466,10 @@ def _flow_bound(network, space, all_routes):
     prob = pulp.LpProblem("bound", pulp.LpMinimize)
     y = [prob.add_variable(f"y{j}", lowBound=0, upBound=float(space.kmax[j]))
          for j in range(space.n_links)]
-    usage = [[] for _ in range(space.n_links)]
-    for i, d in enumerate(network.demands):
-        routes = d.routes if all_routes else d.routes[:1]
-        xs = []
-        for r_i, r in enumerate(routes):
-            x = prob.add_variable(f"x{i}_{r_i}", lowBound=0)
-            xs.append(x)
-            for j, h in zip(r.links, r.holdings, strict=True):
-                usage[j].append((x, d.bandwidth * h / d.holding))
+    from netdim.dimension.milp import add_route_flows, make_solver
+
+    flows, usage = add_route_flows(prob, network, all_routes)
+    for d, xs in zip(network.demands, flows, strict=True):
         if xs:
             prob += pulp.lpSum(xs) >= d.traffic * (1.0 - d.target)
     for j in range(space.n_links):
@@ -482,8 +477,6 @@ def _flow_bound(network, space, all_routes):
             prob += (pulp.LpAffineExpression(usage[j])
                      - float(space.module[j]) * y[j] <= float(space.installed[j]))
     prob += pulp.lpSum(float(space.cost_per_module[j]) * y[j] for j in range(space.n_links))
-    from netdim.dimension.milp import make_solver
-
     prob.solve(make_solver("highs", 1e-6, None))
     v = pulp.value(prob.objective)
     return float(v) if v is not None else 0.0
