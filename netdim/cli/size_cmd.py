@@ -39,6 +39,9 @@ def register(subparsers):
     p.add_argument("--verify-rounds", type=int, default=8, metavar="N",
                    help="most calibration rounds after the first check (default 8; 0 checks "
                    "the plan without changing it)")
+    p.add_argument("--bound-time", type=float, default=20.0, metavar="S",
+                   help="seconds for the lower bound under alternate routing (default 20; "
+                   "longer is tighter)")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     p.set_defaults(func=run)
     return p
@@ -55,6 +58,8 @@ def run(args) -> int:
         raise ValueError(f"--time-limit: must be > 0 seconds, got {args.time_limit!r}")
     if args.verify_calls is not None and args.verify_calls <= 0:
         raise ValueError(f"--verify-calls: must be a positive integer, got {args.verify_calls}")
+    if not args.bound_time > 0:
+        raise ValueError(f"--bound-time: must be > 0 seconds, got {args.bound_time!r}")
     if args.verify_rounds < 0:
         raise ValueError(f"--verify-rounds: must be >= 0, got {args.verify_rounds}")
     network = read_network(args.file)
@@ -69,7 +74,8 @@ def run(args) -> int:
     plan = dimension(network, model=args.model, solver=args.solver, mip_gap=args.gap,
                      time_limit=args.time_limit, progress=None if args.quiet else progress,
                      verify="simulate" if args.verify else None, seed=args.seed,
-                     verify_calls=args.verify_calls, verify_rounds=args.verify_rounds)
+                     verify_calls=args.verify_calls, verify_rounds=args.verify_rounds,
+                     bound_time=args.bound_time)
     if args.out:
         write_network(plan.network, args.out, capacities=plan.capacities)
     if args.json:

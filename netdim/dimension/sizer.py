@@ -31,7 +31,8 @@ _POLISH_SECONDS = 120.0
 
 def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_limit=None,
               max_iter=20, polish=True, progress=None, economic=None, verify=None, seed=0,
-              verify_calls=None, verify_rounds=8, verify_restart="warm") -> Plan:
+              verify_calls=None, verify_rounds=8, verify_restart="warm",
+              bound_time=20.0) -> Plan:
     """Choose integer capacities meeting every demand's blocking target at least cost.
 
     Parameters
@@ -70,6 +71,9 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
         How a verification round sizes again: the local search from the current plan
         (``'warm'``, cheaper in time and sure to add capacity where it is missing) or the
         whole sizing (``'full'``, sometimes cheaper, may not converge).
+    bound_time : float
+        Seconds allowed to the cutting-plane lower bound under alternate routing
+        (:func:`netdim.dimension.altbound.alternate_bound`); longer gives a tighter bound.
 
     Returns
     -------
@@ -128,9 +132,12 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
     ``A_r prod_{k != j} (1 - B_k)``, is at least ``A_r (1 - t_r)`` (and exactly ``A_r``
     on a one-link route); Erlang B grows with the
     load, so each demand's constraint at these loads is implied by the true one, and the
-    MILP's proven bound is a bound on the least cost. Otherwise (alternate routing, the
-    exact model, multi-rate, droppable links): the LP bound that every link's capacity is
-    at least the load it carries, ``sum_r x_r b f_rj <= capacity_j``, with each demand
+    MILP's proven bound is a bound on the least cost. Alternate routing, single-rate,
+    fixed-point or conservative model: the loss-flow relaxation with cutting planes of
+    :func:`netdim.dimension.altbound.alternate_bound` (or the LP below when that is
+    larger), 9-12 % above the LP on the benchmark meshes. Otherwise (the exact model,
+    multi-rate, droppable links under fixed routing): the LP bound that every link's
+    capacity is at least the load it carries, ``sum_r x_r b f_rj <= capacity_j``, with each demand
     carrying at least ``A (1 - t)`` over its usable routes: true of any plan under every
     model (a loss system never carries more than its capacity), but weak.
 
@@ -155,6 +162,9 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
         raise ValueError(f"max_iter: must be >= 1, got {max_iter!r}")
     if time_limit is not None and not time_limit > 0:
         raise ValueError(f"time_limit: must be > 0 seconds, got {time_limit!r}")
+    if isinstance(bound_time, bool) or not (isinstance(bound_time, (int, float))
+                                            and bound_time > 0):
+        raise ValueError(f"bound_time: must be > 0 seconds, got {bound_time!r}")
     from netdim.dimension.verify import check_verify_options, verify_plan
 
     verify = check_verify_options(verify, verify_calls, verify_rounds, verify_restart)
@@ -162,7 +172,7 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
     if verify is not None:
         plan = dimension(network, model=model, solver=solver, mip_gap=mip_gap,
                          time_limit=time_limit, max_iter=max_iter, polish=polish,
-                         progress=progress, economic=economic)
+                         progress=progress, economic=economic, bound_time=bound_time)
         resize = dict(model=model, solver=solver, mip_gap=mip_gap, time_limit=time_limit,
                       max_iter=max_iter, polish=polish, say=say)
         return verify_plan(network, plan, resize, seed=seed, calls=verify_calls,
@@ -204,7 +214,7 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
     caps = space.capacity(k)
     cost = space.cost(k)
     bound, bound_kind = _lower_bound(network, net, space, model, solver, mip_gap, time_limit,
-                                     best, bool(candidates))
+                                     best, bool(candidates), bound_time, say)
     bound = min(bound, cost) if np.isfinite(bound) else 0.0
     gap = (cost - bound) / cost if cost > 0 else 0.0
     dropped_all = tuple(
@@ -428,8 +438,23 @@ def _used_links(network):
 
 
 # -- the lower bound --------------------------------------------------------------------------
-def _lower_bound(network, net, space, model, solver, mip_gap, time_limit, run, droppable):
+def _lower_bound(network, net, space, model, solver, mip_gap, time_limit, run, droppable,
+                 bound_time=20.0, say=None):
     alt = network.routing.policy == "alternate"
+    if alt and not network.is_multirate and model in ("fixed-point", "conservative"):
+        # Valid for the conservative model too: its blocking is at or above every solution
+        # of the fixed point, so a plan meeting it meets the fixed point as well. Valid
+        # with droppable links: a dropped link is a link of capacity 0, which the bound
+        # allows, and fixed costs only add to a plan's cost.
+        from netdim.dimension.altbound import alternate_bound
+
+        if say:
+            say(f"lower bound: cutting planes under alternate routing (up to {bound_time:g} s)")
+        value, kind = alternate_bound(network, space, solver=solver, time_limit=bound_time)
+        flow = _flow_bound(network, space, True)
+        if value >= flow:
+            return value, kind
+        return flow, "LP: capacity >= carried load"
     strong = not alt and not network.is_multirate and not droppable and model != "exact"
     fixed_part = _fixed_costs(net, space)
     if strong and model == "conservative":

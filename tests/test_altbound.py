@@ -1,0 +1,255 @@
+"""The loss-flow lower bound under alternate routing (netdim.dimension.altbound).
+
+Validity is checked against the least cost found by exhaustive search, written here, over
+every integer plan in a box, each plan evaluated with the fixed-point model the bound is
+stated for (``netdim.evaluate.evaluate(method='fixed-point')``; a plan counts as feasible
+when either solution of a bistable network meets every target). The box is large enough to
+be sure of the least cost: every plan outside it costs more than the least cost found.
+The plane offsets are checked against a brute-force minimum over a fine grid with Erlang B
+computed here by its recursion (Jagerman 1974).
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+
+import numpy as np
+import pytest
+
+from netdim.dimension.altbound import alternate_bound, loss_planes_offset, res_planes_offset
+from netdim.dimension.sizer import _flow_bound
+from netdim.dimension.space import LinkSpace
+from netdim.evaluate import evaluate
+from netdim.model import Demand, Link, Network, Route, Routing, Site
+
+
+def erlang_b(a, n):
+    """Erlang B recursion (Jagerman 1974)."""
+    e = 1.0
+    for i in range(1, n + 1):
+        e = a * e / (i + a * e)
+    return e
+
+
+def R(*links, holdings=None):
+    return Route(tuple(links), tuple(holdings or (1.0,) * len(links)))
+
+
+def network(links, demands, reservation=1, policy="alternate"):
+    sites = tuple(Site(s) for s in sorted({e for link in links for e in link.ends}))
+    return Network("tiny", sites, tuple(links), tuple(demands),
+                   routing=Routing(policy=policy, reservation=reservation))
+
+
+def feasible(net, caps):
+    ev = evaluate(net, np.array(caps), method="fixed-point")
+    sols = [ev] + ([ev.alternative] if ev.alternative is not None else [])
+    return any(bool(np.all(s.blocking <= s.target)) for s in sols)
+
+
+def least_cost(net, budget):
+    """Least cost of a plan meeting every target, searched over every plan costing at most
+    ``budget``, cheapest first (link j then has at most budget / cost_j units)."""
+    costs = np.array([link.cost_per_module for link in net.links])
+    ranges = [range(int(budget // c) + 1) for c in costs]
+    plans = [caps for caps in itertools.product(*ranges) if costs @ np.array(caps) <= budget]
+    plans.sort(key=lambda caps: float(costs @ np.array(caps)))
+    for caps in plans:
+        if feasible(net, caps):
+            # every cheaper plan is in the list, so this is the least cost
+            return float(costs @ np.array(caps))
+    raise AssertionError("no plan within the budget meets the targets")
+
+
+def triangle(reservation=1):
+    # demands A-B and B-C direct first, the other two links as their alternative
+    links = [Link("AB", ("A", "B"), cost_per_module=1.0),
+             Link("BC", ("B", "C"), cost_per_module=1.5),
+             Link("AC", ("A", "C"), cost_per_module=2.0)]
+    demands = [Demand("AB", ("A", "B"), 3.0, target=0.05, routes=(R(0), R(2, 1))),
+               Demand("BC", ("B", "C"), 2.0, target=0.05, routes=(R(1), R(0, 2)))]
+    return network(links, demands, reservation)
+
+
+def parallel(reservation):
+    # one demand over two parallel one-link routes, and a second demand on the second link
+    links = [Link("L0", ("A", "B"), cost_per_module=1.0),
+             Link("L1", ("A", "B"), cost_per_module=1.3)]
+    demands = [Demand("d0", ("A", "B"), 4.0, target=0.02, routes=(R(0), R(1))),
+               Demand("d1", ("A", "B"), 1.5, target=0.05, routes=(R(1), R(0)))]
+    return network(links, demands, reservation)
+
+
+def square():
+    # a two-hop first route, two alternatives, and a holding time that differs per link
+    links = [Link("AB", ("A", "B"), cost_per_module=1.0),
+             Link("BC", ("B", "C"), cost_per_module=1.2),
+             Link("AD", ("A", "D"), cost_per_module=0.9),
+             Link("DC", ("D", "C"), cost_per_module=1.1)]
+    demands = [Demand("AC", ("A", "C"), 1.0, target=0.2,
+                      routes=(R(0, 1), R(2, 3, holdings=(1.0, 0.8)))),
+               Demand("AB", ("A", "B"), 0.7, target=0.2, routes=(R(0), R(2, 3, 1))),
+               Demand("DC", ("D", "C"), 0.5, target=0.2, routes=(R(3),))]
+    return network(links, demands, reservation=1)
+
+
+CASES = [("triangle r=1", triangle, 16), ("parallel r=0", lambda: parallel(0), 14),
+         ("parallel r=2", lambda: parallel(2), 14), ("square", square, 9)]
+
+
+@pytest.mark.parametrize("name,make,budget", CASES, ids=[c[0] for c in CASES])
+def test_bound_below_least_cost_by_exhaustive_search(name, make, budget):
+    net = make()
+    best = least_cost(net, budget)
+    value, kind = alternate_bound(net)
+    assert kind.startswith("loss-flow")
+    assert value <= best + 1e-9
+    # (b) never below the LP bound "capacity >= carried load" (the relaxation contains it)
+    lp = _flow_bound(net, LinkSpace.of(net), True)
+    assert value >= lp * (1 - 1e-5) - 1e-6
+    # the MILP ending, and the relaxation without the reservation-chain cuts, are bounds too
+    value_int, kind_int = alternate_bound(net, integer=True, reservation_cuts=False)
+    assert value_int <= best + 1e-9
+    assert kind_int.startswith("loss-flow")
+
+
+def test_bound_tighter_than_lp_bound_on_a_mesh():
+    # A 5-site full mesh as in the sizing benchmark: direct routes, 2-hop alternatives.
+    rng = np.random.default_rng(3)
+    n = 5
+    sites = [f"S{i}" for i in range(n)]
+    pairs = list(itertools.combinations(range(n), 2))
+    pos = {p: k for k, p in enumerate(pairs)}
+    links = [Link(f"S{i}-S{j}", (sites[i], sites[j]), cost_per_module=1.0 + rng.random())
+             for i, j in pairs]
+    demands = []
+    for i, j in pairs:
+        vias = [m for m in range(n) if m not in (i, j)][:2]
+        alts = tuple(R(pos[tuple(sorted((i, m)))], pos[tuple(sorted((m, j)))]) for m in vias)
+        demands.append(Demand(f"{i}-{j}", (sites[i], sites[j]), float(rng.uniform(2, 10)),
+                              routes=(R(pos[(i, j)]),) + alts))
+    net = network(links, demands, reservation=2)
+    lp = _flow_bound(net, LinkSpace.of(net), True)
+    value, _ = alternate_bound(net)
+    assert value > 1.03 * lp
+
+
+def test_fallback_to_lp_bound():
+    # fixed routing, multi-rate demands, a demand without routes: the LP bound, said so
+    fixed = network(triangle().links, triangle().demands, policy="fixed")
+    value, kind = alternate_bound(fixed)
+    assert kind.startswith("LP: capacity >= carried load (routing is not alternate")
+    assert value == pytest.approx(_flow_bound(fixed, LinkSpace.of(fixed), False))
+    from dataclasses import replace
+
+    net = triangle()
+    wide = replace(net, demands=(replace(net.demands[0], bandwidth=2),) + net.demands[1:])
+    value, kind = alternate_bound(wide)
+    assert "multi-rate" in kind
+    assert value == pytest.approx(_flow_bound(wide, LinkSpace.of(wide), True))
+    lost = replace(net, demands=net.demands + (Demand("x", ("A", "C"), 1.0, routes=()),))
+    value, kind = alternate_bound(lost)
+    assert "no route" in kind
+
+
+@pytest.mark.parametrize("kw,word", [({"solver": "glpk"}, "solver"), ({"mip_gap": 1.5}, "mip_gap"),
+                                     ({"time_limit": 0}, "time_limit"),
+                                     ({"max_rounds": 0}, "max_rounds")])
+def test_bad_options(kw, word):
+    with pytest.raises(ValueError, match=word):
+        alternate_bound(triangle(), **kw)
+
+
+def test_plane_slopes_checked():
+    with pytest.raises(ValueError, match="slopes"):
+        loss_planes_offset([0.1], [0.2], [5.0], [0], [1], [10], [0])
+    with pytest.raises(ValueError, match="slopes"):
+        res_planes_offset(1, [-0.1], [-0.2], [3.0], [1], [5.0], [0], [1], [10])
+
+
+def reservation_losses(first, over, c, r):
+    """Loss rates (first, overflow) of the birth-death chain, built here state by state."""
+    w = [1.0]
+    for k in range(c):
+        lam = first + over if k < c - r else first
+        w.append(w[-1] * lam / (k + 1))
+    tot = sum(w)
+    b1 = w[c] / tot
+    b2 = sum(w[max(c - r, 0):]) / tot
+    return first * b1, over * b2
+
+
+def test_plane_offsets_below_brute_force_minimum():
+    # alpha + beta nu + gamma c <= phi_c(nu) on a fine grid of loads and every capacity up
+    # to 60 (beyond, phi >= 0 >= the plane, see the offset rule), and close to the minimum.
+    rng = np.random.default_rng(7)
+    beta = rng.uniform(0.0, 0.6, 4)
+    gamma = -rng.uniform(0.01, 0.1, 4)
+    vmax = rng.uniform(3.0, 25.0, 4)
+    inst, mod, kmax, shift = np.array([0, 2, 0, 1]), np.array([1, 1, 2, 1]), \
+        np.array([60, 50, 30, 59]), np.array([0, 2, 1, 0])
+    alpha = loss_planes_offset(beta, gamma, vmax, inst, mod, kmax, shift)
+    first = rng.uniform(1.0, 12.0, 4)
+    alpha_res = res_planes_offset(3, beta, gamma, first, shift, vmax, inst, mod, kmax)
+    for p in range(4):
+        nus = np.linspace(0.0, vmax[p], 201)
+        best = best_res = math.inf
+        for k in range(kmax[p] + 1):
+            c = int(inst[p] + mod[p] * k)
+            s = max(c - int(shift[p]), 0)
+            for nu in nus:
+                lam = nu * erlang_b(nu, s)
+                best = min(best, lam - beta[p] * nu - gamma[p] * c)
+                l1, l2 = reservation_losses(first[p], nu, c, int(shift[p]))
+                best_res = min(best_res, l1 + l2 - beta[p] * nu - gamma[p] * c)
+        assert alpha[p] <= best + 1e-12
+        assert alpha[p] >= best - 0.02
+        assert alpha_res[p] <= best_res + 1e-12
+        assert alpha_res[p] >= best_res - 0.05
+
+
+@pytest.mark.parametrize("s", [1, 2, 5, 12, 30])
+def test_erlang_loss_rate_convex_in_load(s):
+    # Step (6) of the proof, checked numerically: second differences of nu E(nu, s) >= 0.
+    nus = np.linspace(0.05, 3.0 * s + 5, 600)
+    lam = np.array([nu * erlang_b(nu, s) for nu in nus])
+    assert np.all(np.diff(lam, 2) >= -1e-12)
+
+
+def test_erlang_loss_rate_not_jointly_convex():
+    # Why the offsets are computed: along nu = s the loss rate is concave (the midpoint of
+    # two points lies above the chord), so tangent planes in (nu, s) are not valid cuts.
+    lam = [s * erlang_b(float(s), s) for s in (10, 20, 30)]
+    assert lam[1] > (lam[0] + lam[2]) / 2
+
+
+def test_sizer_reports_the_loss_flow_bound_under_alternate_routing():
+    # The plan's lower bound is the loss-flow bound, at most the least cost by exhaustive
+    # search (above) and at least the LP bound; the conservative model uses it too (its
+    # blocking is above every fixed-point solution, so its plans are fixed-point plans).
+    from netdim.dimension import dimension
+
+    net = triangle()
+    best = least_cost(net, 16)
+    lp = _flow_bound(net, LinkSpace.of(net), True)
+    for model in ("fixed-point", "conservative"):
+        plan = dimension(net, model=model)
+        assert plan.details["bound"].startswith("loss-flow")
+        assert lp * (1 - 1e-5) <= plan.lower_bound <= best + 1e-9
+        assert plan.cost >= best - 1e-9
+        assert plan.gap == pytest.approx((plan.cost - plan.lower_bound) / plan.cost)
+
+
+def test_bound_time_must_be_positive(tmp_path, capsys):
+    from netdim.cli import main
+    from netdim.dimension import dimension
+
+    with pytest.raises(ValueError, match=r"bound_time: must be > 0 seconds, got 0"):
+        dimension(triangle(), bound_time=0)
+    p = tmp_path / "tri.yaml"
+    from netdim.netwrite import write_network
+
+    write_network(triangle(), p)
+    assert main(["size", str(p), "--bound-time", "-1", "--quiet"]) == 2
+    assert "--bound-time: must be > 0 seconds, got -1.0" in capsys.readouterr().err
