@@ -228,8 +228,10 @@ def solve_secant_milp(space, table, routes, budgets, solver="highs", mip_gap=1e-
         solver_obj = make_solver(solver, mip_gap, time_limit)
         code = prob.solve(solver_obj)
         text = pulp.LpStatus.get(code, "Undefined")
+        if text in ("Optimal", "Not Solved"):
+            text = _highs_status(prob, solver_obj, text)
         values = {j: v.varValue for j, v in kvar.items()}
-        have = all(v is not None for v in values.values())
+        have = all(v is not None for v in values.values()) and text != "Undefined"
         if text == "Optimal" and have:
             status = "optimal"
         elif have:
@@ -261,6 +263,30 @@ def solve_secant_milp(space, table, routes, budgets, solver="highs", mip_gap=1e-
         n_cuts=n_cuts,
         infeasible_demands=tuple(bad),
     )
+
+
+def _highs_status(prob, engine, text):
+    """PuLP's status checked against HiGHS's own.
+
+    PuLP reads a HiGHS stop at the time limit as 'Optimal' when it has an objective and
+    as 'Not Solved' when it has none, and in both cases fills every variable (with 0 when
+    HiGHS has no solution). Returns 'Optimal', 'Not Solved' (stopped with a feasible
+    solution) or 'Undefined' (stopped without one). Other solvers: ``text`` unchanged.
+    """
+    import pulp
+
+    if not isinstance(engine, getattr(pulp, "HiGHS", ())):
+        return text
+    try:
+        import highspy
+
+        model = prob.solverModel
+        if model.getModelStatus() == highspy.HighsModelStatus.kOptimal:
+            return "Optimal"
+        # primal_solution_status 2: a feasible solution (HiGHS's kSolutionStatusFeasible)
+        return "Not Solved" if model.getInfo().primal_solution_status == 2 else "Undefined"
+    except Exception:  # noqa: BLE001 - no status to read: trust PuLP's
+        return text
 
 
 def _dual_bound(prob, solver, objective, mip_gap, status):

@@ -191,7 +191,7 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
                              baseline=(base_caps, base_cost), solver=solver)
 
     opts = dict(model=model, solver=solver, mip_gap=mip_gap, time_limit=time_limit,
-                max_iter=int(max_iter), say=say)
+                max_iter=int(max_iter), say=say, fallback=space.modules_for(base_caps))
     run = _size_routes(network, space, **opts)
     best_net, best = network, run
     dropped: list[str] = []
@@ -254,7 +254,15 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
             "dropped_by_search": list(dropped),
             "milp_cost": float(space.cost(best.k)),
         },
+        warnings=_no_solution_warning(time_limit) if best.no_solution else (),
     )
+
+
+def _no_solution_warning(time_limit):
+    why = ("the MILP solver stopped without a plan" if time_limit is None else
+           f"the MILP stopped at its time limit ({time_limit:g} s) before it found any plan")
+    return (why + "; this plan comes from the local search and may cost well above the "
+            "least: allow more time",)
 
 
 def polish_and_check(net, space, k, kmin, model, polish, time_limit, say):
@@ -289,7 +297,8 @@ def polish_and_check(net, space, k, kmin, model, polish, time_limit, say):
 
 # -- the outer loop ---------------------------------------------------------------------------
 class _Run:
-    def __init__(self, k, kmin, iterations, milp_seconds, cuts, bad, feasible_guess, first):
+    def __init__(self, k, kmin, iterations, milp_seconds, cuts, bad, feasible_guess, first,
+                 no_solution=False):
         self.k = k
         self.kmin = kmin
         self.iterations = iterations
@@ -298,6 +307,7 @@ class _Run:
         self.bad = bad
         self.feasible_guess = feasible_guess
         self.first = first  # MilpResult at un-thinned loads
+        self.no_solution = no_solution  # the MILP stopped before it had any plan
 
 
 def _method(model):
@@ -315,7 +325,8 @@ def _kmin(network, space):
     return np.minimum(space.modules_for(need), space.kmax)
 
 
-def _size_routes(network, space, model, solver, mip_gap, time_limit, max_iter, say):
+def _size_routes(network, space, model, solver, mip_gap, time_limit, max_iter, say,
+                 fallback=None):
     alt = network.routing.policy == "alternate"
     loop_method = "conservative" if model == "conservative" else "fixed-point"
     from netdim.evaluate import evaluate
@@ -333,6 +344,7 @@ def _size_routes(network, space, model, solver, mip_gap, time_limit, max_iter, s
     bad = ()
     it = 0
     feasible_guess = False
+    no_solution = False
     best_ok = None
     costs: list[float] = []
     for it in range(1, max_iter + 1):
@@ -352,7 +364,14 @@ def _size_routes(network, space, model, solver, mip_gap, time_limit, max_iter, s
         k = res.k
         say(f"iteration {it}: MILP cost {space.cost(k):g} ({res.status}, {res.seconds:.2f} s, "
             f"{res.n_cuts} cuts)")
+        if res.status == "error" and prev is None and fallback is not None:
+            # Stopped (time limit) before any plan: the local search starts from the
+            # baseline instead, which meets the targets as far as it can.
+            no_solution = True
+            k = np.minimum(space.kmax, np.maximum(kmin, fallback))
+            break
         if res.status in ("infeasible", "error"):
+            no_solution = no_solution or res.status == "error"
             k = prev if prev is not None else np.minimum(space.kmax, np.maximum(kmin, k))
             break
         if loop_method == "conservative" and not alt:
@@ -387,7 +406,7 @@ def _size_routes(network, space, model, solver, mip_gap, time_limit, max_iter, s
         if best_ok is not None and space.cost(best_ok) <= space.cost(k):
             k = best_ok
         feasible_guess = True
-    return _Run(k, kmin, it, seconds, cuts, bad, feasible_guess, first)
+    return _Run(k, kmin, it, seconds, cuts, bad, feasible_guess, first, no_solution)
 
 
 #: The alternate-routing loop has settled when the MILP cost moved less than this (relative)
