@@ -114,6 +114,19 @@ def test_bound_below_least_cost_by_exhaustive_search(name, make, budget):
     assert kind_int.startswith("loss-flow")
 
 
+@pytest.mark.parametrize("name,make,budget", CASES, ids=[c[0] for c in CASES])
+def test_sizer_plan_is_least_cost_by_exhaustive_search(name, make, budget):
+    # The plan's cost equals the least cost of the exhaustive search above under the
+    # fixed-point model, and lies at or above the bound the sizer reports.
+    from netdim import dimension
+
+    net = make()
+    plan = dimension(net)
+    assert plan.evaluation.all_met
+    assert plan.cost == pytest.approx(least_cost(net, budget), abs=1e-9)
+    assert plan.lower_bound <= plan.cost + 1e-9
+
+
 def test_bound_tighter_than_lp_bound_on_a_mesh():
     # A 5-site full mesh as in the sizing benchmark: direct routes, 2-hop alternatives.
     rng = np.random.default_rng(3)

@@ -24,8 +24,17 @@ _SAFETY = 1e-9
 RESERVATION_CUT_LINKS = 500
 #: Relative amount taken off every solver value (its feasibility / optimality tolerances).
 _LP_SLACK = 1e-6
+#: MILP rounds go on while each raises the bound by at least this (relative).
+_MILP_GAIN = 1e-3
 #: A cut is added where the relaxation's point violates the loss function by more than this.
 _TOL = 1e-6
+
+
+def _milp_time(left, time_limit):
+    """Seconds for one MILP of the integer rounds: a quarter of the budget, within what is left."""
+    if time_limit is None:
+        return None
+    return max(min(left, 0.25 * time_limit), 1.0)
 
 
 # -- the loss function and cuts of its epigraph -----------------------------------------------
@@ -581,7 +590,9 @@ def alternate_bound(network, space=None, solver="highs", mip_gap=1e-4, time_limi
     max_rounds : int
         Most rounds of cuts (one LP solve each).
     integer : bool
-        End with the MILP (integer modules) and use its proven dual bound when larger.
+        End with rounds of the MILP (integer modules): each is solved (given at most a
+        quarter of ``time_limit``), cut at its integer point, and solved again while cuts
+        are violated there; its proven dual bound is used when larger.
     reservation_cuts : bool or None
         Also cut with the reservation chain's exact loss rates on links whose first-choice
         load is a constant (tighter per round, slower per round). None: on networks of at
@@ -691,8 +702,10 @@ def alternate_bound(network, space=None, solver="highs", mip_gap=1e-4, time_limi
     networks (``tests/test_altbound.py``). Measured on the benchmark meshes
     (``tests/benchmarks/bench_bound.py``, 50 s budget): 9-11 % above the LP bound at 10 to
     50 sites; against the sizer's plans the gap falls from 23.2 % to 15.8 % (10 sites) and
-    14.7 % (20 sites). The MILP ending adds about 0.01 % at 10 sites, at many times the
-    time. The relaxation stays weak where routes are free to take losses that belong to
+    14.7 % (20 sites). The MILP rounds add about 0.01 % at 10 sites, but where modules
+    are large they matter: on the bundled regional network (modules of 30) the bound rises
+    from 1355.9 to 1710.9 (gap 54.9 % to 43.0 %), on the campus network from 1851.2 to
+    1890.0 (gap 2.8 % to 0.8 %). The relaxation stays weak where routes are free to take losses that belong to
     other routes of the same link and stream (the equal blocking of a stream is bilinear
     and left out). ``Lambda`` is *not* jointly convex in (nu, s): along
     ``nu = s`` it grows like ``sqrt(2 s / pi)``, concave, so tangent planes of the
@@ -763,12 +776,25 @@ def alternate_bound(network, space=None, solver="highs", mip_gap=1e-4, time_limi
         if rel.separate() == 0:
             break
     kind = f"loss-flow LP ({rounds} rounds, {rel.n_cuts} cuts)"
-    if integer and (time_limit is None or time.perf_counter() - t0 < time_limit):
-        text, b = rel.solve(True, mip_gap, left(), solver)
-        say(f"MILP {b:.8g} ({text}), {time.perf_counter() - t0:.1f} s")
-        if np.isfinite(b) and b > best:
+    milp_rounds = 0
+    while integer and milp_rounds < int(max_rounds) and (
+            time_limit is None or time.perf_counter() - t0 < time_limit):
+        # Each MILP is given a quarter of the budget at most: its root bound comes early,
+        # and proving optimality can take far longer than it adds (measured on the
+        # benchmark meshes). Its proven bound counts whatever its status.
+        text, b = rel.solve(True, mip_gap, _milp_time(left(), time_limit), solver)
+        milp_rounds += 1
+        say(f"MILP round {milp_rounds}: {b:.8g} ({text}), {rel.n_cuts} cuts, "
+            f"{time.perf_counter() - t0:.1f} s")
+        gain = b - best if np.isfinite(b) else 0.0
+        if gain > 0:
             best = b
-            kind = f"loss-flow MILP ({rounds} rounds, {rel.n_cuts} cuts)"
+            kind = f"loss-flow MILP ({rounds} LP and {milp_rounds} MILP rounds, {rel.n_cuts} cuts)"
+        if gain < _MILP_GAIN * abs(best) or text not in ("Optimal", "Not Solved"):
+            # integrality adds little here, or there is no integer point to cut at
+            break
+        if rel.separate() == 0:
+            break
     if not np.isfinite(best):
         return fallback("the relaxation was not solved")
     return float(max(best, 0.0)), kind

@@ -469,7 +469,8 @@ def _lower_bound(network, net, space, model, solver, mip_gap, time_limit, run, d
 
         if say:
             say(f"lower bound: cutting planes under alternate routing (up to {bound_time:g} s)")
-        value, kind = alternate_bound(network, space, solver=solver, time_limit=bound_time)
+        value, kind = alternate_bound(network, space, solver=solver, time_limit=bound_time,
+                                      integer=True)
         flow = _flow_bound(network, space, True)
         if value >= flow:
             return value, kind
