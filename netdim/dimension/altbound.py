@@ -705,9 +705,10 @@ def alternate_bound(network, space=None, solver="highs", mip_gap=1e-4, time_limi
     14.7 % (20 sites). The MILP rounds add about 0.01 % at 10 sites, but where modules
     are large they matter: on the bundled regional network (modules of 30) the bound rises
     from 1355.9 to 1710.9 (gap 54.9 % to 43.0 %), on the campus network from 1851.2 to
-    1890.0 (gap 2.8 % to 0.8 %). The relaxation stays weak where routes are free to take losses that belong to
-    other routes of the same link and stream (the equal blocking of a stream is bilinear
-    and left out). ``Lambda`` is *not* jointly convex in (nu, s): along
+    1890.0 (gap 2.8 % to 0.8 %). The relaxation stays weak where routes are free to take
+    losses that belong to other routes of the same link and stream (the equal blocking of a
+    stream is bilinear and left out), and where a route loses traffic that shows as loss on
+    none of its links (two links blocking at once). ``Lambda`` is *not* jointly convex in (nu, s): along
     ``nu = s`` it grows like ``sqrt(2 s / pi)``, concave, so tangent planes of the
     continuous extension are not valid cuts; hence the computed offsets.
 
