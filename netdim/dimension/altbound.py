@@ -708,9 +708,9 @@ def alternate_bound(network, space=None, solver="highs", mip_gap=1e-4, time_limi
     1890.0 (gap 2.8 % to 0.8 %). The relaxation stays weak where routes are free to take
     losses that belong to other routes of the same link and stream (the equal blocking of a
     stream is bilinear and left out), and where a route loses traffic that shows as loss on
-    none of its links (two links blocking at once). ``Lambda`` is *not* jointly convex in (nu, s): along
-    ``nu = s`` it grows like ``sqrt(2 s / pi)``, concave, so tangent planes of the
-    continuous extension are not valid cuts; hence the computed offsets.
+    none of its links (two links blocking at once). ``Lambda`` is *not* jointly convex in
+    (nu, s): along ``nu = s`` it grows like ``sqrt(2 s / pi)``, concave, so tangent planes
+    of the continuous extension are not valid cuts; hence the computed offsets.
 
     References
     ----------
