@@ -17,7 +17,12 @@ import math
 import numpy as np
 import pytest
 
-from netdim.dimension.altbound import alternate_bound, loss_planes_offset, res_planes_offset
+from netdim.dimension.altbound import (
+    _res_table,
+    alternate_bound,
+    loss_planes_offset,
+    res_planes_offset,
+)
 from netdim.dimension.sizer import _flow_bound
 from netdim.dimension.space import LinkSpace
 from netdim.evaluate import evaluate
@@ -127,7 +132,7 @@ def test_sizer_plan_is_least_cost_by_exhaustive_search(name, make, budget):
     assert plan.lower_bound <= plan.cost + 1e-9
 
 
-def test_bound_tighter_than_lp_bound_on_a_mesh():
+def mesh5():
     # A 5-site full mesh as in the sizing benchmark: direct routes, 2-hop alternatives.
     rng = np.random.default_rng(3)
     n = 5
@@ -142,7 +147,11 @@ def test_bound_tighter_than_lp_bound_on_a_mesh():
         alts = tuple(R(pos[tuple(sorted((i, m)))], pos[tuple(sorted((m, j)))]) for m in vias)
         demands.append(Demand(f"{i}-{j}", (sites[i], sites[j]), float(rng.uniform(2, 10)),
                               routes=(R(pos[(i, j)]),) + alts))
-    net = network(links, demands, reservation=2)
+    return network(links, demands, reservation=2)
+
+
+def test_bound_tighter_than_lp_bound_on_a_mesh():
+    net = mesh5()
     lp = _flow_bound(net, LinkSpace.of(net), True)
     value, _ = alternate_bound(net)
     assert value > 1.03 * lp
@@ -220,6 +229,59 @@ def test_plane_offsets_below_brute_force_minimum():
         assert alpha[p] >= best - 0.02
         assert alpha_res[p] <= best_res + 1e-12
         assert alpha_res[p] >= best_res - 0.05
+
+
+def test_weighted_reservation_planes_below_brute_force_minimum():
+    # alpha + beta o + gamma c <= w1 F B1 + w2 o B2 (the chain built here state by state)
+    rng = np.random.default_rng(11)
+    w = (1.0, 4.0)
+    beta = rng.uniform(0.0, 2.0, 3)
+    gamma = -rng.uniform(0.05, 0.5, 3)
+    vmax = rng.uniform(5.0, 30.0, 3)
+    first = rng.uniform(2.0, 15.0, 3)
+    res, inst, mod, kmax = np.array([2, 1, 3]), np.array([0, 0, 4]), np.array([1, 1, 2]), \
+        np.array([50, 45, 25])
+    alpha = res_planes_offset(w, beta, gamma, first, res, vmax, inst, mod, kmax)
+    for p in range(3):
+        best = math.inf
+        for k in range(kmax[p] + 1):
+            c = int(inst[p] + mod[p] * k)
+            for o in np.linspace(0.0, vmax[p], 121):
+                l1, l2 = reservation_losses(first[p], o, c, int(res[p]))
+                best = min(best, w[0] * l1 + w[1] * l2 - beta[p] * o - gamma[p] * c)
+        assert alpha[p] <= best + 1e-12
+        assert alpha[p] >= best - 0.2
+
+
+def test_reservation_table_equals_the_chain():
+    # every capacity and overflow load at once, against the chain built state by state
+    first, r = 7.5, 2
+    o = np.linspace(0.0, 20.0, 9)
+    cs = np.arange(0, 31)
+    fl, ov = _res_table(first, r, o, cs)
+    for i, c in enumerate(cs):
+        for k, x in enumerate(o):
+            l1, l2 = reservation_losses(first, x, int(c), r)
+            assert fl[i, k] == pytest.approx(l1, rel=1e-12, abs=1e-300)
+            assert ov[i, k] == pytest.approx(l2, rel=1e-12, abs=1e-300)
+
+
+def test_hull_slopes_raise_the_relaxation():
+    # the slopes from the grid's lower hull give a higher LP value than the load derivative
+    # alone (their validity is the exhaustive-search test above)
+    from netdim.dimension.altbound import _Data, _Relaxation
+
+    net = mesh5()
+    values = []
+    for hull in (False, True):
+        rel = _Relaxation(_Data(net, LinkSpace.of(net)))
+        rel.envelope = hull
+        for _ in range(30):
+            _, value = rel.solve(False, 0.0, None, "highs")
+            if rel.separate() == 0:
+                break
+        values.append(value)
+    assert values[1] > 1.01 * values[0]
 
 
 @pytest.mark.parametrize("s", [1, 2, 5, 12, 30])
