@@ -182,8 +182,9 @@ def res_planes_offset(kind, beta, gamma, first, res, vmax, inst, mod, kmax, grid
     """Offsets of planes below the reservation chain's loss rates (see :func:`alternate_bound`).
 
     ``kind`` 1: first-choice loss ``F B1(F, o, c)``; 2: overflow loss ``o B2(F, o, c)``;
-    3: their sum, as functions of the overflow load o in ``[0, vmax]`` at the constant
-    first-choice load F, for the chain of :func:`netdim.linkmodels.reservation_link_many`
+    3: their sum; a pair ``(w1, w2)`` of weights >= 0: ``w1 F B1 + w2 o B2``; as
+    functions of the overflow load o in ``[0, vmax]`` at the constant first-choice load F,
+    for the chain of :func:`netdim.linkmodels.reservation_link_many`
     (capacity c, reservation r). Each is nondecreasing in o (B1 and B2 are), so on a grid
     cell ``[a, b]`` the function minus ``beta o`` is at least its value at a minus
     ``beta b``. Other arguments as :func:`loss_planes_offset`.
@@ -402,6 +403,7 @@ class _Relaxation:
     use_res = True
     multi = False
     weights = ()
+    envelope = True
     span = None
 
     def _first_secants(self):
@@ -535,8 +537,6 @@ class _Relaxation:
             added += self._separate_family(caps, pts, *fam)
         self.n_cuts += added
         return added
-
-    envelope = True
 
     def _phi_grid(self, x, j, shift):
         """The loss function of family ``x`` on link j on a (capacity, load) grid, cached."""
