@@ -396,12 +396,11 @@ class _Relaxation:
         self.prob = prob
         self.n_cuts = 0
         self.n_secants = 0
-        self._grids = {}
+        self._grids = {}  # hull faces per (family, link)
         self._first_secants()
 
     hopeless = False
     use_res = True
-    multi = False
     weights = ()
     envelope = True
     span = None
@@ -539,11 +538,7 @@ class _Relaxation:
         return added
 
     def _phi_grid(self, x, j, shift):
-        """The loss function of family ``x`` on link j on a (capacity, load) grid, cached."""
-        key = (x, int(j))
-        got = self._grids.get(key)
-        if got is not None:
-            return got
+        """The loss function of family ``x`` on link j on a (capacity, load) grid."""
         d, sp = self.data, self.data.space
         res_kind = not isinstance(x, str)
         vm = float(d.vmax["O"][j] if res_kind else d.vmax[x][j])
@@ -563,10 +558,7 @@ class _Relaxation:
         else:
             e = _erlang_table(nus, int(max(cs.max() - int(shift[j]), 0)))
             phi = nus[None, :] * e[np.maximum(cs - int(shift[j]), 0)]
-        phi = phi.ravel()
-        got = (C.ravel().astype(float), N.ravel(), np.asarray(phi, float))
-        self._grids[key] = got
-        return got
+        return C.ravel().astype(float), N.ravel(), np.asarray(phi, float).ravel()
 
     def _envelope_slopes(self, x, links, v, c, shift):
         """Slopes of the plane highest at (v, c) among the faces of the lower convex hull of
@@ -585,7 +577,7 @@ class _Relaxation:
     def _faces(self, x, j, shift):
         """(alpha, beta, gamma) of the lower faces of the hull of the grid (beta >= 0,
         gamma <= 0 only), or None."""
-        key = ("faces", x, int(j))
+        key = (x, int(j))
         if key in self._grids:
             return self._grids[key]
         from scipy.spatial import ConvexHull
@@ -604,7 +596,6 @@ class _Relaxation:
             if ok.any():
                 out = (al[ok], np.maximum(be[ok], 0.0), np.minimum(ga[ok], 0.0))
         self._grids[key] = out
-        del self._grids[(x, int(j))]
         return out
 
     def _separate_family(self, caps, pts, x, lexpr, nexpr, vmax_all, idx, extra):
@@ -647,12 +638,11 @@ class _Relaxation:
         viol = np.flatnonzero(lv < val - _TOL * (1.0 + val))
         if not len(viol):
             return 0
-        # planes with the slope in the load of both neighbouring capacities and between
+        # a plane with the slope in the load between the neighbouring capacities, and one
+        # from the hull of the loss function
         gam = np.where(k1 > k0, np.minimum(0.0, (l1 - l0) / mod), 0.0)[viol]
         slopes = [np.maximum((1 - th) * d0 + th * d1, 0.0)[viol]]
-        if self.multi:
-            slopes += [np.maximum(d0, 0.0)[viol], np.maximum(d1, 0.0)[viol]]
-        gams = [gam] * len(slopes)
+        gams = [gam]
         if self.envelope:
             eb, eg = self._envelope_slopes(x, idx[viol], v[viol], caps[idx[viol]],
                                            extra if not res_kind else None)
