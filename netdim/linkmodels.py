@@ -33,6 +33,11 @@ __all__ = [
 ]
 
 _RESCALE = 1e250
+#: reservation_link_many works in log space, every state at once, on at most this many links
+#: (and cells, links x states): its loop over states costs about 13 us a step whatever the
+#: links, the log space about 40 ns a cell (measured on the benchmark machine).
+_LOG_LINKS = 256
+_LOG_CELLS = 1 << 22
 
 
 # --------------------------------------------------------------------------------------------
@@ -295,6 +300,9 @@ def reservation_link_many(first_load, overflow_load, capacities, reservations):
     -----
     The chain's probabilities are built up with the normalised recursion
     ``p(k) = p(k - 1) lambda(k - 1) / k`` on arrays of links, rows rescaled on their own.
+    On a few links (at most 256) they come instead from the weights in log space, every
+    state at once, which saves the loop over states where capacities are large and links
+    few (parking spaces by the hundred); the two agree to about 1e-13.
     """
     f = _loads("first_load", first_load, 1)
     o = _loads("overflow_load", overflow_load, 1)
@@ -305,6 +313,8 @@ def reservation_link_many(first_load, overflow_load, capacities, reservations):
     n = len(f)
     if n == 0:
         return np.ones(0), np.ones(0)
+    if n <= _LOG_LINKS and n * (int(caps.max()) + 1) <= _LOG_CELLS:
+        return _reservation_log_weights(f, o, caps, res)
     order = np.argsort(-caps, kind="stable")
     cs, fs, os_, thr = caps[order], f[order], o[order], (caps - res)[order]
     both = fs + os_
@@ -331,6 +341,33 @@ def reservation_link_many(first_load, overflow_load, capacities, reservations):
     b_first[order] = p / total
     b_over[order] = tail / total
     return b_first, b_over
+
+
+def _reservation_log_weights(f, o, caps, res):
+    """:func:`reservation_link_many` from the chain's weights in log space, every state of
+    every link at once (no loop over states: fast where links are few and large).
+
+    ``log w_k = min(k, m) log(f + o) + (k - min(k, m)) log f - log k!`` with ``m =
+    max(C - r, 0)``; both blockings are ratios of sums of ``w``, taken relative to the
+    largest weight of each link.
+    """
+    from scipy.special import gammaln
+
+    k = np.arange(int(caps.max()) + 1, dtype=float)[None, :]
+    m = np.maximum(caps - res, 0).astype(float)[:, None]
+    km = np.minimum(k, m)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        lb = np.log(f + o)[:, None]
+        lf = np.log(f)[:, None]
+        # 0 x log 0 is 0 here: no step taken at a zero rate
+        logw = (np.where(km > 0, km * lb, 0.0) + np.where(k > km, (k - km) * lf, 0.0)
+                - gammaln(k + 1.0))
+    logw[k > caps[:, None]] = -np.inf
+    w = np.exp(logw - logw.max(axis=1, keepdims=True))
+    total = w.sum(axis=1)
+    full = w[np.arange(len(caps)), caps]
+    tail = np.where(k >= (caps - res)[:, None], w, 0.0).sum(axis=1)
+    return full / total, np.minimum(tail / total, 1.0)
 
 
 def reservation_link_multi_many(loads, bandwidths, capacities, limits):

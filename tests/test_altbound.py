@@ -5,36 +5,22 @@ every integer plan in a box, each plan evaluated with the fixed-point model the 
 stated for (``netdim.evaluate.evaluate(method='fixed-point')``; a plan counts as feasible
 when either solution of a bistable network meets every target). The box is large enough to
 be sure of the least cost: every plan outside it costs more than the least cost found.
-The plane offsets are checked against a brute-force minimum over a fine grid with Erlang B
-computed here by its recursion (Jagerman 1974).
+The offsets of the cutting planes are checked in tests/test_losscuts.py.
 """
 
 from __future__ import annotations
 
 import itertools
-import math
 
 import numpy as np
 import pytest
 
-from netdim.dimension.altbound import (
-    _res_table,
-    alternate_bound,
-    loss_planes_offset,
-    res_planes_offset,
-)
+from netdim.dimension import dimension
+from netdim.dimension.altbound import alternate_bound
 from netdim.dimension.sizer import _flow_bound
 from netdim.dimension.space import LinkSpace
 from netdim.evaluate import evaluate
 from netdim.model import Demand, Link, Network, Route, Routing, Site
-
-
-def erlang_b(a, n):
-    """Erlang B recursion (Jagerman 1974)."""
-    e = 1.0
-    for i in range(1, n + 1):
-        e = a * e / (i + a * e)
-    return e
 
 
 def R(*links, holdings=None):
@@ -132,6 +118,64 @@ def test_sizer_plan_is_least_cost_by_exhaustive_search(name, make, budget):
     assert plan.lower_bound <= plan.cost + 1e-9
 
 
+def without(net, dropped):
+    """The network with every route over a link in ``dropped`` taken away (what the sizer
+    does to a link it leaves unbuilt); None when a demand is left without a route."""
+    from dataclasses import replace
+
+    demands = []
+    for d in net.demands:
+        routes = tuple(r for r in d.routes if not set(r.links) & set(dropped))
+        if not routes:
+            return None
+        demands.append(replace(d, routes=routes))
+    return replace(net, demands=tuple(demands))
+
+
+def least_cost_with_drops(net, budget):
+    """Least cost over every choice of unbuilt links with a fixed cost (their routes taken
+    away) and every plan of the rest costing at most ``budget``, fixed costs included."""
+    droppable = [j for j, link in enumerate(net.links) if link.fixed_cost > 0]
+    best = np.inf
+    for n in range(len(droppable) + 1):
+        for dropped in itertools.combinations(droppable, n):
+            sub = without(net, dropped)
+            if sub is None:
+                continue
+            links = [j for j in range(len(net.links)) if j not in dropped]
+            ranges = [range(int(budget // net.links[j].cost_per_module) + 1) for j in links]
+            for units in itertools.product(*ranges):
+                caps = np.zeros(len(net.links), int)
+                caps[links] = units
+                cost = sum(link.cost_per_module * c + (link.fixed_cost if c > 0 else 0.0)
+                           for link, c in zip(net.links, caps, strict=True))
+                if cost < best and cost <= budget and feasible(sub, caps):
+                    best = cost
+    assert np.isfinite(best), "no plan within the budget meets the targets"
+    return float(best)
+
+
+def test_bound_below_least_cost_when_a_link_may_be_left_unbuilt():
+    # Left unbuilt, link X takes demand d's first route away: d's second route, over Y,
+    # becomes its first choice and escapes Y's reservation. A bound that kept d's traffic on
+    # Y in the overflow stream asked for about 21 units; the least cost is 18 (checked here
+    # by exhaustive search over both choices for X).
+    links = [Link("X", ("A", "B"), cost_per_module=10.0, fixed_cost=5.0, max_capacity=30),
+             Link("Y", ("A", "B"), cost_per_module=1.0, max_capacity=40)]
+    demands = [Demand("d", ("A", "B"), 5.0, routes=(R(0), R(1))),
+               Demand("e", ("A", "B"), 5.0, routes=(R(1),))]
+    net = network(links, demands, reservation=3)
+    best = least_cost_with_drops(net, 22)
+    assert best == pytest.approx(18.0)
+    for integer in (False, True):
+        value, kind = alternate_bound(net, integer=integer)
+        assert kind.startswith("loss-flow")
+        assert value <= best + 1e-9
+    plan = dimension(net)
+    assert plan.cost == pytest.approx(best)
+    assert plan.lower_bound <= best + 1e-9
+
+
 def mesh5():
     # A 5-site full mesh as in the sizing benchmark: direct routes, 2-hop alternatives.
     rng = np.random.default_rng(3)
@@ -183,89 +227,6 @@ def test_bad_options(kw, word):
         alternate_bound(triangle(), **kw)
 
 
-def test_plane_slopes_checked():
-    with pytest.raises(ValueError, match="slopes"):
-        loss_planes_offset([0.1], [0.2], [5.0], [0], [1], [10], [0])
-    with pytest.raises(ValueError, match="slopes"):
-        res_planes_offset(1, [-0.1], [-0.2], [3.0], [1], [5.0], [0], [1], [10])
-
-
-def reservation_losses(first, over, c, r):
-    """Loss rates (first, overflow) of the birth-death chain, built here state by state."""
-    w = [1.0]
-    for k in range(c):
-        lam = first + over if k < c - r else first
-        w.append(w[-1] * lam / (k + 1))
-    tot = sum(w)
-    b1 = w[c] / tot
-    b2 = sum(w[max(c - r, 0):]) / tot
-    return first * b1, over * b2
-
-
-def test_plane_offsets_below_brute_force_minimum():
-    # alpha + beta nu + gamma c <= phi_c(nu) on a fine grid of loads and every capacity up
-    # to 60 (beyond, phi >= 0 >= the plane, see the offset rule), and close to the minimum.
-    rng = np.random.default_rng(7)
-    beta = rng.uniform(0.0, 0.6, 4)
-    gamma = -rng.uniform(0.01, 0.1, 4)
-    vmax = rng.uniform(3.0, 25.0, 4)
-    inst, mod, kmax, shift = np.array([0, 2, 0, 1]), np.array([1, 1, 2, 1]), \
-        np.array([60, 50, 30, 59]), np.array([0, 2, 1, 0])
-    alpha = loss_planes_offset(beta, gamma, vmax, inst, mod, kmax, shift)
-    first = rng.uniform(1.0, 12.0, 4)
-    alpha_res = res_planes_offset(3, beta, gamma, first, shift, vmax, inst, mod, kmax)
-    for p in range(4):
-        nus = np.linspace(0.0, vmax[p], 201)
-        best = best_res = math.inf
-        for k in range(kmax[p] + 1):
-            c = int(inst[p] + mod[p] * k)
-            s = max(c - int(shift[p]), 0)
-            for nu in nus:
-                lam = nu * erlang_b(nu, s)
-                best = min(best, lam - beta[p] * nu - gamma[p] * c)
-                l1, l2 = reservation_losses(first[p], nu, c, int(shift[p]))
-                best_res = min(best_res, l1 + l2 - beta[p] * nu - gamma[p] * c)
-        assert alpha[p] <= best + 1e-12
-        assert alpha[p] >= best - 0.02
-        assert alpha_res[p] <= best_res + 1e-12
-        assert alpha_res[p] >= best_res - 0.05
-
-
-def test_weighted_reservation_planes_below_brute_force_minimum():
-    # alpha + beta o + gamma c <= w1 F B1 + w2 o B2 (the chain built here state by state)
-    rng = np.random.default_rng(11)
-    w = (1.0, 4.0)
-    beta = rng.uniform(0.0, 2.0, 3)
-    gamma = -rng.uniform(0.05, 0.5, 3)
-    vmax = rng.uniform(5.0, 30.0, 3)
-    first = rng.uniform(2.0, 15.0, 3)
-    res, inst, mod, kmax = np.array([2, 1, 3]), np.array([0, 0, 4]), np.array([1, 1, 2]), \
-        np.array([50, 45, 25])
-    alpha = res_planes_offset(w, beta, gamma, first, res, vmax, inst, mod, kmax)
-    for p in range(3):
-        best = math.inf
-        for k in range(kmax[p] + 1):
-            c = int(inst[p] + mod[p] * k)
-            for o in np.linspace(0.0, vmax[p], 121):
-                l1, l2 = reservation_losses(first[p], o, c, int(res[p]))
-                best = min(best, w[0] * l1 + w[1] * l2 - beta[p] * o - gamma[p] * c)
-        assert alpha[p] <= best + 1e-12
-        assert alpha[p] >= best - 0.2
-
-
-def test_reservation_table_equals_the_chain():
-    # every capacity and overflow load at once, against the chain built state by state
-    first, r = 7.5, 2
-    o = np.linspace(0.0, 20.0, 9)
-    cs = np.arange(0, 31)
-    fl, ov = _res_table(first, r, o, cs)
-    for i, c in enumerate(cs):
-        for k, x in enumerate(o):
-            l1, l2 = reservation_losses(first, x, int(c), r)
-            assert fl[i, k] == pytest.approx(l1, rel=1e-12, abs=1e-300)
-            assert ov[i, k] == pytest.approx(l2, rel=1e-12, abs=1e-300)
-
-
 def test_hull_slopes_raise_the_relaxation():
     # the slopes from the grid's lower hull give a higher LP value than the load derivative
     # alone (their validity is the exhaustive-search test above)
@@ -284,24 +245,10 @@ def test_hull_slopes_raise_the_relaxation():
     assert values[1] > 1.01 * values[0]
 
 
-@pytest.mark.parametrize("s", [1, 2, 5, 12, 30])
-def test_erlang_loss_rate_convex_in_load(s):
-    # Step (6) of the proof, checked numerically: second differences of nu E(nu, s) >= 0.
-    nus = np.linspace(0.05, 3.0 * s + 5, 600)
-    lam = np.array([nu * erlang_b(nu, s) for nu in nus])
-    assert np.all(np.diff(lam, 2) >= -1e-12)
-
-
-def test_erlang_loss_rate_not_jointly_convex():
-    # Why the offsets are computed: along nu = s the loss rate is concave (the midpoint of
-    # two points lies above the chord), so tangent planes in (nu, s) are not valid cuts.
-    lam = [s * erlang_b(float(s), s) for s in (10, 20, 30)]
-    assert lam[1] > (lam[0] + lam[2]) / 2
-
-
 def test_sizer_reports_the_loss_flow_bound_under_alternate_routing():
-    # The plan's lower bound is the loss-flow bound, at most the least cost by exhaustive
-    # search (above) and at least the LP bound; the conservative model uses it too (its
+    # The plan's lower bound is the loss-flow bound (or, once every cheaper plan is listed
+    # and evaluated, the least cost), at most the least cost by exhaustive search (above)
+    # and at least the LP bound; the conservative model uses it too (its
     # blocking is above every fixed-point solution, so its plans are fixed-point plans).
     from netdim.dimension import dimension
 
@@ -310,8 +257,12 @@ def test_sizer_reports_the_loss_flow_bound_under_alternate_routing():
     lp = _flow_bound(net, LinkSpace.of(net), True)
     for model in ("fixed-point", "conservative"):
         plan = dimension(net, model=model)
-        assert plan.details["bound"].startswith("loss-flow")
+        kind = plan.details["bound"]
+        assert kind.startswith(("loss-flow", "least cost"))
         assert lp * (1 - 1e-5) <= plan.lower_bound <= best + 1e-9
+        if kind.startswith("least cost"):
+            # the cheaper plans were listed and evaluated: the bound is the least cost
+            assert plan.lower_bound == pytest.approx(best)
         assert plan.cost >= best - 1e-9
         assert plan.gap == pytest.approx((plan.cost - plan.lower_bound) / plan.cost)
 

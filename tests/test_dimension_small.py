@@ -160,6 +160,8 @@ def test_alternate_routing_plan_meets_targets_and_is_least_cost_under_exact():
     plan = dimension(net, model="exact")
     assert plan.evaluation.all_met
     assert plan.cost == pytest.approx(best)
+    # every cheaper plan listed and evaluated: the bound is the least cost itself
+    assert plan.lower_bound == pytest.approx(best)
     fp = dimension(net)
     assert fp.evaluation.all_met
     assert evaluate(net, fp.capacities, method="fixed-point").all_met

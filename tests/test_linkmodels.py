@@ -174,6 +174,29 @@ def test_reservation_link_many_equals_single():
     assert bo[0] == 1.0 and bf[0] == pytest.approx(erlang_b(30.0, 45), rel=1e-12)
 
 
+@pytest.mark.parametrize("n_links", [3, 300])
+def test_reservation_link_many_both_paths_equal_the_chain(n_links, monkeypatch):
+    # source: reservation_link (the birth-death chain, checked against the direct solution
+    # above) on a sample of links; few links take the log-space path, many the loop over
+    # states, and each path is also forced on the other's input
+    import netdim.linkmodels as lm
+
+    rng = np.random.default_rng(n_links)
+    caps = rng.integers(0, 120, n_links)
+    first = rng.uniform(0.0, 100.0, n_links) * (rng.random(n_links) > 0.1)
+    over = rng.uniform(0.0, 30.0, n_links) * (rng.random(n_links) > 0.1)
+    res = rng.integers(0, 8, n_links)
+    got = [reservation_link_many(first, over, caps, res)]
+    monkeypatch.setattr(lm, "_LOG_LINKS", 0 if n_links < lm._LOG_LINKS else 10**6)
+    got.append(reservation_link_many(first, over, caps, res))
+    for i in rng.choice(n_links, min(n_links, 12), replace=False):
+        want = reservation_link([first[i], over[i]], int(caps[i]), [0, int(res[i])])
+        for bf, bo in got:
+            assert bf[i] == pytest.approx(want[0], rel=1e-11, abs=1e-300)
+            assert bo[i] == pytest.approx(want[1], rel=1e-11, abs=1e-300)
+    np.testing.assert_allclose(got[0], got[1], rtol=1e-11, atol=1e-300)
+
+
 def test_reservation_link_multi_many_equals_single():
     # source: reservation_link, per link (checked against the direct chain above), and with
     # one-unit streams the exact chain of reservation_link_many

@@ -40,8 +40,9 @@ def register(subparsers):
                    help="most calibration rounds after the first check (default 8; 0 checks "
                    "the plan without changing it)")
     p.add_argument("--bound-time", type=float, default=20.0, metavar="S",
-                   help="seconds for the lower bound under alternate routing (default 20; "
-                   "longer is tighter)")
+                   help="seconds for each part of the lower bound: cutting planes under "
+                   "alternate routing, then evaluating the cheaper plans of a small network "
+                   "one by one (default 20; longer is tighter)")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     p.set_defaults(func=run)
     return p

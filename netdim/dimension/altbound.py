@@ -5,7 +5,8 @@ route's carried and lost traffic, every link's offered, carried and lost traffic
 (first choice, overflow), with the link's loss rate kept above functions of its load and
 capacity that any solution of the equations satisfies (Erlang loss rate, reservation chain,
 Messerli secants), by cutting planes whose offsets are computed so that they hold at every
-allowed integer capacity. The proof is in the notes of :func:`alternate_bound`.
+allowed integer capacity (:mod:`netdim.dimension.losscuts`). The proof is in the notes of
+:func:`alternate_bound`.
 """
 
 from __future__ import annotations
@@ -14,12 +15,19 @@ import time
 
 import numpy as np
 
-__all__ = ["alternate_bound", "loss_planes_offset", "res_planes_offset"]
+from netdim.dimension.losscuts import (
+    SAFETY,
+    erlang_table,
+    loss_planes_offset,
+    loss_rate,
+    res_planes_offset,
+    reservation_losses,
+    reservation_table,
+    stream_weights,
+)
 
-#: Cells of the offered-load grid on which a cut's offset is checked.
-_GRID = 192
-#: Relative and absolute slack taken off every computed offset (rounding of the recursion).
-_SAFETY = 1e-9
+__all__ = ["alternate_bound"]
+
 #: Largest network (links) on which the reservation-chain cuts are on by default.
 RESERVATION_CUT_LINKS = 500
 #: Relative amount taken off every solver value (its feasibility / optimality tolerances).
@@ -43,248 +51,6 @@ def _milp_time(left, time_limit):
     return max(min(left, 0.25 * time_limit), 1.0)
 
 
-# -- the loss function and cuts of its epigraph -----------------------------------------------
-def _erlang_table(nu, smax):
-    """E(nu, s) for s = 0..smax (rows) and every load in ``nu`` (last axis): the recursion."""
-    nu = np.asarray(nu, dtype=float)
-    out = np.empty((smax + 1,) + nu.shape)
-    e = np.ones_like(nu)
-    out[0] = e
-    for s in range(1, smax + 1):
-        ae = nu * e
-        e = ae / (s + ae)
-        out[s] = e
-    return out
-
-
-def _plane_offsets(cell_min, beta, gamma, vmax, inst, mod, kmax, max_steps=50_000):
-    """Largest offsets ``alpha`` with ``alpha + beta nu + gamma c <= phi_c(nu)`` for every
-    load ``nu`` in ``[0, vmax]`` and every allowed capacity ``c = inst + mod k``,
-    ``0 <= k <= kmax``, for loss functions ``phi_c >= 0``.
-
-    ``cell_min(open)`` yields, for c = 0, 1, 2, ..., the rows still open (``open`` is the
-    driver's mask, updated in place) and, for them, a lower bound of
-    ``min_nu phi_c(nu) - beta nu`` over ``[0, vmax]``. The capacities are
-    taken in increasing order; a plane is done at the first capacity c with
-    ``-beta vmax - gamma c >= alpha`` so far, since then every larger allowed capacity c'
-    gives ``phi_{c'} - beta nu - gamma c' >= -beta vmax - gamma c >= alpha`` (phi >= 0,
-    nu <= vmax, beta >= 0, gamma <= 0).
-    """
-    p = len(beta)
-    alpha = np.full(p, np.inf)
-    open_ = np.ones(p, bool)
-    floor = -beta * vmax
-    kmax_c = inst + mod * kmax.astype(float)
-    c = 0
-    for c, (rows, low_rows) in enumerate(cell_min(open_)):
-        low = np.full(p, np.inf)
-        low[rows] = low_rows
-        allowed = (c >= inst) & ((c - inst) % mod == 0) & (c <= kmax_c)
-        take = open_ & allowed
-        alpha = np.where(take, np.minimum(alpha, low - gamma * c), alpha)
-        # past the last allowed capacity, or the rest can only give more
-        done = (c >= kmax_c) | (floor - gamma * c >= alpha)
-        open_ &= ~done
-        if not open_.any() or c >= max_steps:
-            break
-    # planes still open at the step limit: every larger capacity gives at least this
-    alpha = np.where(open_, np.minimum(alpha, floor - gamma * (c + 1)), alpha)
-    return alpha - _SAFETY * (1.0 + np.abs(alpha))
-
-
-def _check_slopes(beta, gamma):
-    if np.any(beta < 0) or np.any(gamma > 0):
-        raise ValueError("plane slopes: need beta >= 0 (load) and gamma <= 0 (capacity)")
-
-
-def loss_planes_offset(beta, gamma, vmax, inst, mod, kmax, shift, grid=_GRID):
-    """Largest offsets ``alpha`` with ``alpha + beta nu + gamma c <= Lambda(nu, s(c))``.
-
-    ``Lambda(nu, s) = nu E(nu, s)`` is the loss rate of an Erlang loss system of s servers
-    offered nu erlangs and ``s(c) = max(c - shift, 0)``. The inequality holds for every
-    ``nu`` in ``[0, vmax]`` and every allowed capacity ``c = inst + mod k``,
-    ``0 <= k <= kmax``, one plane per entry of the arrays.
-
-    Parameters
-    ----------
-    beta, gamma : array_like
-        Slopes in the load (>= 0) and in the capacity (<= 0).
-    vmax : array_like
-        Largest load the link can be offered.
-    inst, mod, kmax : array_like of int
-        Installed capacity, module and most added modules of the link.
-    shift : array_like of int
-        Units taken off the capacity (the reservation, for the overflow stream), else 0.
-    grid : int
-        Cells of the load grid.
-
-    Returns
-    -------
-    ndarray
-
-    Raises
-    ------
-    ValueError
-        A slope of the wrong sign.
-
-    Notes
-    -----
-    For each integer s, ``Lambda(., s)`` is convex (shown in :func:`alternate_bound`), so on
-    a grid cell ``[a, b]`` the function ``f = Lambda - beta nu`` is at least the larger of
-    its tangents at a and b, whose least value over the cell bounds f there from below.
-    Erlang B by its recursion (Jagerman 1974), its load derivative
-    ``dE/dnu = E (s/nu - 1 + E)``; a relative slack of 1e-9 covers rounding.
-    """
-    beta, gamma, vmax = (np.asarray(v, float) for v in (beta, gamma, vmax))
-    _check_slopes(beta, gamma)
-    shift = np.asarray(shift, np.int64)
-    nu = vmax[:, None] * np.linspace(0.0, 1.0, grid + 1)[None, :]
-    a, b = nu[:, :-1], nu[:, 1:]
-    bcol = beta[:, None]
-
-    def cells(open_):
-        rows = np.arange(len(beta))
-        e = np.ones_like(nu)
-        nu_, a_, b_, bc, sh = nu, a, b, bcol, shift
-        s_prev = np.zeros(len(beta), np.int64)
-        c = 0
-        while True:
-            keep = open_[rows]
-            if not keep.all():
-                rows, e, nu_, a_, b_, bc, sh, s_prev = (v[keep] for v in (
-                    rows, e, nu_, a_, b_, bc, sh, s_prev))
-            s = np.maximum(c - sh, 0)
-            up = s > s_prev
-            if up.any():
-                ae = nu_[up] * e[up]
-                e[up] = ae / (s[up, None] + ae)
-                s_prev = s
-            f = nu_ * e - bc * nu_
-            d = e * (1.0 + s[:, None] - nu_ * (1.0 - e)) - bc
-            fa, fb, da, db = f[:, :-1], f[:, 1:], d[:, :-1], d[:, 1:]
-            # where da < 0 < db the tangents cross inside the cell; at any x of the cell
-            # the lower of the two tangents is at most their value at the crossing, so a
-            # rounded x still gives a valid bound
-            with np.errstate(divide="ignore", invalid="ignore"):
-                x = np.clip((fb - fa + da * a_ - db * b_) / (da - db), a_, b_)
-                mid = np.minimum(fa + da * (x - a_), fb + db * (x - b_))
-            low = np.where(da >= 0, fa, np.where(db <= 0, fb, mid))
-            low = np.where(np.isfinite(low), low, -bc * b_)  # Lambda >= 0
-            low = np.minimum(low, np.minimum(fa, fb)).min(axis=1)
-            yield rows, low - _SAFETY * (1.0 + np.abs(f).max(axis=1))
-            c += 1
-
-    return _plane_offsets(cells, beta, gamma, vmax, np.asarray(inst, np.int64),
-                          np.asarray(mod, np.int64), np.asarray(kmax, np.int64))
-
-
-def res_planes_offset(kind, beta, gamma, first, res, vmax, inst, mod, kmax, grid=4 * _GRID):
-    """Offsets of planes below the reservation chain's loss rates (see :func:`alternate_bound`).
-
-    ``kind`` 1: first-choice loss ``F B1(F, o, c)``; 2: overflow loss ``o B2(F, o, c)``;
-    3: their sum; a pair ``(w1, w2)`` of weights >= 0: ``w1 F B1 + w2 o B2``; as
-    functions of the overflow load o in ``[0, vmax]`` at the constant first-choice load F,
-    for the chain of :func:`netdim.linkmodels.reservation_link_many`
-    (capacity c, reservation r). Each is nondecreasing in o (B1 and B2 are), so on a grid
-    cell ``[a, b]`` the function minus ``beta o`` is at least its value at a minus
-    ``beta b``. Other arguments as :func:`loss_planes_offset`.
-
-    Raises
-    ------
-    ValueError
-        A slope of the wrong sign.
-    """
-    beta, gamma, vmax, first = (np.asarray(v, float) for v in (beta, gamma, vmax, first))
-    _check_slopes(beta, gamma)
-    res = np.asarray(res, np.int64)
-    o = vmax[:, None] * np.linspace(0.0, 1.0, grid + 1)[None, :]
-    s = first[:, None] + o
-    fcol = first[:, None]
-    bcol = beta[:, None]
-
-    def cells(open_):
-        rows = np.arange(len(beta))
-        e = np.ones_like(o)  # E(F + o, m), m = max(c - r, 0)
-        o_, s_, fc, bc, r_, bv = o, s, fcol, bcol, res, beta * vmax
-        m_prev = np.zeros(len(beta), np.int64)
-        c = 0
-        while True:
-            keep = open_[rows]
-            if not keep.all():
-                rows, e, o_, s_, fc, bc, r_, bv, m_prev = (v[keep] for v in (
-                    rows, e, o_, s_, fc, bc, r_, bv, m_prev))
-            m = np.maximum(c - r_, 0)
-            up = m > m_prev
-            if up.any():
-                se = s_[up] * e[up]
-                e[up] = se / (m[up, None] + se)
-                m_prev = m
-            top = c - m  # states above m, entered by first-choice calls only
-            tau = np.ones_like(o_)
-            tsum = np.zeros_like(o_)
-            for i in range(1, int(top.max()) + 1):
-                on = (i <= top)[:, None]
-                tau = np.where(on, tau * fc / (m[:, None] + i), tau)
-                tsum = tsum + np.where(on, tau, 0.0)
-            pos = e > 1e-300
-            den = np.where(pos, 1.0 / np.where(pos, e, 1.0) + tsum, np.inf)
-            b1 = np.where(pos, tau / den, 0.0)  # tau = 1 when top = 0: B1 = E(F + o, c)
-            b2 = np.where(pos, (1.0 + tsum) / den, 0.0)
-            w1, w2 = _weights(kind)
-            f = w1 * fc * b1 + w2 * o_ * b2
-            low = (f[:, :-1] - bc * o_[:, 1:]).min(axis=1)
-            yield rows, low - _SAFETY * (1.0 + np.abs(f).max(axis=1) + bv)
-            c += 1
-
-    return _plane_offsets(cells, beta, gamma, vmax, np.asarray(inst, np.int64),
-                          np.asarray(mod, np.int64), np.asarray(kmax, np.int64))
-
-
-def _loss(nu, s):
-    """Lambda(nu, s) = nu E(nu, s) and its derivative in nu, elementwise (integer s >= 0)."""
-    from netdim.erlang import erlang_b
-
-    nu = np.asarray(nu, float)
-    s = np.asarray(s, float)
-    e = np.asarray(erlang_b(np.maximum(nu, 0.0), np.maximum(s, 0.0)), float)
-    return nu * e, e * (1.0 + s - nu * (1.0 - e))
-
-
-def _res_point(first, res, o, c):
-    """(F B1, o B2) of the reservation chain, elementwise (integer capacities c)."""
-    from netdim.linkmodels import reservation_link_many
-
-    b1, b2 = reservation_link_many(first, o, np.asarray(c).astype(np.int64), res)
-    return first * b1, o * b2
-
-
-def _weights(kind):
-    """Weights (first-choice, overflow) of the loss a reservation-chain cut bounds."""
-    if isinstance(kind, tuple):
-        return kind
-    return {1: (1.0, 0.0), 2: (0.0, 1.0), 3: (1.0, 1.0)}[kind]
-
-
-def _res_table(first, res, o, cs):
-    """(F B1, o B2) of the reservation chain at first-choice load F for every capacity in
-    ``cs`` (rows) and overflow load in ``o`` (columns), by one Erlang recursion."""
-    cs = np.asarray(cs, np.int64)
-    o = np.asarray(o, float)
-    e = _erlang_table(first + o, int(max(cs.max() - res, 0)))
-    fl, ov = np.empty((len(cs), len(o))), np.empty((len(cs), len(o)))
-    with np.errstate(divide="ignore", over="ignore", under="ignore", invalid="ignore"):
-        for i, c in enumerate(cs):
-            m = max(int(c) - res, 0)
-            tau, tsum = 1.0, 0.0
-            for k in range(1, int(c) - m + 1):  # states above m: first-choice calls only
-                tau = tau * first / (m + k)
-                tsum += tau
-            den = 1.0 / e[m] + tsum
-            fl[i] = np.where(np.isfinite(den), first * tau / den, 0.0)
-            ov[i] = np.where(np.isfinite(den), o * (1.0 + tsum) / den, 0.0)
-    return fl, ov
-
-
 # -- the relaxation ---------------------------------------------------------------------------
 class _Data:
     """Routes, loads and link facts the relaxation needs (demands with traffic only)."""
@@ -293,21 +59,32 @@ class _Data:
         nl = space.n_links
         self.nl = nl
         self.res = np.asarray(network.reservations(), np.int64)
-        self.demands = []  # (A, t, [(rank, links, factors)])
+        self.demands = []  # (A, t, [(rank, links, factors, family)])
         vt = np.zeros(nl)
         vf = np.zeros(nl)
         vo = np.zeros(nl)
         first_const = np.ones(nl, bool)  # first-choice load fixed (one-link first routes only)
         fconst = np.zeros(nl)
+        # Links the sizer may leave unbuilt, taking the routes over them away (see
+        # alternate_bound, Notes): a route all of whose earlier routes cross such a link may
+        # become the first choice, so its stream is not known.
+        droppable = (np.asarray(space.fixed_cost) > 0) & (np.asarray(space.installed) == 0)
+        self.n_open = 0
         for d in network.demands:
             if not d.traffic > 0:
                 continue
             routes = []
+            may_lead = True  # every earlier route crosses a droppable link
             for rank, r in enumerate(d.routes):
                 f = [h / d.holding for h in r.holdings]
-                routes.append((rank, tuple(r.links), tuple(f)))
+                fam = "F" if rank == 0 else ("T" if may_lead else "O")
+                self.n_open += fam == "T"
+                may_lead = may_lead and bool(droppable[list(r.links)].any())
+                routes.append((rank, tuple(r.links), tuple(f), fam))
                 for j, fj in zip(r.links, f, strict=True):
                     vt[j] += d.traffic * fj
+                    if fam == "T":
+                        continue
                     if rank == 0:
                         vf[j] += d.traffic * fj
                         if r.hops == 1:
@@ -343,16 +120,17 @@ class _Relaxation:
         n_z = n_l = 0
         for i, (a, t, routes) in enumerate(data.demands):
             zs = []
-            for rank, links, fac in routes:
+            for rank, links, fac, fam in routes:
                 z = prob.add_variable(f"z{i}_{rank}", lowBound=0)
                 n_z += 1
                 zs.append(z)
-                fam = "F" if rank == 0 else "O"
+                # a route of unknown stream ("T") counts in the link totals only
+                fams = ("T",) if fam == "T" else (fam, "T")
                 if len(links) == 1:
                     j, f = links[0], fac[0]
                     # one-link route: its link loses exactly what the route loses
                     loss = pulp.LpAffineExpression([(zz, -f) for zz in zs], constant=a * f)
-                    for x in (fam, "T"):
+                    for x in fams:
                         self.ls[x][j].append(loss)
                         self.nu[x][j].append(loss)
                         self.nu[x][j].append(pulp.LpAffineExpression([(z, f)]))
@@ -363,7 +141,7 @@ class _Relaxation:
                     lv = prob.add_variable(f"l{i}_{rank}_{step}", lowBound=0)
                     n_l += 1
                     terms.append((lv, 1.0 / f))
-                    for x in (fam, "T"):
+                    for x in fams:
                         self.ls[x][j].append(pulp.LpAffineExpression([(lv, 1.0)]))
                         self.nu[x][j].append(pulp.LpAffineExpression([(lv, 1.0), (z, f)]))
                     carried[j].append((z, f))
@@ -435,7 +213,7 @@ class _Relaxation:
             return False
         slope = g[i + 1] - g[i]
         self.prob += (self.ls["F"][j] - slope * self.k[j]
-                      >= float(g[i] - slope * ks[i]) - _SAFETY * float(g[0] + 1.0))
+                      >= float(g[i] - slope * ks[i]) - SAFETY * float(g[0] + 1.0))
         on[i] = True
         self.n_secants += 1
         return True
@@ -552,11 +330,11 @@ class _Relaxation:
         nus = np.linspace(0.0, vm, _ENV_GRID + 1)
         C, N = np.meshgrid(cs, nus, indexing="ij")
         if res_kind:
-            a, b = _res_table(f, int(d.res[j]), nus, cs)
-            w1, w2 = _weights(x)
+            a, b = reservation_table(f, int(d.res[j]), nus, cs)
+            w1, w2 = stream_weights(x)
             phi = w1 * a + w2 * b
         else:
-            e = _erlang_table(nus, int(max(cs.max() - int(shift[j]), 0)))
+            e = erlang_table(nus, int(max(cs.max() - int(shift[j]), 0)))
             phi = nus[None, :] * e[np.maximum(cs - int(shift[j]), 0)]
         return C.ravel().astype(float), N.ravel(), np.asarray(phi, float).ravel()
 
@@ -621,8 +399,8 @@ class _Relaxation:
             first, r = d.fconst[idx], d.res[idx]
 
             def g(o, c):
-                a, b = _res_point(first, r, np.maximum(o, 0.0), c)
-                w1, w2 = _weights(x)
+                a, b = reservation_losses(first, r, np.maximum(o, 0.0), c)
+                w1, w2 = stream_weights(x)
                 return w1 * a + w2 * b
 
             h = np.maximum(1e-4 * vmax, 1e-6)
@@ -631,8 +409,8 @@ class _Relaxation:
             d1 = (g(v + h, c1) - g(np.maximum(v - h, 0.0), c1)) / (v + h - np.maximum(v - h, 0.0))
         else:
             sh = shift[idx]
-            l0, d0 = _loss(v, np.maximum(c0 - sh, 0))
-            l1, d1 = _loss(v, np.maximum(c1 - sh, 0))
+            l0, d0 = loss_rate(v, np.maximum(c0 - sh, 0))
+            l1, d1 = loss_rate(v, np.maximum(c1 - sh, 0))
         val = (1 - th) * l0 + th * l1
         lv = ls[idx]
         viol = np.flatnonzero(lv < val - _TOL * (1.0 + val))
@@ -809,6 +587,22 @@ def alternate_bound(network, space=None, solver="highs", mip_gap=1e-4, time_limi
     constraints (k continuous in [0, kmax]) has optimum at most the plan's cost; the LP
     value, less 1e-6 of it for the solver's tolerances, is returned. With
     ``integer=True`` the MILP's proven dual bound may replace it when larger.
+
+    *Links left unbuilt.* The sizer may leave a link with a fixed cost and nothing
+    installed unbuilt, and then takes away every route over it, so that a demand's first
+    remaining route becomes its first choice (:func:`netdim.dimension.dimension`, Notes).
+    Such a plan is the network's plan with capacity 0 on the unbuilt links, except that a
+    route whose earlier routes all crossed them joins the first-choice stream, where no
+    reservation holds it back. Every route of rank >= 1 whose earlier routes each cross a
+    link that may be left unbuilt is therefore of unknown stream: its traffic counts in the
+    link totals of (3), (4) and (5a), which do not depend on the stream, and in neither
+    stream's sums. The cuts of (5b)-(5d) stay valid for the remaining sums: the unknown
+    routes only add to the chain's birth rates, which raises ``P(k = c)`` and
+    ``P(k >= c - r)`` (5), so the loss of the known routes of each stream is still at least
+    its bound at their loads (with ``F_j`` the known one-link first-choice traffic in
+    (5d)). A route over an unbuilt link carries nothing, as at capacity 0. Before this
+    rule the bound could exceed the least cost: 20.9 against 18 on the two-link network of
+    ``tests/test_altbound.py``.
 
     *Checked numerically only* (not part of the proof): the grid bounds against a fine
     brute-force search, and the value against exhaustive search over every plan of tiny

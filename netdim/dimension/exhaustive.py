@@ -1,0 +1,251 @@
+"""Least cost on small networks by listing every cheaper plan, cheapest first.
+
+Between a valid lower bound ``lo`` on the least cost and the cost ``hi`` of a plan in hand,
+a small network has few enough plans to list them all. Evaluated one by one in increasing
+cost under the model the plan must satisfy, the first that meets every target is a
+least-cost plan; when none does, the plan in hand is one. Stopped early (time, an
+evaluation that fails), every plan cheaper than the next one on the list has failed, so the
+cost of that next plan is a lower bound. Nothing here is an approximation: the figures are
+those of the evaluation itself.
+
+The plans are those the sizer can return (:func:`netdim.dimension.dimension`): added
+modules ``0..kmax`` per link, links no usable route needs left at 0, and for the links with
+a fixed cost and nothing installed, the choice of leaving them unbuilt with every route over
+them taken away (each subset of them: a network of its own).
+"""
+
+from __future__ import annotations
+
+import itertools
+import time
+from dataclasses import dataclass, replace
+
+import numpy as np
+
+__all__ = ["Enumeration", "least_cost_by_enumeration", "plans_by_cost", "without_links"]
+
+#: Most plans listed (over every choice of unbuilt links).
+MAX_PLANS = 20_000
+#: Most links, and most links that may be left unbuilt, for which plans are listed.
+MAX_LINKS = 40
+MAX_DROPPABLE = 6
+#: Plans within this relative amount of ``hi`` count as costing ``hi`` (not cheaper).
+_REL = 1e-9
+
+
+@dataclass(frozen=True)
+class Enumeration:
+    """What listing the cheaper plans found.
+
+    Attributes
+    ----------
+    status : str
+        ``'improved'`` (a cheaper plan meets every target: ``modules``, ``dropped``),
+        ``'optimal'`` (every cheaper plan fails: the plan in hand is a least-cost plan),
+        ``'partial'`` (stopped early: ``bound`` holds), ``'too-many'`` (more plans than
+        allowed; nothing evaluated) or ``'not-applicable'`` (the reason in ``message``).
+    bound : float
+        Every plan costing less fails (the least cost itself for 'improved' and 'optimal').
+    modules : ndarray of int or None
+        The cheapest plan found meeting every target ('improved' only).
+    dropped : tuple of int
+        Links that plan leaves unbuilt, their routes taken away.
+    cost : float
+        Its cost ('improved'), else ``hi``.
+    plans, evaluated : int
+        Plans listed, and evaluated.
+    message : str
+    """
+
+    status: str
+    bound: float
+    modules: np.ndarray | None = None
+    dropped: tuple = ()
+    cost: float = float("nan")
+    plans: int = 0
+    evaluated: int = 0
+    message: str = ""
+
+
+def without_links(network, links):
+    """The network with every route over a link in ``links`` taken away (what the sizer does
+    to links it leaves unbuilt); None when a demand is left with no route."""
+    gone = set(links)
+    if not gone:
+        return network
+    demands = []
+    for d in network.demands:
+        routes = tuple(r for r in d.routes if not gone & set(r.links))
+        if not routes:
+            return None
+        demands.append(replace(d, routes=routes))
+    return replace(network, demands=tuple(demands))
+
+
+def plans_by_cost(space, lo, hi, free, limit=MAX_PLANS, max_nodes=None):
+    """Every plan with ``lo <= cost < hi`` that adds modules only on the links in ``free``.
+
+    Parameters
+    ----------
+    space : LinkSpace
+    lo, hi : float
+        The cost window (fixed costs included, as :meth:`LinkSpace.cost`).
+    free : array_like of bool
+        Links that may take modules; the others stay at 0 added modules.
+    limit : int
+        Most plans; more gives None.
+    max_nodes : int or None
+        Most steps of the search (default ``50 * limit``); more gives None.
+
+    Returns
+    -------
+    list of (cost, ndarray of int) or None
+        Cheapest first; None when there are more than ``limit`` (or the search takes more
+        than ``max_nodes`` steps).
+    """
+    free = np.asarray(free, bool)
+    idx = [int(j) for j in np.flatnonzero(free)]
+    # dearest links first: fewer choices near the root of the search
+    idx.sort(key=lambda j: -float(space.cost_per_module[j]))
+    if any(space.cost_per_module[j] <= 0 for j in idx):
+        return None  # a free link of no cost has no end of plans
+    fixed = [float(space.fixed_cost[j]) if space.installed[j] == 0 else 0.0 for j in idx]
+    price = [float(space.cost_per_module[j]) for j in idx]
+    kmax = [int(space.kmax[j]) for j in idx]
+    # the most the links from position i on can add: to give up on a branch below lo
+    most = [0.0] * (len(idx) + 1)
+    for i in range(len(idx) - 1, -1, -1):
+        most[i] = most[i + 1] + price[i] * kmax[i] + fixed[i]
+    max_nodes = 50 * limit if max_nodes is None else max_nodes
+    out: list = []
+    k = [0] * len(idx)
+    nodes = 0
+    top = hi * (1 - _REL) if hi > 0 else hi
+
+    def walk(i, acc):
+        nonlocal nodes
+        nodes += 1
+        if nodes > max_nodes or len(out) > limit:
+            return
+        if i == len(idx):
+            if acc >= lo - _REL * abs(lo):
+                out.append((acc, tuple(k)))
+            return
+        if acc + most[i] < lo - _REL * abs(lo):
+            return
+        for n in range(kmax[i] + 1):
+            c = acc + price[i] * n + (fixed[i] if n > 0 else 0.0)
+            if c >= top:
+                break
+            k[i] = n
+            walk(i + 1, c)
+        k[i] = 0
+
+    walk(0, 0.0)
+    if nodes > max_nodes or len(out) > limit:
+        return None
+    plans = []
+    for _acc, ks in out:
+        full = np.zeros(space.n_links, np.int64)
+        full[idx] = ks
+        plans.append((float(space.cost(full)), full))
+    plans.sort(key=lambda p: p[0])
+    return plans
+
+
+def _usable(network):
+    alt = network.routing.policy == "alternate"
+    used = np.zeros(len(network.links), bool)
+    for d in network.demands:
+        for r in (d.routes if alt else d.routes[:1]):
+            used[list(r.links)] = True
+    return used
+
+
+def least_cost_by_enumeration(network, space, method, lo, hi, limit=MAX_PLANS,
+                              deadline=None):
+    """Evaluate every plan costing between ``lo`` and ``hi``, cheapest first.
+
+    Parameters
+    ----------
+    network : Network
+        As read (before the sizer takes any link away).
+    space : LinkSpace
+    method : {'fixed-point', 'conservative', 'exact'}
+        The evaluation a plan must meet every target under (the sizer's model). Under the
+        fixed point the solution from idle links decides, as in the sizer.
+    lo : float
+        A valid lower bound on the least cost (plans cheaper than it are not listed).
+    hi : float
+        The cost of a plan in hand that meets every target.
+    limit : int
+        Most plans to list; with more, nothing is evaluated (status 'too-many').
+    deadline : float or None
+        ``time.perf_counter()`` value after which no further plan is evaluated.
+
+    Returns
+    -------
+    Enumeration
+
+    Notes
+    -----
+    Exhaustive search with the same evaluation as the plan's own check, so the statement
+    "every plan listed before the first feasible one fails" is exact, not estimated. The
+    plans costing less than ``lo`` fail by the bound that gave ``lo``; those at ``hi`` or
+    above are no improvement. Links with a fixed cost and nothing installed may be left
+    unbuilt in two ways, as in the sizer: at capacity 0 with their routes kept (calls pass
+    over them to the next route), or with their routes taken away (a demand's next route
+    becomes its first choice); both are listed.
+    """
+    from netdim.errors import NetdimError
+    from netdim.evaluate import evaluate
+
+    if not hi > lo:
+        return Enumeration("optimal", float(hi), cost=float(hi),
+                           message="the bound already equals the cost")
+    if space.n_links > MAX_LINKS:
+        return Enumeration("not-applicable", float(lo), cost=float(hi),
+                           message=f"more than {MAX_LINKS} links")
+    droppable = [j for j in range(space.n_links)
+                 if space.fixed_cost[j] > 0 and space.installed[j] == 0]
+    if len(droppable) > MAX_DROPPABLE:
+        return Enumeration("not-applicable", float(lo), cost=float(hi),
+                           message=f"more than {MAX_DROPPABLE} links may be left unbuilt")
+    listed = []  # (cost, order, dropped, k)
+    variants = {}
+    for n in range(len(droppable) + 1):
+        for gone in itertools.combinations(droppable, n):
+            net = without_links(network, gone)
+            if net is None:
+                continue  # a demand without a route cannot meet its target
+            free = _usable(net) & (space.kmax > 0)
+            free[list(gone)] = False
+            plans = plans_by_cost(space, lo, hi, free, limit=limit - len(listed))
+            if plans is None:
+                return Enumeration("too-many", float(lo), cost=float(hi),
+                                   message=f"more than {limit} plans between {lo:g} and "
+                                   f"{hi:g}")
+            variants[gone] = net
+            listed.extend((c, len(listed) + i, gone, k) for i, (c, k) in enumerate(plans))
+    listed.sort(key=lambda p: (p[0], p[1]))
+    opts = {"start": "idle"} if method == "fixed-point" else {}
+    for done, (cost, _, gone, k) in enumerate(listed):
+        if deadline is not None and time.perf_counter() > deadline:
+            return Enumeration("partial", float(max(lo, cost)), cost=float(hi),
+                               plans=len(listed), evaluated=done,
+                               message=f"time ran out after {done} of {len(listed)} plans")
+        try:
+            ev = evaluate(variants[gone], space.capacity(k), method=method, **opts)
+        except NetdimError as exc:
+            return Enumeration("partial", float(max(lo, cost)), cost=float(hi),
+                               plans=len(listed), evaluated=done,
+                               message=f"plan {done + 1} of {len(listed)} could not be "
+                               f"evaluated ({exc})")
+        if ev.all_met:
+            return Enumeration("improved", float(cost), modules=np.asarray(k), dropped=gone,
+                               cost=float(cost), plans=len(listed), evaluated=done + 1,
+                               message=f"a plan costing {cost:g} meets every target")
+    what = (f"each of the {len(listed)} plans costing from {lo:g} to less than {hi:g} misses "
+            "a target" if listed else f"no plan costs from {lo:g} to less than {hi:g}")
+    return Enumeration("optimal", float(hi), cost=float(hi), plans=len(listed),
+                       evaluated=len(listed), message=what)

@@ -1,0 +1,272 @@
+"""Cutting planes below the loss rates of a link, valid at every allowed integer capacity.
+
+A cut ``loss >= alpha + beta nu + gamma c`` (slope ``beta >= 0`` in the offered load nu,
+``gamma <= 0`` in the capacity c) is valid for a loss function ``phi_c(nu) >= 0`` when it lies
+below ``phi_c`` for every load in ``[0, V]`` and every capacity the plan may take
+(installed + module x k, ``0 <= k <= kmax``). The slopes may be anything; the offset alpha is
+computed here so that the inequality holds, by bounding ``phi_c(nu) - beta nu`` from below on a
+grid of load cells at each capacity in turn. Two loss functions are covered: the Erlang loss
+rate ``Lambda(nu, s) = nu E(nu, s)`` (convex in nu: tangents at the ends of a cell bound it)
+and the reservation chain's loss rates at a constant first-choice load (nondecreasing in the
+overflow load: the left end of a cell bounds it). :func:`netdim.dimension.altbound.
+alternate_bound` uses them; its notes give the proofs of convexity and monotonicity.
+
+References
+----------
+D. L. Jagerman, "Some properties of the Erlang loss function", Bell System Technical Journal
+53 (1974) 525-551.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = ["loss_planes_offset", "res_planes_offset", "loss_rate", "reservation_losses",
+           "reservation_table", "erlang_table", "stream_weights", "SAFETY"]
+
+#: Cells of the offered-load grid on which a cut's offset is checked.
+_GRID = 192
+#: Relative and absolute slack taken off every computed offset (rounding of the recursion).
+SAFETY = 1e-9
+
+
+def erlang_table(nu, smax):
+    """E(nu, s) for s = 0..smax (rows) and every load in ``nu`` (last axis): the recursion."""
+    nu = np.asarray(nu, dtype=float)
+    out = np.empty((smax + 1,) + nu.shape)
+    e = np.ones_like(nu)
+    out[0] = e
+    for s in range(1, smax + 1):
+        ae = nu * e
+        e = ae / (s + ae)
+        out[s] = e
+    return out
+
+
+def _plane_offsets(cell_min, beta, gamma, vmax, inst, mod, kmax, max_steps=50_000):
+    """Largest offsets ``alpha`` with ``alpha + beta nu + gamma c <= phi_c(nu)`` for every
+    load ``nu`` in ``[0, vmax]`` and every allowed capacity ``c = inst + mod k``,
+    ``0 <= k <= kmax``, for loss functions ``phi_c >= 0``.
+
+    ``cell_min(open)`` yields, for c = 0, 1, 2, ..., the rows still open (``open`` is the
+    driver's mask, updated in place) and, for them, a lower bound of
+    ``min_nu phi_c(nu) - beta nu`` over ``[0, vmax]``. The capacities are
+    taken in increasing order; a plane is done at the first capacity c with
+    ``-beta vmax - gamma c >= alpha`` so far, since then every larger allowed capacity c'
+    gives ``phi_{c'} - beta nu - gamma c' >= -beta vmax - gamma c >= alpha`` (phi >= 0,
+    nu <= vmax, beta >= 0, gamma <= 0).
+    """
+    p = len(beta)
+    alpha = np.full(p, np.inf)
+    open_ = np.ones(p, bool)
+    floor = -beta * vmax
+    kmax_c = inst + mod * kmax.astype(float)
+    c = 0
+    for c, (rows, low_rows) in enumerate(cell_min(open_)):
+        low = np.full(p, np.inf)
+        low[rows] = low_rows
+        allowed = (c >= inst) & ((c - inst) % mod == 0) & (c <= kmax_c)
+        take = open_ & allowed
+        alpha = np.where(take, np.minimum(alpha, low - gamma * c), alpha)
+        # past the last allowed capacity, or the rest can only give more
+        done = (c >= kmax_c) | (floor - gamma * c >= alpha)
+        open_ &= ~done
+        if not open_.any() or c >= max_steps:
+            break
+    # planes still open at the step limit: every larger capacity gives at least this
+    alpha = np.where(open_, np.minimum(alpha, floor - gamma * (c + 1)), alpha)
+    return alpha - SAFETY * (1.0 + np.abs(alpha))
+
+
+def _check_slopes(beta, gamma):
+    if np.any(beta < 0) or np.any(gamma > 0):
+        raise ValueError("plane slopes: need beta >= 0 (load) and gamma <= 0 (capacity)")
+
+
+def loss_planes_offset(beta, gamma, vmax, inst, mod, kmax, shift, grid=_GRID):
+    """Largest offsets ``alpha`` with ``alpha + beta nu + gamma c <= Lambda(nu, s(c))``.
+
+    ``Lambda(nu, s) = nu E(nu, s)`` is the loss rate of an Erlang loss system of s servers
+    offered nu erlangs and ``s(c) = max(c - shift, 0)``. The inequality holds for every
+    ``nu`` in ``[0, vmax]`` and every allowed capacity ``c = inst + mod k``,
+    ``0 <= k <= kmax``, one plane per entry of the arrays.
+
+    Parameters
+    ----------
+    beta, gamma : array_like
+        Slopes in the load (>= 0) and in the capacity (<= 0).
+    vmax : array_like
+        Largest load the link can be offered.
+    inst, mod, kmax : array_like of int
+        Installed capacity, module and most added modules of the link.
+    shift : array_like of int
+        Units taken off the capacity (the reservation, for the overflow stream), else 0.
+    grid : int
+        Cells of the load grid.
+
+    Returns
+    -------
+    ndarray
+
+    Raises
+    ------
+    ValueError
+        A slope of the wrong sign.
+
+    Notes
+    -----
+    For each integer s, ``Lambda(., s)`` is convex (shown in the notes of
+    :func:`netdim.dimension.altbound.alternate_bound`), so on a grid cell ``[a, b]`` the
+    function ``f = Lambda - beta nu`` is at least the larger of its tangents at a and b,
+    whose least value over the cell bounds f there from below.
+    Erlang B by its recursion (Jagerman 1974), its load derivative
+    ``dE/dnu = E (s/nu - 1 + E)``; a relative slack of 1e-9 covers rounding.
+    """
+    beta, gamma, vmax = (np.asarray(v, float) for v in (beta, gamma, vmax))
+    _check_slopes(beta, gamma)
+    shift = np.asarray(shift, np.int64)
+    nu = vmax[:, None] * np.linspace(0.0, 1.0, grid + 1)[None, :]
+    a, b = nu[:, :-1], nu[:, 1:]
+    bcol = beta[:, None]
+
+    def cells(open_):
+        rows = np.arange(len(beta))
+        e = np.ones_like(nu)
+        nu_, a_, b_, bc, sh = nu, a, b, bcol, shift
+        s_prev = np.zeros(len(beta), np.int64)
+        c = 0
+        while True:
+            keep = open_[rows]
+            if not keep.all():
+                rows, e, nu_, a_, b_, bc, sh, s_prev = (v[keep] for v in (
+                    rows, e, nu_, a_, b_, bc, sh, s_prev))
+            s = np.maximum(c - sh, 0)
+            up = s > s_prev
+            if up.any():
+                ae = nu_[up] * e[up]
+                e[up] = ae / (s[up, None] + ae)
+                s_prev = s
+            f = nu_ * e - bc * nu_
+            d = e * (1.0 + s[:, None] - nu_ * (1.0 - e)) - bc
+            fa, fb, da, db = f[:, :-1], f[:, 1:], d[:, :-1], d[:, 1:]
+            # where da < 0 < db the tangents cross inside the cell; at any x of the cell
+            # the lower of the two tangents is at most their value at the crossing, so a
+            # rounded x still gives a valid bound
+            with np.errstate(divide="ignore", invalid="ignore"):
+                x = np.clip((fb - fa + da * a_ - db * b_) / (da - db), a_, b_)
+                mid = np.minimum(fa + da * (x - a_), fb + db * (x - b_))
+            low = np.where(da >= 0, fa, np.where(db <= 0, fb, mid))
+            low = np.where(np.isfinite(low), low, -bc * b_)  # Lambda >= 0
+            low = np.minimum(low, np.minimum(fa, fb)).min(axis=1)
+            yield rows, low - SAFETY * (1.0 + np.abs(f).max(axis=1))
+            c += 1
+
+    return _plane_offsets(cells, beta, gamma, vmax, np.asarray(inst, np.int64),
+                          np.asarray(mod, np.int64), np.asarray(kmax, np.int64))
+
+
+def res_planes_offset(kind, beta, gamma, first, res, vmax, inst, mod, kmax, grid=4 * _GRID):
+    """Offsets of planes below the reservation chain's loss rates.
+
+    ``kind`` 1: first-choice loss ``F B1(F, o, c)``; 2: overflow loss ``o B2(F, o, c)``;
+    3: their sum; a pair ``(w1, w2)`` of weights >= 0: ``w1 F B1 + w2 o B2``; as
+    functions of the overflow load o in ``[0, vmax]`` at the constant first-choice load F,
+    for the chain of :func:`netdim.linkmodels.reservation_link_many`
+    (capacity c, reservation r). Each is nondecreasing in o (B1 and B2 are), so on a grid
+    cell ``[a, b]`` the function minus ``beta o`` is at least its value at a minus
+    ``beta b``. Other arguments as :func:`loss_planes_offset`.
+
+    Raises
+    ------
+    ValueError
+        A slope of the wrong sign.
+    """
+    beta, gamma, vmax, first = (np.asarray(v, float) for v in (beta, gamma, vmax, first))
+    _check_slopes(beta, gamma)
+    res = np.asarray(res, np.int64)
+    o = vmax[:, None] * np.linspace(0.0, 1.0, grid + 1)[None, :]
+    s = first[:, None] + o
+    fcol = first[:, None]
+    bcol = beta[:, None]
+
+    def cells(open_):
+        rows = np.arange(len(beta))
+        e = np.ones_like(o)  # E(F + o, m), m = max(c - r, 0)
+        o_, s_, fc, bc, r_, bv = o, s, fcol, bcol, res, beta * vmax
+        m_prev = np.zeros(len(beta), np.int64)
+        c = 0
+        while True:
+            keep = open_[rows]
+            if not keep.all():
+                rows, e, o_, s_, fc, bc, r_, bv, m_prev = (v[keep] for v in (
+                    rows, e, o_, s_, fc, bc, r_, bv, m_prev))
+            m = np.maximum(c - r_, 0)
+            up = m > m_prev
+            if up.any():
+                se = s_[up] * e[up]
+                e[up] = se / (m[up, None] + se)
+                m_prev = m
+            top = c - m  # states above m, entered by first-choice calls only
+            tau = np.ones_like(o_)
+            tsum = np.zeros_like(o_)
+            for i in range(1, int(top.max()) + 1):
+                on = (i <= top)[:, None]
+                tau = np.where(on, tau * fc / (m[:, None] + i), tau)
+                tsum = tsum + np.where(on, tau, 0.0)
+            pos = e > 1e-300
+            den = np.where(pos, 1.0 / np.where(pos, e, 1.0) + tsum, np.inf)
+            b1 = np.where(pos, tau / den, 0.0)  # tau = 1 when top = 0: B1 = E(F + o, c)
+            b2 = np.where(pos, (1.0 + tsum) / den, 0.0)
+            w1, w2 = stream_weights(kind)
+            f = w1 * fc * b1 + w2 * o_ * b2
+            low = (f[:, :-1] - bc * o_[:, 1:]).min(axis=1)
+            yield rows, low - SAFETY * (1.0 + np.abs(f).max(axis=1) + bv)
+            c += 1
+
+    return _plane_offsets(cells, beta, gamma, vmax, np.asarray(inst, np.int64),
+                          np.asarray(mod, np.int64), np.asarray(kmax, np.int64))
+
+
+def loss_rate(nu, s):
+    """Lambda(nu, s) = nu E(nu, s) and its derivative in nu, elementwise (integer s >= 0)."""
+    from netdim.erlang import erlang_b
+
+    nu = np.asarray(nu, float)
+    s = np.asarray(s, float)
+    e = np.asarray(erlang_b(np.maximum(nu, 0.0), np.maximum(s, 0.0)), float)
+    return nu * e, e * (1.0 + s - nu * (1.0 - e))
+
+
+def reservation_losses(first, res, o, c):
+    """(F B1, o B2) of the reservation chain, elementwise (integer capacities c)."""
+    from netdim.linkmodels import reservation_link_many
+
+    b1, b2 = reservation_link_many(first, o, np.asarray(c).astype(np.int64), res)
+    return first * b1, o * b2
+
+
+def stream_weights(kind):
+    """Weights (first-choice, overflow) of the loss a reservation-chain cut bounds."""
+    if isinstance(kind, tuple):
+        return kind
+    return {1: (1.0, 0.0), 2: (0.0, 1.0), 3: (1.0, 1.0)}[kind]
+
+
+def reservation_table(first, res, o, cs):
+    """(F B1, o B2) of the reservation chain at first-choice load F for every capacity in
+    ``cs`` (rows) and overflow load in ``o`` (columns), by one Erlang recursion."""
+    cs = np.asarray(cs, np.int64)
+    o = np.asarray(o, float)
+    e = erlang_table(first + o, int(max(cs.max() - res, 0)))
+    fl, ov = np.empty((len(cs), len(o))), np.empty((len(cs), len(o)))
+    with np.errstate(divide="ignore", over="ignore", under="ignore", invalid="ignore"):
+        for i, c in enumerate(cs):
+            m = max(int(c) - res, 0)
+            tau, tsum = 1.0, 0.0
+            for k in range(1, int(c) - m + 1):  # states above m: first-choice calls only
+                tau = tau * first / (m + k)
+                tsum += tau
+            den = 1.0 / e[m] + tsum
+            fl[i] = np.where(np.isfinite(den), first * tau / den, 0.0)
+            ov[i] = np.where(np.isfinite(den), o * (1.0 + tsum) / den, 0.0)
+    return fl, ov
