@@ -22,7 +22,8 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-__all__ = ["Enumeration", "least_cost_by_enumeration", "plans_by_cost", "without_links"]
+__all__ = ["Enumeration", "least_cost_by_enumeration", "plans_by_cost", "usable_links",
+           "without_links"]
 
 #: Most plans listed (over every choice of unbuilt links).
 MAX_PLANS = 20_000
@@ -153,7 +154,9 @@ def plans_by_cost(space, lo, hi, free, limit=MAX_PLANS, max_nodes=None):
     return plans
 
 
-def _usable(network):
+def usable_links(network):
+    """Per link, whether a route the routing policy uses crosses it (every route under
+    alternate routing, the first under fixed routing)."""
     alt = network.routing.policy == "alternate"
     used = np.zeros(len(network.links), bool)
     for d in network.demands:
@@ -218,7 +221,7 @@ def least_cost_by_enumeration(network, space, method, lo, hi, limit=MAX_PLANS,
             net = without_links(network, gone)
             if net is None:
                 continue  # a demand without a route cannot meet its target
-            free = _usable(net) & (space.kmax > 0)
+            free = usable_links(net) & (space.kmax > 0)
             free[list(gone)] = False
             plans = plans_by_cost(space, lo, hi, free, limit=limit - len(listed))
             if plans is None:

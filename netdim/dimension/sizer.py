@@ -9,12 +9,15 @@ links with a fixed cost to build, and a lower bound on the least cost.
 from __future__ import annotations
 
 import time
-from dataclasses import replace
 
 import numpy as np
 
 from netdim.dimension.baseline import baseline
-from netdim.dimension.exhaustive import least_cost_by_enumeration, without_links
+from netdim.dimension.exhaustive import (
+    least_cost_by_enumeration,
+    usable_links,
+    without_links,
+)
 from netdim.dimension.milp import SOLVERS, solve_secant_milp
 from netdim.dimension.plan import Plan
 from netdim.dimension.polish import Evaluator, polish_plan, repair
@@ -211,7 +214,7 @@ def dimension(network, model="fixed-point", solver="highs", mip_gap=1e-4, time_l
                   if link.fixed_cost > 0 and link.installed == 0 and run.k[j] >= 0]
     candidates.sort(key=lambda j: -network.links[j].fixed_cost)
     for j in candidates[:40]:
-        trial_net = _drop_link(best_net, j)
+        trial_net = without_links(best_net, [j])
         if trial_net is None:
             continue
         say(f"trying without link '{network.links[j].id}'")
@@ -322,7 +325,7 @@ def polish_and_check(net, space, k, kmin, model, polish, time_limit, say):
         k, stuck, polish_stats = polish_plan(evaluator, k, kmin, deadline=deadline,
                                              progress=say)
     # Links no usable route needs are not built.
-    used = _used_links(net)
+    used = usable_links(net)
     k = np.where(used | (space.installed > 0), k, 0)
     ev = Evaluator(net, space, _method(model), warm=False)(k)
     if not ev.all_met and evaluator.warm and not stuck:
@@ -477,26 +480,6 @@ def _overflow_failure(network, ev):
     return out
 
 
-def _drop_link(network, j):
-    """The network without routes over link j; None when a demand would have none left."""
-    demands = []
-    for d in network.demands:
-        routes = tuple(r for r in d.routes if j not in r.links)
-        if not routes:
-            return None
-        demands.append(replace(d, routes=routes))
-    return replace(network, demands=tuple(demands))
-
-
-def _used_links(network):
-    alt = network.routing.policy == "alternate"
-    used = np.zeros(len(network.links), bool)
-    for d in network.demands:
-        for r in (d.routes if alt else d.routes[:1]):
-            used[list(r.links)] = True
-    return used
-
-
 # -- the lower bound --------------------------------------------------------------------------
 def _lower_bound(network, net, space, model, solver, mip_gap, time_limit, run, droppable,
                  bound_time=20.0, say=None):
@@ -542,7 +525,7 @@ def _lower_bound(network, net, space, model, solver, mip_gap, time_limit, run, d
 
 
 def _fixed_costs(net, space):
-    used = _used_links(net)
+    used = usable_links(net)
     return float(np.sum(np.where(used & (space.installed == 0), space.fixed_cost, 0.0)))
 
 
