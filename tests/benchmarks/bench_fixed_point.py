@@ -19,6 +19,11 @@ Goals at 200 sites: within 2x of the per-iteration floor, at least 20x faster th
 ``--multirate``: also the same meshes with every third demand a 4-unit class, single-rate
 against two-class times per iteration, fixed and alternate routing (multi-rate under
 alternate routing evaluates the reservation link one link at a time).
+
+``--reservation-link``: also the single-rate reservation link on its own, the log-space path
+(taken on at most 256 links) against the loop over states, per call (medians), on link sets
+of several sizes, and the whole evaluation of the bundled campus network (5 links of up to
+400 spaces) both ways.
 """
 
 from __future__ import annotations
@@ -184,6 +189,8 @@ def main(argv=None):
     ap.add_argument("--policies", nargs="+", default=["fixed", "alternate"])
     ap.add_argument("--multirate", action="store_true",
                     help="also time two call classes against one")
+    ap.add_argument("--reservation-link", action="store_true",
+                    help="also time the reservation link's two paths")
     args = ap.parse_args(argv)
     head = (f"{'sites':>5} {'policy':>9} {'load':>5} {'links':>6} {'steps':>7} {'iter':>5} "
             f"{'cold s':>7} {'warm s':>7} {'ms/iter':>8} {'floor ms':>8} {'x floor':>7} "
@@ -214,6 +221,44 @@ def main(argv=None):
                       flush=True)
     if args.multirate:
         multirate_section(args.sites, args.repeats)
+    if args.reservation_link:
+        reservation_section(max(args.repeats, 5))
+
+
+def reservation_section(repeats):
+    """The reservation link's log-space path against its loop over states, side by side."""
+    import netdim.linkmodels as lm
+    from netdim.netfile import read_network
+
+    def both(fn):
+        times = []
+        for paths in (lm._LOG_LINKS, 0):
+            lm._LOG_LINKS, saved = paths, lm._LOG_LINKS
+            try:
+                fn()  # warm (imports, caches)
+                times.append(median_time(fn, repeats)[0])
+            finally:
+                lm._LOG_LINKS = saved
+        return times
+
+    print()
+    head = f"{'links':>6} {'capacity':>9} {'log ms':>8} {'loop ms':>8} {'loop/log':>8}"
+    print("reservation link, one call (medians)")
+    print(head)
+    print("-" * len(head))
+    rng = np.random.default_rng(0)
+    for n, cmax in ((5, 150), (5, 400), (45, 40), (190, 45), (256, 60)):
+        f = rng.uniform(1, 0.8 * cmax, n)
+        o = rng.uniform(0, 10, n)
+        c = rng.integers(cmax // 2, cmax + 1, n)
+        r = np.full(n, 2)
+        t_log, t_loop = both(lambda f=f, o=o, c=c, r=r: lm.reservation_link_many(f, o, c, r))
+        print(f"{n:>6} {cmax:>9} {t_log * 1e3:>8.3f} {t_loop * 1e3:>8.3f} "
+              f"{t_loop / t_log:>8.1f}")
+    net = read_network("networks/campus-parking.yaml")
+    t_log, t_loop = both(lambda: fixed_point(net))
+    print(f"campus-parking evaluation (both starts): log {t_log * 1e3:.1f} ms, loop "
+          f"{t_loop * 1e3:.1f} ms, ratio {t_loop / t_log:.1f}")
 
 
 if __name__ == "__main__":
