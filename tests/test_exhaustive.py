@@ -156,3 +156,39 @@ def test_sizer_reports_the_listing():
     assert plan.lower_bound == pytest.approx(plan.cost)
     assert plan.details["bound"].startswith("least cost")
     assert plan.to_dict()["details"]["listing_plans"] == plan.details["listing_plans"]
+
+
+def test_not_applicable_with_many_links_that_may_be_left_unbuilt(monkeypatch):
+    links = (Link("X", ("A", "B"), cost_per_module=10.0, fixed_cost=5.0, max_capacity=30),
+             Link("Y", ("A", "B"), cost_per_module=1.0, fixed_cost=1.0, max_capacity=40))
+    net = Network("xy", (Site("A"), Site("B")), links,
+                  (Demand("d", ("A", "B"), 5.0, routes=(R(0), R(1))),),
+                  routing=Routing(policy="alternate", reservation=3))
+    monkeypatch.setattr(ex, "MAX_DROPPABLE", 1)
+    found = ex.least_cost_by_enumeration(net, LinkSpace.of(net), "fixed-point", 5.0, 30.0)
+    assert found.status == "not-applicable"
+    assert "more than 1 links may be left unbuilt" in found.message
+
+
+def test_a_plan_that_cannot_be_evaluated_stops_the_listing_with_a_valid_bound(monkeypatch):
+    from netdim.errors import ConvergenceError
+
+    net = triangle()
+    space = LinkSpace.of(net)
+    plans = ex.plans_by_cost(space, 40.0, 60.0, np.ones(3, bool))
+    calls = []
+
+    def failing(*args, **kwargs):
+        calls.append(1)
+        if len(calls) == 3:
+            raise ConvergenceError("did not converge", iterations=1, residual=1.0)
+        return evaluate(*args, **kwargs)
+
+    import sys
+
+    monkeypatch.setattr(sys.modules["netdim.evaluate"], "evaluate", failing)
+    found = ex.least_cost_by_enumeration(net, space, "fixed-point", 40.0, 60.0)
+    assert found.status == "partial" and found.evaluated == 2
+    assert "could not be evaluated (did not converge)" in found.message
+    # the two cheapest plans failed: every plan cheaper than the third fails
+    assert found.bound == pytest.approx(plans[2][0])
