@@ -17,12 +17,11 @@ import numpy as np
 
 from netdim.dimension.losscuts import (
     SAFETY,
-    erlang_table,
+    hull_faces,
     loss_planes_offset,
     loss_rate,
     res_planes_offset,
     reservation_losses,
-    reservation_table,
     stream_weights,
 )
 
@@ -34,10 +33,6 @@ RESERVATION_CUT_LINKS = 500
 _LP_SLACK = 1e-6
 #: MILP rounds go on while each raises the bound by at least this (relative).
 _MILP_GAIN = 1e-3
-#: Load cells of the grid on which the best slopes of a cut are chosen.
-_ENV_GRID = 32
-#: Most capacities on that grid (evenly spaced when there are more).
-_ENV_LEVELS = 128
 #: Overflow weights w of the cuts on first-choice loss + w x overflow loss (second stage).
 _WEIGHTS = (0.1, 0.25, 0.5, 2.0, 4.0, 10.0)
 #: A cut is added where the relaxation's point violates the loss function by more than this.
@@ -315,29 +310,6 @@ class _Relaxation:
         self.n_cuts += added
         return added
 
-    def _phi_grid(self, x, j, shift):
-        """The loss function of family ``x`` on link j on a (capacity, load) grid."""
-        d, sp = self.data, self.data.space
-        res_kind = not isinstance(x, str)
-        vm = float(d.vmax["O"][j] if res_kind else d.vmax[x][j])
-        f = float(d.fconst[j]) if res_kind else 0.0
-        inst, mod = int(sp.installed[j]), int(sp.module[j])
-        top = inst + mod * int(sp.kmax[j])
-        hi = min(top, int(np.ceil(f + vm + 8 * np.sqrt(f + vm + 1) + 20)))
-        top_k = max((hi - inst) // mod, 1)
-        kk = np.unique(np.r_[np.arange(0, top_k + 1, max(1, top_k // _ENV_LEVELS)), top_k])
-        cs = inst + mod * kk
-        nus = np.linspace(0.0, vm, _ENV_GRID + 1)
-        C, N = np.meshgrid(cs, nus, indexing="ij")
-        if res_kind:
-            a, b = reservation_table(f, int(d.res[j]), nus, cs)
-            w1, w2 = stream_weights(x)
-            phi = w1 * a + w2 * b
-        else:
-            e = erlang_table(nus, int(max(cs.max() - int(shift[j]), 0)))
-            phi = nus[None, :] * e[np.maximum(cs - int(shift[j]), 0)]
-        return C.ravel().astype(float), N.ravel(), np.asarray(phi, float).ravel()
-
     def _envelope_slopes(self, x, links, v, c, shift):
         """Slopes of the plane highest at (v, c) among the faces of the lower convex hull of
         the loss function on a grid (cached per link); the offset is then computed exactly."""
@@ -353,28 +325,19 @@ class _Relaxation:
         return beta, gamma
 
     def _faces(self, x, j, shift):
-        """(alpha, beta, gamma) of the lower faces of the hull of the grid (beta >= 0,
-        gamma <= 0 only), or None."""
+        """Faces of the lower convex hull of link j's loss function of family ``x`` on a
+        grid (:func:`netdim.dimension.losscuts.hull_faces`), cached."""
         key = (x, int(j))
-        if key in self._grids:
-            return self._grids[key]
-        from scipy.spatial import ConvexHull
-
-        C, N, phi = self._phi_grid(x, j, shift)
-        out = None
-        try:
-            eq = ConvexHull(np.column_stack([N, C, phi])).equations
-        except Exception:  # noqa: BLE001 - a flat or degenerate grid: no faces
-            eq = None
-        if eq is not None:
-            low = eq[:, 2] < -1e-12
-            a, b, cz, dd = eq[low].T
-            al, be, ga = -dd / cz, -a / cz, -b / cz
-            ok = (be >= -1e-12) & (ga <= 1e-12)
-            if ok.any():
-                out = (al[ok], np.maximum(be[ok], 0.0), np.minimum(ga[ok], 0.0))
-        self._grids[key] = out
-        return out
+        if key not in self._grids:
+            d, sp = self.data, self.data.space
+            res_kind = not isinstance(x, str)
+            self._grids[key] = hull_faces(
+                x if res_kind else "erlang",
+                float(d.vmax["O"][j] if res_kind else d.vmax[x][j]),
+                int(sp.installed[j]), int(sp.module[j]), int(sp.kmax[j]),
+                shift=0 if res_kind else int(shift[j]),
+                first=float(d.fconst[j]) if res_kind else 0.0, res=int(d.res[j]))
+        return self._grids[key]
 
     def _separate_family(self, caps, pts, x, lexpr, nexpr, vmax_all, idx, extra):
         d, sp = self.data, self.data.space

@@ -22,12 +22,16 @@ from __future__ import annotations
 import numpy as np
 
 __all__ = ["loss_planes_offset", "res_planes_offset", "loss_rate", "reservation_losses",
-           "reservation_table", "erlang_table", "stream_weights", "SAFETY"]
+           "reservation_table", "erlang_table", "stream_weights", "hull_faces", "SAFETY"]
 
 #: Cells of the offered-load grid on which a cut's offset is checked.
 _GRID = 192
 #: Relative and absolute slack taken off every computed offset (rounding of the recursion).
 SAFETY = 1e-9
+#: Load cells of the grid on which the best slopes of a cut are chosen.
+_ENV_GRID = 32
+#: Most capacities on that grid (evenly spaced when there are more).
+_ENV_LEVELS = 128
 
 
 def erlang_table(nu, smax):
@@ -270,3 +274,44 @@ def reservation_table(first, res, o, cs):
             fl[i] = np.where(np.isfinite(den), first * tau / den, 0.0)
             ov[i] = np.where(np.isfinite(den), o * (1.0 + tsum) / den, 0.0)
     return fl, ov
+
+
+def hull_faces(kind, vmax, inst, mod, kmax, shift=0, first=0.0, res=0):
+    """Faces ``(alpha, beta, gamma)`` of the lower convex hull of a link's loss function on
+    a grid of loads and capacities, those with ``beta >= 0`` and ``gamma <= 0``; None when
+    the grid is flat or has none.
+
+    ``kind`` ``'erlang'``: the Erlang loss rate ``nu E(nu, max(c - shift, 0))``; 1, 2, 3 or a
+    pair of weights: the reservation chain's loss rates at the constant first-choice load
+    ``first`` (as :func:`res_planes_offset`). The faces only guide the choice of a cut's
+    slopes (scipy's Qhull); its offset is computed by :func:`loss_planes_offset` or
+    :func:`res_planes_offset`, so any face gives a valid cut.
+    """
+    from scipy.spatial import ConvexHull
+
+    top = inst + mod * int(kmax)
+    hi = min(top, int(np.ceil(first + vmax + 8 * np.sqrt(first + vmax + 1) + 20)))
+    top_k = max((hi - inst) // mod, 1)
+    kk = np.unique(np.r_[np.arange(0, top_k + 1, max(1, top_k // _ENV_LEVELS)), top_k])
+    cs = inst + mod * kk
+    nus = np.linspace(0.0, vmax, _ENV_GRID + 1)
+    C, N = np.meshgrid(cs, nus, indexing="ij")
+    if kind == "erlang":
+        e = erlang_table(nus, int(max(cs.max() - shift, 0)))
+        phi = nus[None, :] * e[np.maximum(cs - shift, 0)]
+    else:
+        a, b = reservation_table(first, res, nus, cs)
+        w1, w2 = stream_weights(kind)
+        phi = w1 * a + w2 * b
+    try:
+        eq = ConvexHull(np.column_stack([N.ravel(), C.ravel().astype(float),
+                                         np.asarray(phi, float).ravel()])).equations
+    except Exception:  # noqa: BLE001 - a flat or degenerate grid: no faces
+        return None
+    low = eq[:, 2] < -1e-12
+    a, b, cz, dd = eq[low].T
+    al, be, ga = -dd / cz, -a / cz, -b / cz
+    ok = (be >= -1e-12) & (ga <= 1e-12)
+    if not ok.any():
+        return None
+    return al[ok], np.maximum(be[ok], 0.0), np.minimum(ga[ok], 0.0)

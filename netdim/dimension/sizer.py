@@ -3,7 +3,9 @@
 The method (see :func:`dimension`): a secant MILP at fixed link loads
 (:mod:`netdim.dimension.milp`), iterated on the loads as in ITU-T E.529, then a local search
 under the chosen evaluation (:mod:`netdim.dimension.polish`), a greedy search over which
-links with a fixed cost to build, and a lower bound on the least cost.
+links with a fixed cost to build, and a lower bound on the least cost, which on small
+networks becomes the least cost itself by evaluating every cheaper plan
+(:mod:`netdim.dimension.exhaustive`).
 """
 
 from __future__ import annotations
