@@ -64,7 +64,6 @@ class _Data:
         # alternate_bound, Notes): a route all of whose earlier routes cross such a link may
         # become the first choice, so its stream is not known.
         droppable = (np.asarray(space.fixed_cost) > 0) & (np.asarray(space.installed) == 0)
-        self.n_open = 0
         for d in network.demands:
             if not d.traffic > 0:
                 continue
@@ -73,7 +72,6 @@ class _Data:
             for rank, r in enumerate(d.routes):
                 f = [h / d.holding for h in r.holdings]
                 fam = "F" if rank == 0 else ("T" if may_lead else "O")
-                self.n_open += fam == "T"
                 may_lead = may_lead and bool(droppable[list(r.links)].any())
                 routes.append((rank, tuple(r.links), tuple(f), fam))
                 for j, fj in zip(r.links, f, strict=True):

@@ -130,7 +130,7 @@ def plans_by_cost(space, lo, hi, free, limit=MAX_PLANS, max_nodes=None):
             return
         if i == len(idx):
             if acc >= lo - _REL * abs(lo):
-                out.append((acc, tuple(k)))
+                out.append(tuple(k))
             return
         if acc + most[i] < lo - _REL * abs(lo):
             return
@@ -146,7 +146,7 @@ def plans_by_cost(space, lo, hi, free, limit=MAX_PLANS, max_nodes=None):
     if nodes > max_nodes or len(out) > limit:
         return None
     plans = []
-    for _acc, ks in out:
+    for ks in out:
         full = np.zeros(space.n_links, np.int64)
         full[idx] = ks
         plans.append((float(space.cost(full)), full))
