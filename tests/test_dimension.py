@@ -110,7 +110,7 @@ def test_line_exact_least_cost():
     # ((43, 37) or (45, 36)).
     ref = line_search(line_exact)
     assert ref == 117
-    plan = dimension(line_network(), model="exact")
+    plan = dimension(line_network(), model="exact", bound_time=600)
     assert plan.cost == pytest.approx(ref)
     c1, c2 = (int(c) for c in plan.capacities)
     assert max(line_exact(c1, c2)) <= 0.01
@@ -126,7 +126,7 @@ def test_line_conservative_plan_meets_targets_exactly_and_conservatively():
         return b1, b2, 1 - (1 - b1) * (1 - b2)
 
     ref = line_search(conservative)
-    plan = dimension(line_network(), model="conservative")
+    plan = dimension(line_network(), model="conservative", bound_time=600)
     assert plan.cost == pytest.approx(ref)
     c1, c2 = (int(c) for c in plan.capacities)
     assert max(conservative(c1, c2)) <= 0.01

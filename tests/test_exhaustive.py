@@ -136,7 +136,7 @@ def test_a_link_left_unbuilt_takes_its_routes_away():
     found = ex.least_cost_by_enumeration(net, LinkSpace.of(net), "fixed-point", 0.0, 25.0)
     assert found.status == "improved" and found.cost == pytest.approx(best)
     assert found.dropped == (0,)
-    plan = dimension(net)
+    plan = dimension(net, bound_time=600)
     assert plan.cost == pytest.approx(best) and plan.lower_bound == pytest.approx(best)
     assert plan.status == "optimal-within-gap" and plan.dropped_links == ("X",)
 
@@ -150,7 +150,7 @@ def test_sizer_reports_the_listing():
                Demand("AC", ("A", "C"), 1.5, target=0.05, routes=(R(2), R(0, 1)))]
     net = Network("t", tuple(Site(s) for s in "ABC"), tuple(links), tuple(demands),
                   routing=Routing(policy="alternate", reservation=0))
-    plan = dimension(net, model="exact")
+    plan = dimension(net, model="exact", bound_time=600)
     assert plan.details["listing"] in ("optimal", "improved")
     assert plan.details["listing_evaluated"] >= 1
     assert plan.lower_bound == pytest.approx(plan.cost)
