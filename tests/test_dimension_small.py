@@ -142,16 +142,21 @@ def test_fixed_cost_paid_once_and_not_for_installed_links():
     assert plan.link_costs[0] == pytest.approx(plan.modules[0] * 1.0)
 
 
-def test_alternate_routing_plan_meets_targets_and_is_least_cost_under_exact():
-    # Reference: every plan with capacities in the ranges below enumerated and evaluated by
-    # netdim's exact method (its Markov chain is checked in the exact method's own tests);
-    # this checks the search, not the evaluation.
+def overflow_triangle():
+    """A-C overflows over A-B-C (no reservation); A-C costs twice as much a circuit."""
     links = [Link("AB", ("A", "B")), Link("BC", ("B", "C")),
              Link("AC", ("A", "C"), cost_per_module=2.0)]
     demands = [Demand("AB", ("A", "B"), 1.0, target=0.05, routes=(R(0),)),
                Demand("BC", ("B", "C"), 1.0, target=0.05, routes=(R(1),)),
                Demand("AC", ("A", "C"), 1.5, target=0.05, routes=(R(2), R(0, 1)))]
-    net = network(links, demands, policy="alternate", reservation=0)
+    return network(links, demands, policy="alternate", reservation=0)
+
+
+def test_alternate_routing_plan_meets_targets_and_is_least_cost_under_exact():
+    # Reference: every plan with capacities in the ranges below enumerated and evaluated by
+    # netdim's exact method (its Markov chain is checked in the exact method's own tests);
+    # this checks the search, not the evaluation.
+    net = overflow_triangle()
     best = math.inf
     for caps in itertools.product(range(0, 7), range(0, 7), range(0, 6)):
         cost = caps[0] + caps[1] + 2 * caps[2]

@@ -19,6 +19,7 @@ from test_dimension_small import (  # tests/ is on sys.path under pytest
     TRIANGLE,
     TRIANGLE_TARGETS,
     fixed_point,
+    overflow_triangle,
     triangle,
 )
 
@@ -143,13 +144,7 @@ def test_a_link_left_unbuilt_takes_its_routes_away():
 
 def test_sizer_reports_the_listing():
     # under the exact model the bound before the listing is the weak LP one
-    links = [Link("AB", ("A", "B")), Link("BC", ("B", "C")),
-             Link("AC", ("A", "C"), cost_per_module=2.0)]
-    demands = [Demand("AB", ("A", "B"), 1.0, target=0.05, routes=(R(0),)),
-               Demand("BC", ("B", "C"), 1.0, target=0.05, routes=(R(1),)),
-               Demand("AC", ("A", "C"), 1.5, target=0.05, routes=(R(2), R(0, 1)))]
-    net = Network("t", tuple(Site(s) for s in "ABC"), tuple(links), tuple(demands),
-                  routing=Routing(policy="alternate", reservation=0))
+    net = overflow_triangle()
     plan = dimension(net, model="exact", bound_time=600)
     assert plan.details["listing"] in ("optimal", "improved")
     assert plan.details["listing_evaluated"] >= 1

@@ -82,6 +82,16 @@ def _plane_offsets(cell_min, beta, gamma, vmax, inst, mod, kmax, max_steps=50_00
     return alpha - SAFETY * (1.0 + np.abs(alpha))
 
 
+def _erlang_up(e, load, s, s_prev):
+    """One step of the Erlang recursion, in place, on the rows whose server count rose from
+    ``s_prev`` to ``s`` (by one): ``e = E(load, s_prev)`` becomes ``E(load, s)``; returns s."""
+    up = s > s_prev
+    if up.any():
+        ae = load[up] * e[up]
+        e[up] = ae / (s[up, None] + ae)
+    return s
+
+
 def _check_slopes(beta, gamma):
     if np.any(beta < 0) or np.any(gamma > 0):
         raise ValueError("plane slopes: need beta >= 0 (load) and gamma <= 0 (capacity)")
@@ -144,12 +154,7 @@ def loss_planes_offset(beta, gamma, vmax, inst, mod, kmax, shift, grid=_GRID):
             if not keep.all():
                 rows, e, nu_, a_, b_, bc, sh, s_prev = (v[keep] for v in (
                     rows, e, nu_, a_, b_, bc, sh, s_prev))
-            s = np.maximum(c - sh, 0)
-            up = s > s_prev
-            if up.any():
-                ae = nu_[up] * e[up]
-                e[up] = ae / (s[up, None] + ae)
-                s_prev = s
+            s = s_prev = _erlang_up(e, nu_, np.maximum(c - sh, 0), s_prev)
             f = nu_ * e - bc * nu_
             d = e * (1.0 + s[:, None] - nu_ * (1.0 - e)) - bc
             fa, fb, da, db = f[:, :-1], f[:, 1:], d[:, :-1], d[:, 1:]
@@ -204,12 +209,7 @@ def res_planes_offset(kind, beta, gamma, first, res, vmax, inst, mod, kmax, grid
             if not keep.all():
                 rows, e, o_, s_, fc, bc, r_, bv, m_prev = (v[keep] for v in (
                     rows, e, o_, s_, fc, bc, r_, bv, m_prev))
-            m = np.maximum(c - r_, 0)
-            up = m > m_prev
-            if up.any():
-                se = s_[up] * e[up]
-                e[up] = se / (m[up, None] + se)
-                m_prev = m
+            m = m_prev = _erlang_up(e, s_, np.maximum(c - r_, 0), m_prev)
             top = c - m  # states above m, entered by first-choice calls only
             tau = np.ones_like(o_)
             tsum = np.zeros_like(o_)

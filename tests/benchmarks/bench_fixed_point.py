@@ -231,14 +231,14 @@ def reservation_section(repeats):
     from netdim.netfile import read_network
 
     def both(fn):
-        times = []
-        for paths in (lm._LOG_LINKS, 0):
-            lm._LOG_LINKS, saved = paths, lm._LOG_LINKS
-            try:
+        times, saved = [], lm._LOG_LINKS
+        try:
+            for limit in (saved, 0):  # the log-space path, then the loop over states
+                lm._LOG_LINKS = limit
                 fn()  # warm (imports, caches)
                 times.append(median_time(fn, repeats)[0])
-            finally:
-                lm._LOG_LINKS = saved
+        finally:
+            lm._LOG_LINKS = saved
         return times
 
     print()
