@@ -159,13 +159,14 @@ def test_bad_method_name(tmp_path, capsys):
     assert "invalid choice" in capsys.readouterr().err
 
 
-def test_no_convergence_is_exit_2(tmp_path, capsys):
-    # Source: common practice, no source (a solver stopped early is an error, not a result).
+def test_no_convergence_is_exit_3(tmp_path, capsys):
+    # Source: common practice, no source (a solver stopped early is an error, not a result,
+    # and not bad input either: README gives it exit status 3).
     # a through demand over both links needs more than one sweep
     chain = TWO_DEMANDS + "  - {id: AC, between: [AMBER, CEDAR], traffic: 3.0, " \
         "routes: [[A-B, B-C]]}\n"
     path = write(tmp_path, chain, "chain.yaml")
-    assert main(["evaluate", path, "--max-iter", "1"]) == 2
+    assert main(["evaluate", path, "--max-iter", "1"]) == 3
     err = capsys.readouterr().err
     assert "did not converge in 1 iterations" in err and err.count("\n") == 1
 

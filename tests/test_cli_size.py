@@ -10,13 +10,12 @@ from __future__ import annotations
 import json
 
 import pytest
-from _networks import line_yaml  # tests/ is on sys.path under pytest
 
 from netdim.cli import main
 
 
 @pytest.fixture
-def line_file(tmp_path):
+def line_file(tmp_path, line_yaml):
     p = tmp_path / "line.yaml"
     p.write_text(line_yaml())
     return p
@@ -58,7 +57,7 @@ def test_size_cbc_and_conservative(line_file, capsys):
     assert d["model"] == "conservative" and d["gap"] == pytest.approx(0, abs=1e-6)
 
 
-def test_size_infeasible_exits_1_naming_the_demand(tmp_path, capsys):
+def test_size_infeasible_exits_1_naming_the_demand(line_yaml, tmp_path, capsys):
     p = tmp_path / "tight.yaml"
     p.write_text(line_yaml(", max_capacity: 30"))
     assert main(["size", str(p), "--quiet"]) == 1

@@ -14,7 +14,6 @@ import pathlib
 
 import numpy as np
 import pytest
-from _networks import line_yaml  # tests/ is on sys.path under pytest
 
 from netdim.cli import main
 from netdim.dimension import dimension
@@ -112,7 +111,7 @@ def test_verify_none_is_no_verification():
 
 
 
-def test_cli_verify_json_has_the_verification(tmp_path, capsys):
+def test_cli_verify_json_has_the_verification(line_yaml, tmp_path, capsys):
     # Fixed routing: the fixed-point plan of the line network (least cost 118, see
     # tests/test_dimension.py) also meets its targets under the product form, so the
     # simulation should agree; checked only for the shape of the output here.
@@ -128,7 +127,7 @@ def test_cli_verify_json_has_the_verification(tmp_path, capsys):
     assert out["details"]["verify_seed"] == 3
 
 
-def test_cli_text_report_shows_simulated_column(tmp_path, capsys):
+def test_cli_text_report_shows_simulated_column(line_yaml, tmp_path, capsys):
     p = tmp_path / "line.yaml"
     p.write_text(line_yaml())
     assert main(["size", str(p), "--verify", "--verify-calls", "100000", "--quiet"]) == 0
@@ -136,14 +135,14 @@ def test_cli_text_report_shows_simulated_column(tmp_path, capsys):
     assert "simulated" in out and "verified       by simulation" in out
 
 
-def test_cli_notes_verify_for_alternate_routing(tmp_path, capsys):
+def test_cli_notes_verify_for_alternate_routing(line_yaml, tmp_path, capsys):
     p = tmp_path / "alt.yaml"
     p.write_text(line_yaml(tail="routing: {policy: alternate}\n"))
     assert main(["size", str(p)]) == 0
     assert "add --verify" in capsys.readouterr().err
 
 
-def test_cli_bad_verify_calls_exits_2(tmp_path, capsys):
+def test_cli_bad_verify_calls_exits_2(line_yaml, tmp_path, capsys):
     p = tmp_path / "line.yaml"
     p.write_text(line_yaml())
     assert main(["size", str(p), "--verify", "--verify-calls", "0"]) == 2

@@ -5,7 +5,6 @@ import math
 
 import numpy as np
 import pytest
-from _networks import erlang_b, one_link, tandem, triangle  # tests/ is on sys.path under pytest
 
 from netdim.errors import ModelTooLargeError
 from netdim.evaluate.exact import exact
@@ -13,19 +12,19 @@ from netdim.model import Demand, Network, Route
 
 
 @pytest.mark.parametrize("a,c", [(5.0, 10), (2.0, 1), (20.0, 25), (0.5, 3)])
-def test_single_link_equals_erlang_b(a, c):
+def test_single_link_equals_erlang_b(erlang_b_ref, one_link, a, c):
     # source: Erlang B recursion (written above)
     ev = exact(one_link(c, [(a, 1)]))
-    assert ev.blocking[0] == pytest.approx(erlang_b(a, c), rel=1e-10)
+    assert ev.blocking[0] == pytest.approx(erlang_b_ref(a, c), rel=1e-10)
     assert ev.status == "exact"
 
 
-def test_erlang_b_tabulated_value():
+def test_erlang_b_tabulated_value(one_link):
     # source: E(5, 10) = 0.01838 (standard Erlang B tables, from memory)
     assert exact(one_link(10, [(5.0, 1)])).blocking[0] == pytest.approx(0.018384, abs=1e-6)
 
 
-def test_multirate_link_equals_kaufman_roberts():
+def test_multirate_link_equals_kaufman_roberts(one_link):
     # source: Kaufman (1981) / Roberts (1981) recursion q(n) n = sum_k a_k b_k q(n - b_k),
     # written here, and checked against brute-force enumeration of the product form
     cap, classes = 12, [(3.0, 1), (1.5, 2), (0.7, 4)]
@@ -52,7 +51,7 @@ def test_multirate_link_equals_kaufman_roberts():
     np.testing.assert_allclose(ev.blocking, blk / tot, rtol=1e-10)
 
 
-def test_product_form_and_markov_chain_agree():
+def test_product_form_and_markov_chain_agree(triangle):
     # source: Kelly (1979) ch. 8 -- the product form solves the chain's global balance under
     # fixed routing; here both are computed independently by the two solvers
     net = triangle(4, 3.0, 0, policy="fixed")
@@ -66,13 +65,13 @@ def test_product_form_and_markov_chain_agree():
     assert mc.residual < 1e-9
 
 
-def test_two_link_route_is_erlang_b_while_fixed_point_is_not():
+def test_two_link_route_is_erlang_b_while_fixed_point_is_not(erlang_b_ref, tandem):
     # source: one route over two equal links behaves as one link: E(5, 10) exactly (Erlang B
     # recursion); the reduced-load approximation treats the links as independent and gives
     # about 0.033 (Kelly 1991, Ann. Appl. Probab. 1, discussion of the approximation error)
     net = tandem(10, 5.0)
     ev = exact(net)
-    assert ev.blocking[0] == pytest.approx(erlang_b(5.0, 10), rel=1e-10)
+    assert ev.blocking[0] == pytest.approx(erlang_b_ref(5.0, 10), rel=1e-10)
     assert ev.blocking[0] == pytest.approx(0.0184, abs=5e-5)
     fixed_point = pytest.importorskip("netdim.evaluate.fixed_point").fixed_point
     fp = fixed_point(net, net.capacities())
@@ -80,7 +79,7 @@ def test_two_link_route_is_erlang_b_while_fixed_point_is_not():
     assert fp.blocking[0] > 1.7 * ev.blocking[0]
 
 
-def test_markov_chain_balance_by_brute_force():
+def test_markov_chain_balance_by_brute_force(triangle):
     # source: a chain built and solved directly in the test (dense generator, numpy lstsq):
     # alternate routing with reservation on a triangle of 2-unit links
     net = triangle(2, 1.2, 1)
@@ -119,7 +118,7 @@ def test_markov_chain_balance_by_brute_force():
     np.testing.assert_allclose(ev.blocking, pi @ lost, rtol=1e-8)
 
 
-def test_holding_times_only_scale_time():
+def test_holding_times_only_scale_time(triangle):
     # source: blocking depends on holding times only through the erlangs offered, when every
     # holding time is scaled alike (a change of time unit; common practice, no source).
     # The phase chain (two holding values per alternate route) is used on both sides.
@@ -136,7 +135,7 @@ def test_holding_times_only_scale_time():
     np.testing.assert_allclose(a.link_carried, b.link_carried, rtol=1e-8)
 
 
-def test_too_large_network_is_refused():
+def test_too_large_network_is_refused(triangle):
     # source: the limit is an option; a triangle of 30-unit links with alternates has
     # far more than 1000 states (common practice, no source)
     with pytest.raises(ModelTooLargeError, match=r"about .* states, more than the limit 1000; "
@@ -144,7 +143,7 @@ def test_too_large_network_is_refused():
         exact(triangle(30, 20.0, 2), max_states=1000)
 
 
-def test_bad_options():
+def test_bad_options(tandem, triangle):
     net = tandem(3, 1.0)
     with pytest.raises(ValueError, match="solver: unknown solver 'x'"):
         exact(net, solver="x")

@@ -1,10 +1,10 @@
 """Cutting planes below a link's loss rates (netdim.dimension.losscuts).
 
 The offsets are checked against a brute-force minimum over a fine grid of loads and every
-allowed capacity, with Erlang B computed by its recursion (tests/_networks.py; Jagerman 1974)
-and the reservation chain built here state by state from its birth and death rates (common
-practice, no source). The convexity of the Erlang loss rate in the load, which the offsets
-of the Erlang cuts rely on, is checked numerically.
+allowed capacity, with Erlang B computed by its recursion (the ``erlang_b_ref`` fixture of
+tests/conftest.py; Jagerman 1974) and the reservation chain built here state by state from
+its birth and death rates (common practice, no source). The convexity of the Erlang loss
+rate in the load, which the offsets of the Erlang cuts rely on, is checked numerically.
 """
 
 from __future__ import annotations
@@ -13,7 +13,6 @@ import math
 
 import numpy as np
 import pytest
-from _networks import erlang_b  # tests/ is on sys.path under pytest
 
 from netdim.dimension.losscuts import loss_planes_offset, res_planes_offset, reservation_table
 
@@ -37,7 +36,7 @@ def reservation_losses(first, over, c, r):
     return first * b1, over * b2
 
 
-def test_plane_offsets_below_brute_force_minimum():
+def test_plane_offsets_below_brute_force_minimum(erlang_b_ref):
     # alpha + beta nu + gamma c <= phi_c(nu) on a fine grid of loads and every capacity up
     # to 60 (beyond, phi >= 0 >= the plane, see the offset rule), and close to the minimum.
     rng = np.random.default_rng(7)
@@ -56,7 +55,7 @@ def test_plane_offsets_below_brute_force_minimum():
             c = int(inst[p] + mod[p] * k)
             s = max(c - int(shift[p]), 0)
             for nu in nus:
-                lam = nu * erlang_b(nu, s)
+                lam = nu * erlang_b_ref(nu, s)
                 best = min(best, lam - beta[p] * nu - gamma[p] * c)
                 l1, l2 = reservation_losses(first[p], nu, c, int(shift[p]))
                 best_res = min(best_res, l1 + l2 - beta[p] * nu - gamma[p] * c)
@@ -102,15 +101,15 @@ def test_reservation_table_equals_the_chain():
 
 
 @pytest.mark.parametrize("s", [1, 2, 5, 12, 30])
-def test_erlang_loss_rate_convex_in_load(s):
+def test_erlang_loss_rate_convex_in_load(erlang_b_ref, s):
     # Step (6) of the proof, checked numerically: second differences of nu E(nu, s) >= 0.
     nus = np.linspace(0.05, 3.0 * s + 5, 600)
-    lam = np.array([nu * erlang_b(nu, s) for nu in nus])
+    lam = np.array([nu * erlang_b_ref(nu, s) for nu in nus])
     assert np.all(np.diff(lam, 2) >= -1e-12)
 
 
-def test_erlang_loss_rate_not_jointly_convex():
+def test_erlang_loss_rate_not_jointly_convex(erlang_b_ref):
     # Why the offsets are computed: along nu = s the loss rate is concave (the midpoint of
     # two points lies above the chord), so tangent planes in (nu, s) are not valid cuts.
-    lam = [s * erlang_b(float(s), s) for s in (10, 20, 30)]
+    lam = [s * erlang_b_ref(float(s), s) for s in (10, 20, 30)]
     assert lam[1] > (lam[0] + lam[2]) / 2

@@ -6,7 +6,6 @@ interval check fails with probability about 0.1% per demand (the false-failure b
 
 import numpy as np
 import pytest
-from _networks import erlang_b, one_link, tandem, triangle
 
 from netdim.evaluate.exact import exact
 from netdim.evaluate.simulate import simulate
@@ -18,14 +17,14 @@ def _inside(sim, value):
 
 
 @pytest.mark.slow
-def test_simulation_matches_erlang_b():
+def test_simulation_matches_erlang_b(erlang_b_ref, one_link):
     # source: Erlang B recursion (tests/test_exact.py); 99.9% interval, seed fixed
     sim = simulate(one_link(10, [(7.0, 1)]), seed=11, calls=400_000, confidence=0.999)
-    assert _inside(sim, erlang_b(7.0, 10))
+    assert _inside(sim, erlang_b_ref(7.0, 10))
 
 
 @pytest.mark.slow
-def test_simulation_matches_exact_alternate_routing():
+def test_simulation_matches_exact_alternate_routing(triangle):
     # source: exact Markov chain (checked against a brute-force chain in test_exact.py);
     # alternate routing, reservation, per-link holding times; 99.9% intervals
     net = triangle(4, 3.0, 1, holdings=(1.0, 0.25))
@@ -38,7 +37,7 @@ def test_simulation_matches_exact_alternate_routing():
 
 @pytest.mark.slow
 @pytest.mark.parametrize("law,cv", [("deterministic", 1.0), ("lognormal", 2.0)])
-def test_insensitivity_fixed_routing(law, cv):
+def test_insensitivity_fixed_routing(tandem, law, cv):
     # source: insensitivity of the Erlang loss formula to the holding-time law
     # (Sevastyanov 1957) and of the product form of loss networks (Kelly 1991);
     # 99.9% intervals around the exact (exponential) value
@@ -47,7 +46,7 @@ def test_insensitivity_fixed_routing(law, cv):
     assert _inside(sim, exact(net).blocking)
 
 
-def test_same_seed_same_run():
+def test_same_seed_same_run(triangle):
     # source: reproducibility contract of the seed (common practice, no source)
     net = triangle(3, 2.0, 1, holdings=(1.0, 1.0))
     a = simulate(net, seed=42, calls=20_000, holding_law="deterministic")
@@ -57,7 +56,7 @@ def test_same_seed_same_run():
     assert not np.array_equal(a.blocking, c.blocking)
 
 
-def test_precision_stops_when_intervals_are_narrow():
+def test_precision_stops_when_intervals_are_narrow(one_link):
     # source: the stopping rule itself: half-width <= precision x estimate (documented)
     net = one_link(5, [(5.0, 1)])
     seen = []
@@ -68,7 +67,7 @@ def test_precision_stops_when_intervals_are_narrow():
     assert sim.details["calls"] > 20_000 and seen and seen[-1] <= 1.0
 
 
-def test_bad_options():
+def test_bad_options(one_link):
     net = one_link(5, [(2.0, 1)])
     with pytest.raises(ValueError, match="holding_law: unknown law 'gamma'; choose one of "
                                          "exponential, deterministic, lognormal"):

@@ -4,7 +4,8 @@ Each sub-command lives in its own module with a ``register(subparsers)`` functio
 its parser and sets ``func``; ``func(args)`` returns the exit status. Errors netdim raises on
 purpose (and bad arguments) become one line on stderr and exit status 2; nothing else prints.
 
-Exit status: 0 all well; 1 some target not met or a plan infeasible; 2 bad input.
+Exit status (:data:`EXIT`): 0 all well; 1 some target not met or a plan infeasible; 2 bad
+input (or work refused as beyond a stated limit); 3 a computation that did not converge.
 """
 
 from __future__ import annotations
@@ -13,9 +14,12 @@ import argparse
 import importlib
 import sys
 
-from netdim.errors import NetdimError, NetworkFileError
+from netdim.errors import ConvergenceError, NetdimError, NetworkFileError
 
-__all__ = ["main", "build_parser"]
+__all__ = ["main", "build_parser", "EXIT"]
+
+#: Exit statuses of every sub-command.
+EXIT = {"ok": 0, "not-met": 1, "bad-input": 2, "not-converged": 3, "closed-pipe": 141}
 
 #: Sub-command modules, in the order ``netdim --help`` lists them.
 COMMAND_MODULES = ("erlang_cmd", "check_cmd", "evaluate_cmd", "size_cmd")
@@ -50,17 +54,40 @@ def main(argv=None) -> int:
         parser.print_help(sys.stderr)
         return 2
     try:
-        return int(args.func(args) or 0)
+        status = int(args.func(args) or 0)
+        sys.stdout.flush()
+        return status
+    except BrokenPipeError:
+        return _closed_pipe()
     except NetworkFileError as exc:
         for line in exc.problems:
             print(line, file=sys.stderr)
-        return 2
+        return EXIT["bad-input"]
+    except ConvergenceError as exc:
+        print(f"netdim: did not converge: {_one_line(exc)}", file=sys.stderr)
+        return EXIT["not-converged"]
     except (NetdimError, ValueError, OSError) as exc:
         print(f"netdim: error: {_one_line(exc)}", file=sys.stderr)
-        return 2
+        return EXIT["bad-input"]
     except KeyboardInterrupt:
         print("netdim: interrupted", file=sys.stderr)
         return 130
+
+
+def _closed_pipe() -> int:
+    """The reader of our output went away (``netdim ... | head``): stop quietly, with the
+    shell's status for a write to a closed pipe (128 + SIGPIPE).
+
+    Python would report the failed flush again at exit; point stdout at /dev/null first, as
+    the Python documentation advises for SIGPIPE."""
+    import os
+
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError):
+        pass
+    return EXIT["closed-pipe"]
 
 
 def _one_line(exc) -> str:

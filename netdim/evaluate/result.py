@@ -6,13 +6,44 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-__all__ = ["Evaluation"]
+from netdim._arrays import frozen as _frozen
+from netdim.vocabulary import Verdict
+
+__all__ = ["Evaluation", "verdicts"]
+
+#: Relative slack when a deterministic figure is compared with its target (rounding only).
+_RTOL = 1e-9
 
 
-def _frozen(a, dtype=float):
-    a = np.array(a, dtype=dtype)
-    a.setflags(write=False)
-    return a
+def verdicts(blocking, target, interval=None) -> np.ndarray:
+    """Per demand, the :class:`~netdim.vocabulary.Verdict` of its blocking against its target.
+
+    Parameters
+    ----------
+    blocking, target : array_like, shape (n,)
+    interval : array_like, shape (n, 2), optional
+        Confidence interval of each blocking (simulation). With an interval a demand is
+        ``met`` only when the whole interval lies at or below its target, ``missed`` when
+        the whole interval lies above it, and ``unclear`` otherwise; a row that is not
+        finite falls back to the point estimate. Without one, the point estimate decides
+        (``met`` or ``missed``).
+
+    Returns
+    -------
+    ndarray of str
+        The verdicts' values (``'met'``, ``'missed'``, ``'unclear'``).
+    """
+    b = np.asarray(blocking, float)
+    t = np.asarray(target, float) * (1 + _RTOL)
+    point = np.where(b <= t, Verdict.MET.value, Verdict.MISSED.value)
+    if interval is None or not len(b):
+        return point
+    iv = np.asarray(interval, float)
+    lo, hi = iv[:, 0], iv[:, 1]
+    finite = np.isfinite(lo) & np.isfinite(hi)
+    three = np.where(hi <= t, Verdict.MET.value,
+                     np.where(lo > t, Verdict.MISSED.value, Verdict.UNCLEAR.value))
+    return np.where(finite, three, point)
 
 
 @dataclass(frozen=True)
@@ -109,10 +140,15 @@ class Evaluation:
         """Carried traffic per demand, erlangs."""
         return self.offered * (1.0 - self.blocking)
 
+    def verdicts(self) -> np.ndarray:
+        """Per demand, ``'met'``, ``'missed'`` or ``'unclear'`` (see :func:`verdicts`)."""
+        return verdicts(self.blocking, self.target, self.blocking_interval)
+
     @property
     def met(self) -> np.ndarray:
-        """Boolean per demand: blocking within target."""
-        return self.blocking <= self.target * (1 + 1e-9)
+        """Boolean per demand: the target is met (for a simulation: the whole interval is
+        at or below it)."""
+        return self.verdicts() == Verdict.MET.value
 
     @property
     def all_met(self) -> bool:
@@ -120,8 +156,23 @@ class Evaluation:
 
     @property
     def unmet(self) -> tuple:
-        """Ids of the demands whose blocking exceeds their target."""
+        """Ids of the demands not known to meet their target (missed or unclear)."""
         return tuple(i for i, ok in zip(self.demand_ids, self.met, strict=True) if not ok)
+
+    @property
+    def missed(self) -> tuple:
+        """Ids of the demands that miss their target (for a simulation: the whole interval
+        lies above it)."""
+        v = self.verdicts()
+        return tuple(i for i, x in zip(self.demand_ids, v, strict=True)
+                     if x == Verdict.MISSED.value)
+
+    @property
+    def unclear(self) -> tuple:
+        """Ids of the simulated demands whose interval contains the target."""
+        v = self.verdicts()
+        return tuple(i for i, x in zip(self.demand_ids, v, strict=True)
+                     if x == Verdict.UNCLEAR.value)
 
     @property
     def utilisation(self) -> np.ndarray:
@@ -134,6 +185,7 @@ class Evaluation:
     # -- output -----------------------------------------------------------------------------
     def demand_records(self) -> list[dict]:
         out = []
+        verdict = self.verdicts()
         for i, did in enumerate(self.demand_ids):
             rec = {
                 "id": did,
@@ -141,7 +193,8 @@ class Evaluation:
                 "carried": float(self.carried[i]),
                 "blocking": float(self.blocking[i]),
                 "target": float(self.target[i]),
-                "met": bool(self.met[i]),
+                "met": bool(verdict[i] == Verdict.MET.value),
+                "verdict": str(verdict[i]),
             }
             if self.blocking_interval is not None:
                 rec["blocking_interval"] = [float(v) for v in self.blocking_interval[i]]

@@ -1,5 +1,11 @@
-"""Small networks shared by several test modules (invented data, not check values), and the
-Erlang B recursion they are checked with."""
+"""Shared fixtures: small invented networks (demo data, never check values) and the Erlang B
+recursion the tests check against.
+
+The network fixtures are factories: ``one_link(cap, demands)`` and so on build a fresh
+:class:`netdim.Network` for the arguments a test gives.
+"""
+
+import pytest
 
 from netdim.model import Demand, Link, Network, Route, Routing, Site
 
@@ -20,14 +26,11 @@ defaults: {{target: 0.01}}
 {tail}"""
 
 
-def line_yaml(ab_extra: str = "", tail: str = "") -> str:
-    """The A-B-C line network of issue 5 (20 E on A-B, 15 E on B-C, 10 E over both; circuit
-    costs 1 and 2; 1 % targets) as network-file text, with extra fields on link AB and extra
-    top-level lines appended."""
+def _line_yaml(ab_extra: str = "", tail: str = "") -> str:
     return _LINE.format(ab_extra=ab_extra, tail=tail)
 
 
-def erlang_b(a, c):
+def _erlang_b(a, c):
     # Erlang B by the standard recursion B(0)=1, B(k)=aB/(k+aB) (Erlang 1917; any handbook)
     b = 1.0
     for k in range(1, c + 1):
@@ -35,7 +38,7 @@ def erlang_b(a, c):
     return b
 
 
-def one_link(cap, demands):
+def _one_link(cap, demands):
     sites = (Site("A"), Site("B"))
     ds = tuple(
         Demand(f"D{i}", ("A", "B"), a, bandwidth=b, routes=(Route((0,), (1.0,)),))
@@ -44,14 +47,14 @@ def one_link(cap, demands):
     return Network("one", sites, (Link("AB", ("A", "B"), cap),), ds)
 
 
-def tandem(cap, a):
+def _tandem(cap, a):
     sites = (Site("A"), Site("B"), Site("C"))
     links = (Link("AB", ("A", "B"), cap), Link("BC", ("B", "C"), cap))
     d = Demand("AC", ("A", "C"), a, routes=(Route((0, 1), (1.0, 1.0)),))
     return Network("tandem", sites, links, (d,))
 
 
-def triangle(cap, a, reservation, policy="alternate", holdings=(1.0, 1.0)):
+def _triangle(cap, a, reservation, policy="alternate", holdings=(1.0, 1.0)):
     sites = (Site("A"), Site("B"), Site("C"))
     links = (Link("AB", ("A", "B"), cap), Link("BC", ("B", "C"), cap),
              Link("AC", ("A", "C"), cap))
@@ -61,3 +64,36 @@ def triangle(cap, a, reservation, policy="alternate", holdings=(1.0, 1.0)):
         Demand("AC", ("A", "C"), a, routes=(Route((2,), (1.0,)), Route((0, 1), holdings))),
     )
     return Network("tri", sites, links, ds, routing=Routing(policy, reservation=reservation))
+
+
+@pytest.fixture
+def line_yaml():
+    """``line_yaml(ab_extra='', tail='')``: the A-B-C line network (20 E on A-B, 15 E on B-C,
+    10 E over both; circuit costs 1 and 2; 1 % targets) as network-file text, with extra
+    fields on link AB and extra top-level lines appended."""
+    return _line_yaml
+
+
+@pytest.fixture
+def erlang_b_ref():
+    """``erlang_b_ref(a, c)``: Erlang B by its recursion (Erlang 1917; any handbook)."""
+    return _erlang_b
+
+
+@pytest.fixture
+def one_link():
+    """``one_link(cap, [(traffic, bandwidth), ...])``: one link A-B, one demand per class."""
+    return _one_link
+
+
+@pytest.fixture
+def tandem():
+    """``tandem(cap, a)``: links A-B and B-C of ``cap`` units, one demand A-C over both."""
+    return _tandem
+
+
+@pytest.fixture
+def triangle():
+    """``triangle(cap, a, reservation, policy='alternate', holdings=(1, 1))``: three links,
+    a demand per pair with the two-link alternate route."""
+    return _triangle
