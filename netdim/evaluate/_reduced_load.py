@@ -68,8 +68,8 @@ class RouteArrays:
         Route, and (link, stream) slot, of every step.
     step_base : ndarray
         Erlangs a route's admitted calls offer the step's link, before thinning.
-    route_flat : ndarray of int
-        ``demand * max_rank + rank`` per route.
+    last_route : ndarray of int
+        Last route of every demand (-1 for a demand with none).
     route_start : ndarray of int or None
         First step of every route (None when some route has no step: no ``reduceat``).
     rank_routes : tuple of ndarray
@@ -96,7 +96,7 @@ class RouteArrays:
     step_route: np.ndarray
     step_slot: np.ndarray
     step_base: np.ndarray
-    route_flat: np.ndarray
+    last_route: np.ndarray
     route_start: np.ndarray | None
     rank_routes: tuple
     reservations: np.ndarray | None
@@ -157,6 +157,7 @@ class RouteArrays:
         max_rank = int(inc.route_rank.max()) + 1 if n_routes else 1
         starts = np.searchsorted(step_route, np.arange(n_routes))
         ok = n_routes > 0 and np.all(np.diff(np.append(starts, len(step_route))) > 0)
+        first = np.asarray(inc.first_route, dtype=np.int64)
         reservations = limits = None
         if alternate:
             reservations = network.reservations()
@@ -178,7 +179,7 @@ class RouteArrays:
             step_route=step_route,
             step_slot=np.asarray(inc.step_link, dtype=np.int64) * n_streams + stream,
             step_base=traffic[step_demand] * factor,
-            route_flat=inc.route_demand * max_rank + inc.route_rank,
+            last_route=np.where(np.diff(first) > 0, first[1:] - 1, -1),
             route_start=starts if ok else None,
             rank_routes=tuple(np.flatnonzero(inc.route_rank == k) for k in range(1, max_rank)),
             reservations=reservations,
@@ -328,12 +329,19 @@ class ReducedLoad:
             reach[idx] = reach[idx - 1] * L[idx - 1]
         return reach
 
-    def demand_blocking(self, L):
-        """Product of route blockings over each demand's routes (1 with no route)."""
-        a = self.a
-        pad = np.ones(a.n_demands * a.max_rank)
-        pad[a.route_flat] = L
-        return np.prod(pad.reshape(a.n_demands, a.max_rank), axis=1)
+    def demand_blocking(self, L, reach):
+        """Product of route blockings over each demand's routes (1 with no route).
+
+        The reach of a demand's last route is the product of the blockings before it, so
+        the demand is lost with probability ``reach[last] * L[last]``.
+        """
+        last = self.a.last_route
+        if not len(last):
+            return np.ones(0)
+        has = last >= 0
+        pick = np.where(has, last, 0)
+        out = reach[pick] * L[pick] if len(L) else np.ones(len(last))
+        return np.where(has, out, 1.0) if not has.all() else out
 
     # -- the iteration ----------------------------------------------------------------------
     def solve(self, B0, tol, max_iter, label):
@@ -396,7 +404,7 @@ class ReducedLoad:
             with np.errstate(divide="ignore"):
                 logq = np.where(B < 0.5, np.log1p(-np.minimum(B, 0.5)), np.log(q))
         s = self.sweep(q, thin=thin, logq=logq)
-        blocking = self.demand_blocking(s.L)
+        blocking = self.demand_blocking(s.L, s.reach)
         cap_loads = s.loads * a.stream_bw[None, :]
         link_offered = cap_loads.sum(axis=1)
         # q = 1 - B kept accurate near saturation, where 1.0 - B would cancel
@@ -405,12 +413,18 @@ class ReducedLoad:
         first = ~a.stream_overflow
         link_blocking = _weighted(B[:, first], cap_loads[:, first])
         link_alt = _weighted(B[:, ~first], cap_loads[:, ~first]) if a.alternate else None
-        return {
+        out = {
             "blocking": np.clip(blocking, 0.0, 1.0) + 0.0,  # + 0.0 turns -0.0 into 0.0
             "link_offered": link_offered,
             "link_carried": link_carried,
             "link_blocking": link_blocking,
             "link_blocking_alternate": link_alt,
+        }
+        for v in out.values():
+            if v is not None:
+                v.setflags(write=False)  # fresh arrays: the Evaluation keeps them uncopied
+        return {
+            **out,
             "details": {"classes": [int(c) for c in a.classes], "link_state": B,
                         "route_blocking": s.L, "route_reach": s.reach},
         }

@@ -150,7 +150,7 @@ def _estimate(usage, free, ub, rng=None) -> float:
 
 
 def _count_text(n: float) -> str:
-    return f"{n:.3g}" if math.isfinite(n) else "more than 1e308"
+    return f"about {n:.3g}" if math.isfinite(n) else "more than 1e308"
 
 
 def count_states(network, capacities=None, limit=10**7) -> int:
@@ -382,12 +382,12 @@ def exact(network, capacities=None, max_states: int = 200_000, solver: str = "au
     if states is None:
         if count > max_states:
             raise ModelTooLargeError(
-                f"exact: network '{network.name}' has about {_count_text(count)} states, "
+                f"exact: network '{network.name}' has {_count_text(count)} states, "
                 f"more than the limit {max_states}; use method 'simulate' (or raise "
                 "max_states)"
             )
         raise ModelTooLargeError(
-            f"exact: network '{network.name}' has about {_count_text(count)} states over "
+            f"exact: network '{network.name}' has {_count_text(count)} states over "
             f"{space.n_vars} call types, more than {MAX_BYTES >> 20} MiB of state arrays; "
             "use method 'simulate'"
         )

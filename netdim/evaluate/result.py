@@ -123,11 +123,11 @@ class Evaluation:
     def __post_init__(self):
         for name in ("offered", "blocking", "target", "link_offered", "link_carried",
                      "link_blocking", "link_blocking_alternate"):
-            object.__setattr__(self, name, _frozen(getattr(self, name)))
-        object.__setattr__(self, "capacity", _frozen(self.capacity, np.int64))
+            object.__setattr__(self, name, _read_only(getattr(self, name)))
+        object.__setattr__(self, "capacity", _read_only(self.capacity, np.int64))
         for name in ("blocking_interval", "link_blocking_interval"):
             if getattr(self, name) is not None:
-                object.__setattr__(self, name, _frozen(getattr(self, name)))
+                object.__setattr__(self, name, _read_only(getattr(self, name)))
         object.__setattr__(self, "demand_ids", tuple(self.demand_ids))
         object.__setattr__(self, "link_ids", tuple(self.link_ids))
         object.__setattr__(self, "warnings", tuple(self.warnings))
@@ -280,6 +280,15 @@ class Evaluation:
         if self.details:
             d["details"] = {k: v for k, v in self.details.items() if _jsonable(v)}
         return d
+
+
+def _read_only(a, dtype=float) -> np.ndarray:
+    """``a`` itself when it is already a read-only array of ``dtype`` that owns its data
+    (nothing can change it, e.g. the labels memoised on a network), else a frozen copy."""
+    if (isinstance(a, np.ndarray) and a.dtype == dtype and not a.flags.writeable
+            and a.base is None):
+        return a
+    return _frozen(a, dtype)
 
 
 def _jsonable(v) -> bool:

@@ -164,16 +164,20 @@ class _Structure:
         self.total_rate = float(self.rates.sum())
         self.cdf = np.cumsum(self.rates)
         self.n_routes = n_routes = len(r_lptr) - 1
-        # carried load per admitted call and hour: routes x links, bandwidth x mean holding
-        self.route_load = np.zeros((n_routes, self.n_links))
-        for r in range(n_routes):
-            for s in range(r_lptr[r], r_lptr[r + 1]):
-                self.route_load[r, r_links[s]] += r_w[s]
+        # route of every step: carried load per link = sum over steps of (admitted calls of
+        # the route per hour) x bandwidth x mean holding (a dense routes x links matrix
+        # would take gigabytes on a large mesh)
+        self.step_route = np.repeat(np.arange(n_routes), np.diff(self.r_lptr))
         self.max_holding = float(self.g_hold.max()) if len(g_hold) else 1.0
         self.min_holding = float(self.g_hold.min()) if len(g_hold) else 1.0
         # calls in progress, on average, at most the offered traffic: each holds up to
         # max_groups heap entries (the heap starts there and grows on demand)
         self.busy_groups = float(sum(d.traffic for d in network.demands)) * max_groups
+
+
+def _initial_heap(s: _Structure, bound: int) -> int:
+    """Departure-heap entries to start with: room for 4 times the mean calls in progress."""
+    return int(min(bound, 4 * s.busy_groups + 64 * s.max_groups + 1024))
 
 
 class _State:
@@ -183,8 +187,8 @@ class _State:
         self.caps = np.asarray(caps, dtype=np.int64)
         self.free = self.caps.copy()
         # Entries never exceed the units in the network (each holds one or more units).
-        self.heap_bound = int(min(self.caps.sum(), 2**40)) + s.max_groups + 1
-        size = int(min(self.heap_bound, 4 * s.busy_groups + 64 * s.max_groups + 1024))
+        self.heap_bound = int(min(float(self.caps.sum(dtype=float)), 2.0**40)) + s.max_groups + 1
+        size = _initial_heap(s, self.heap_bound)
         self.ht = np.zeros(size)
         self.hs = np.zeros(size, dtype=np.int64)
         self.hg = np.zeros(size, dtype=np.int64)
@@ -193,6 +197,8 @@ class _State:
 
     def grow(self):
         size = min(2 * len(self.ht), self.heap_bound)
+        if size <= len(self.ht):
+            raise AssertionError("simulate: the departure heap cannot grow past its bound")
         for name in ("ht", "hs", "hg"):
             old = getattr(self, name)
             new = np.zeros(size, dtype=old.dtype)
@@ -467,7 +473,8 @@ def _result(network, caps, s, per_batch, opts, warns, warmup, cv, seed) -> Evalu
         hours = sum(c.hours for c in per_batch)
         admitted = sum(c.admitted for c in per_batch)
         offered = sum(c.offered for c in per_batch) / hours
-        carried = (admitted / hours) @ s.route_load
+        carried = np.bincount(s.r_links, weights=(admitted / hours)[s.step_route] * s.r_w,
+                              minlength=n_l)
         calls = int(n_arr.sum())
     else:
         est, half = np.zeros(n_d), np.zeros(n_d)
