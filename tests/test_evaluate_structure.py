@@ -94,7 +94,7 @@ def test_no_scipy_stats_and_no_numba_at_import():
 
 
 @pytest.mark.parametrize("name", ["netdim.evaluate", "netdim.evaluate.fixed_point",
-                                  "netdim.evaluate.intervals"])
+                                  "netdim.evaluate.intervals", "netdim.evaluate.exact"])
 def test_docstring_examples(name):
     # Source: the examples' figures are Erlang B values (E(5, 10) = 0.01838 etc., ITU-T
     # E.521 recursion) and the Clopper-Pearson closed form at k = 0.

@@ -150,7 +150,7 @@ def fixed_point(network, capacities=None, conservative=False, tol=1e-10, max_ite
     alternate routing, the same un-thinned loads with their overflow, a monotone iteration
     whose limit is at or above every reduced-load solution (not proven above the exact
     blocking: overflow is peakier than Poisson). The argument is in
-    ``docs/evaluate-fixed-point.md``.
+    ``docs/evaluate.md``.
 
     References
     ----------

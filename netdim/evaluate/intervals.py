@@ -17,10 +17,20 @@ upper end the larger. It is never narrower than what independent calls would all
 than what the batches show. Where the counts are weighted (link blocking weighted by
 bandwidth x holding), the binomial interval uses Kish's effective number of calls
 ``(sum w)^2 / sum w^2`` and ``k = p n_eff``, as Korn and Graubard do for weighted
-proportions [3]_ (from memory).
+proportions [3]_.
 
 Quantiles come from :mod:`scipy.special` (``stdtrit``, ``betaincinv``): ``scipy.stats``
 takes seconds to import.
+
+References
+----------
+.. [1] A. M. Law, W. D. Kelton, *Simulation Modeling and Analysis*, 3rd ed., McGraw-Hill
+   2000, ch. 9.
+.. [2] C. J. Clopper, E. S. Pearson, "The use of confidence or fiducial limits illustrated
+   in the case of the binomial", Biometrika 26 (1934) 404-413.
+.. [3] E. L. Korn, B. I. Graubard, "Confidence intervals for proportions with small expected
+   number of positive counts estimated from survey data", Survey Methodology 24 (1998)
+   193-201 (cited from memory).
 """
 
 from __future__ import annotations
