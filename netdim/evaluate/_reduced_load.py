@@ -30,7 +30,7 @@ from netdim.linkmodels import (
 )
 from netdim.model import POLICIES, incidence
 
-__all__ = ["RouteArrays", "ReducedLoad", "Q_FLOOR", "MAX_STATE_UNITS"]
+__all__ = ["RouteArrays", "ReducedLoad", "Q_FLOOR", "MAX_STATE_UNITS", "LOG_SPACE_BELOW"]
 
 #: Floor of 1 - B in the iteration (B = 1 on a link of capacity 0). A route over such a link
 #: still carries nothing to any useful precision, and the own-link exclusion Q_r / q_j never
@@ -42,6 +42,10 @@ _LOG_Q_FLOOR = float(np.log(Q_FLOOR))
 #: (multi-rate and trunk-reservation links): their cost per sweep grows with it, about
 #: 13 us a state (linkmodels), so 1e5 units is about 1.3 s a sweep.
 MAX_STATE_UNITS = 100_000
+
+#: Route blockings below this are composed in log space at a solution: 1 - prod(1 - B) is
+#: off by a few units of 1e-16 (absolute), under 1e-12 relative above this.
+LOG_SPACE_BELOW = 1e-3
 
 _ALPHA_MIN = 1.0 / 256.0
 
@@ -284,35 +288,42 @@ class ReducedLoad:
         each of its links the whole traffic that tries it (under alternate routing, the
         demand's traffic times the blocking of its earlier routes). ``every_route=True`` with
         ``thin=False``: every route is offered its demand's whole traffic (the heaviest
-        loads of all). With ``logq`` (``log(1 - B)`` per link and stream) the route blocking
-        is composed in log space, ``-expm1(sum log q)``, for full relative precision.
+        loads of all). With ``logq`` (a function of flat (link, stream) slots giving
+        ``log(1 - B)`` there) the blocking of every route below ``LOG_SPACE_BELOW`` is
+        composed in log space, ``-expm1(sum log q)``, for full relative precision.
         """
         a = self.a
-        q_step = q.reshape(-1)[a.step_slot]
+        take = np.take  # gathers by take: about twice as fast as fancy indexing
+        q_step = take(q.reshape(-1), a.step_slot)
         if a.route_start is not None:
             Q = np.multiply.reduceat(q_step, a.route_start) if len(q_step) else q_step
         else:
             Q = np.exp(np.bincount(a.step_route, weights=np.log(q_step),
                                    minlength=a.n_routes))
+        L = 1.0 - Q
         if logq is not None:
-            lq = np.maximum(logq.reshape(-1), _LOG_Q_FLOOR)[a.step_slot]
-            L = -np.expm1(np.bincount(a.step_route, weights=lq, minlength=a.n_routes))
-        else:
-            L = 1.0 - Q
+            # 1 - Q is off by a few units of 1e-16, which matters for small L only: compose
+            # those routes in log space, over their steps alone
+            tiny = L < LOG_SPACE_BELOW
+            if tiny.any():
+                steps = np.flatnonzero(take(tiny, a.step_route))
+                lq = np.maximum(logq(take(a.step_slot, steps)), _LOG_Q_FLOOR)
+                S = np.bincount(take(a.step_route, steps), weights=lq, minlength=a.n_routes)
+                L[tiny] = -np.expm1(S[tiny])
         several = a.alternate and a.max_rank > 1
         if not thin:
             w = a.step_base
             if several and not every_route:
                 reach = self._reach(L)
-                w = w * reach[a.step_route]
+                w = w * take(reach, a.step_route)
             else:
                 reach = np.ones(a.n_routes)
         else:
             # product over the route's other links = Q_r / q_j (q_j >= Q_FLOOR > 0)
-            w = a.step_base * (Q[a.step_route] / q_step)
+            w = a.step_base * (take(Q, a.step_route) / q_step)
             if several:
                 reach = self._reach(L)
-                w *= reach[a.step_route]
+                w *= take(reach, a.step_route)
             else:
                 reach = np.ones(a.n_routes)
         loads = np.bincount(a.step_slot, weights=w, minlength=a.n_slots)
@@ -326,7 +337,8 @@ class ReducedLoad:
         """
         reach = np.ones(self.a.n_routes)
         for idx in self.a.rank_routes:
-            reach[idx] = reach[idx - 1] * L[idx - 1]
+            before = idx - 1
+            reach[idx] = np.take(reach, before) * np.take(L, before)
         return reach
 
     def demand_blocking(self, L, reach):
@@ -399,17 +411,27 @@ class ReducedLoad:
         the state (blocking, link loads and blockings) and the arrays kept in ``details``.
         """
         a = self.a
-        if logq is None:
-            # log1p(-B) is accurate for small B, log(q) where B is near 1 (q kept accurate)
-            with np.errstate(divide="ignore"):
-                logq = np.where(B < 0.5, np.log1p(-np.minimum(B, 0.5)), np.log(q))
-        s = self.sweep(q, thin=thin, logq=logq)
+        if logq is not None:
+            flat = logq.reshape(-1)
+
+            def log_q(slots):
+                return np.take(flat, slots)
+        else:
+            bf, qf = B.reshape(-1), q.reshape(-1)
+
+            def log_q(slots):
+                # log1p(-B) is accurate for small B, log(q) where B is near 1 (q accurate)
+                b = np.take(bf, slots)
+                with np.errstate(divide="ignore"):
+                    return np.where(b < 0.5, np.log1p(-np.minimum(b, 0.5)),
+                                    np.log(np.take(qf, slots)))
+        s = self.sweep(q, thin=thin, logq=log_q)
         blocking = self.demand_blocking(s.L, s.reach)
         cap_loads = s.loads * a.stream_bw[None, :]
-        link_offered = cap_loads.sum(axis=1)
+        link_offered = _row_sum(cap_loads)
         # q = 1 - B kept accurate near saturation, where 1.0 - B would cancel
-        keep = np.where(B >= 1.0, 0.0, np.broadcast_to(q, B.shape))
-        link_carried = (cap_loads * keep).sum(axis=1)
+        keep = np.where(B >= 1.0, 0.0, q)
+        link_carried = _row_sum(cap_loads * keep)
         first = ~a.stream_overflow
         link_blocking = _weighted(B[:, first], cap_loads[:, first])
         link_alt = _weighted(B[:, ~first], cap_loads[:, ~first]) if a.alternate else None
@@ -430,9 +452,20 @@ class ReducedLoad:
         }
 
 
+def _row_sum(x):
+    """``x.sum(axis=1)``, column by column for a few columns: the same sums (numpy adds up
+    to 7 elements of a row in order; pairwise from 8), a tenth of the time on many rows."""
+    if x.shape[1] > 7:
+        return x.sum(axis=1)
+    out = x[:, 0].copy()
+    for k in range(1, x.shape[1]):
+        out += x[:, k]
+    return out
+
+
 def _weighted(B, w):
     """Load-weighted mean blocking per link; the widest stream's blocking on idle links."""
-    tot = w.sum(axis=1)
-    num = (B * w).sum(axis=1)
+    tot = _row_sum(w)
+    num = _row_sum(B * w)
     with np.errstate(divide="ignore", invalid="ignore"):
         return np.where(tot > 0, num / np.where(tot > 0, tot, 1.0), B[:, -1])
