@@ -69,7 +69,8 @@ def comparison_text(comparison) -> str:
         lines.append(f"{plural(quiet, 'demand')}: the simulation saw no blocked call (or no "
                      "call); the interval is the exact binomial one for the calls simulated.")
     if verdicts is not None:
-        lines += verdict_summary(c.demand_ids, verdicts)
+        lines += verdict_summary(c.demand_ids, verdicts,
+                                 three_way=c.verdict_method == "simulate")
     if c.exact is None:
         lines.append(f"No exact figures: {c.exact_message}")
     sim = c.evaluations.get("simulate")

@@ -62,9 +62,10 @@ def link_order(ev) -> np.ndarray:
     return np.lexsort((-ev.utilisation, -ev.link_blocking))
 
 
-def verdict_summary(ids, verdicts) -> list[str]:
+def verdict_summary(ids, verdicts, three_way=True) -> list[str]:
     """The summary lines of a set of verdicts: counts of each, then the missed and the
-    unclear demands by name."""
+    unclear demands by name. ``three_way``: the verdicts come from intervals (simulation),
+    so the count of unclear ones is given too."""
     n = len(ids)
     v = np.asarray(verdicts)
     missed = [i for i, x in zip(ids, v, strict=True) if x == Verdict.MISSED.value]
@@ -74,12 +75,15 @@ def verdict_summary(ids, verdicts) -> list[str]:
             return ["The 1 demand meets its target."]
         return [f"All {n} demands meet their targets."]
     met = n - len(missed) - len(unclear)
-    out = [f"Of {plural(n, 'demand')}: {met} met, {len(missed)} missed, {len(unclear)} "
-           "unclear (the confidence interval contains the target)."]
+    counts = f"{met} met, {len(missed)} missed"
+    if three_way or unclear:
+        counts += f", {len(unclear)} unclear"
+    out = [f"Of {plural(n, 'demand')}: {counts}."]
     if missed:
         out.append(f"missed: {', '.join(missed)}")
     if unclear:
-        out.append(f"unclear: {', '.join(unclear)}")
+        out.append(f"unclear (the confidence interval contains the target): "
+                   f"{', '.join(unclear)}")
     return out
 
 
@@ -154,7 +158,7 @@ def evaluation_text(ev, title=None, limit=None) -> str:
     out.append(format_table(headers, rows))
     out.append("")
 
-    out += verdict_summary(ev.demand_ids, verdicts)
+    out += verdict_summary(ev.demand_ids, verdicts, three_way=with_iv)
     for w in ev.warnings:
         out.append(f"warning: {w}")
     if ev.alternative is not None:
