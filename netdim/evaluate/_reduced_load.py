@@ -293,7 +293,7 @@ class ReducedLoad:
         composed in log space, ``-expm1(sum log q)``, for full relative precision.
         """
         a = self.a
-        take = np.take  # gathers by take: about twice as fast as fancy indexing
+        take = np.take  # faster than fancy indexing for these gathers, not for [step_route]
         q_step = take(q.reshape(-1), a.step_slot)
         if a.route_start is not None:
             Q = np.multiply.reduceat(q_step, a.route_start) if len(q_step) else q_step
@@ -308,22 +308,22 @@ class ReducedLoad:
             if tiny.any():
                 steps = np.flatnonzero(take(tiny, a.step_route))
                 lq = np.maximum(logq(take(a.step_slot, steps)), _LOG_Q_FLOOR)
-                S = np.bincount(take(a.step_route, steps), weights=lq, minlength=a.n_routes)
+                S = np.bincount(a.step_route[steps], weights=lq, minlength=a.n_routes)
                 L[tiny] = -np.expm1(S[tiny])
         several = a.alternate and a.max_rank > 1
         if not thin:
             w = a.step_base
             if several and not every_route:
                 reach = self._reach(L)
-                w = w * take(reach, a.step_route)
+                w = w * reach[a.step_route]
             else:
                 reach = np.ones(a.n_routes)
         else:
             # product over the route's other links = Q_r / q_j (q_j >= Q_FLOOR > 0)
-            w = a.step_base * (take(Q, a.step_route) / q_step)
+            w = a.step_base * (Q[a.step_route] / q_step)
             if several:
                 reach = self._reach(L)
-                w *= take(reach, a.step_route)
+                w *= reach[a.step_route]
             else:
                 reach = np.ones(a.n_routes)
         loads = np.bincount(a.step_slot, weights=w, minlength=a.n_slots)
