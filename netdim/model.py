@@ -203,6 +203,10 @@ class Network:
     source: str | None = field(default=None, compare=False)
     default_holding: float = 1.0
     extra: dict = field(default_factory=dict, compare=False, hash=False)
+    # Arrays the evaluators derive from this (immutable) network, built on first use and
+    # kept with it, so a sizer's many evaluations of one network prepare them once. Owned
+    # by netdim.evaluate; a copy made with dataclasses.replace starts empty.
+    _memo: dict = field(default_factory=dict, init=False, repr=False, compare=False)
 
     # -- look-ups ---------------------------------------------------------------------------
     @cached_property

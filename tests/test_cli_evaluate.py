@@ -67,8 +67,9 @@ def test_exit_1_names_unmet(tmp_path, capsys):
     assert main(["evaluate", path]) == 1
     captured = capsys.readouterr()
     err = captured.err.strip().splitlines()
-    assert len(err) == 1 and "EW" in err[0] and "1 of 1" in err[0]
-    assert "NO" in captured.out
+    assert err == ["netdim evaluate: 1 of 1 demand missed the target: EW"]
+    assert "MISSED" in captured.out
+    assert "Of 1 demand: 0 met, 1 missed." in captured.out
 
 
 def test_worst_first(tmp_path, capsys):
@@ -210,3 +211,169 @@ def test_bistable_network_reports_both(tmp_path, capsys):
     out = capsys.readouterr().out
     assert "status: bistable" in out
     assert "two solutions" in out and "second solution" in out
+    assert "'alternative'" not in out  # text output does not point at a JSON key
+
+
+# -- three-way verdicts, intervals, seed (issue 12) --------------------------------------------
+SMALL_AND_BIG = """\
+name: Small beside big
+sites: [{id: NORTH}, {id: SOUTH}, {id: EAST}]
+links:
+  - {id: N-S, ends: [NORTH, SOUTH], capacity: 7}
+  - {id: S-E, ends: [SOUTH, EAST], capacity: 120}
+  - {id: S-W, ends: [SOUTH, WEST], capacity: 1}
+demands:
+  - {id: SMALL, between: [NORTH, SOUTH], traffic: 2.0, target: 0.001}
+  - {id: BIG, between: [SOUTH, EAST], traffic: 100.0, target: 0.02}
+"""
+OVERLOAD = ("  - {id: OVER, between: [SOUTH, WEST], traffic: 5.0, target: 0.01}\n")
+
+
+def _sb(tmp_path, overload=False):
+    text = SMALL_AND_BIG.replace("[{id: NORTH}, {id: SOUTH}, {id: EAST}]",
+                                 "[{id: NORTH}, {id: SOUTH}, {id: EAST}, {id: WEST}]")
+    return write(tmp_path, text + (OVERLOAD if overload else ""), "sb.yaml")
+
+
+def test_simulation_verdicts_are_three_way(tmp_path, capsys):
+    # Source: Erlang B recursion (ITU-T E.521): E(2, 7) = 0.0034 > 0.001 (SMALL must not be
+    # met), E(5, 1) = 0.83 > 0.01 (OVER missed). 5000 calls leave SMALL with no loss seen
+    # (seed 4): its interval is the exact binomial one (Clopper and Pearson 1934), which
+    # contains the target: unclear.
+    assert erlang_b_ref(2.0, 7) > 0.003 and erlang_b_ref(5.0, 1) > 0.8
+    path = _sb(tmp_path, overload=True)
+    assert main(["evaluate", path, "--method", "simulate", "--calls", "5000", "--seed", "4"]) == 1
+    out, err = capsys.readouterr()
+    rows = {line.split()[0]: line.split()[-1] for line in out.splitlines()
+            if line.split() and line.split()[0] in ("SMALL", "BIG", "OVER")}
+    assert rows["SMALL"] == "unclear" and rows["OVER"] == "MISSED"
+    assert rows["BIG"] == "met"  # E(100, 120) = 0.0057 < 0.02 (Erlang B recursion)
+    assert "Of 3 demands: 1 met, 1 missed, 1 unclear." in out
+    assert "missed: OVER\nunclear (the confidence interval contains the target): SMALL" in out
+    assert err.strip().splitlines() == [
+        "netdim evaluate: 1 of 3 demands missed the target: OVER",
+        "netdim evaluate: 1 of 3 demands unclear (the interval contains the target): SMALL"]
+    assert main(["evaluate", path, "--method", "simulate", "--calls", "5000", "--seed", "4",
+                 "--json"]) == 1
+    data = json.loads(capsys.readouterr().out)
+    small = next(d for d in data["demands"] if d["id"] == "SMALL")
+    assert small["verdict"] == "unclear" and small["met"] is False
+    assert small["blocking"] == 0.0 and small["blocking_interval"][1] > 0.001
+    assert data["all_met"] is False
+
+
+def test_seed_is_printed_when_none_given(tmp_path, capsys):
+    # Source: reproducibility contract of the seed (common practice, no source).
+    path = write(tmp_path, ONE_LINK.replace("CAP", "10"))
+    main(["evaluate", path, "--method", "simulate", "--calls", "4000", "--json"])
+    first = json.loads(capsys.readouterr().out)
+    seed = first["details"]["seed"]
+    assert isinstance(seed, int)
+    main(["evaluate", path, "--method", "simulate", "--calls", "4000", "--seed", str(seed),
+          "--json"])
+    again = json.loads(capsys.readouterr().out)
+    assert again["demands"] == first["demands"]
+    main(["evaluate", path, "--method", "simulate", "--calls", "4000"])
+    assert "holding times, seed " in capsys.readouterr().out
+
+
+def test_check_says_no_blocked_calls_seen(tmp_path, capsys):
+    # Source: E(2, 7) (Erlang B recursion) is about 3e-3 and the exact method agrees; no loss
+    # of SMALL is seen in 5000 calls, which the flag column says instead of flagging the
+    # fixed point outside a [0, 0] interval.
+    path = _sb(tmp_path)
+    status = main(["evaluate", path, "--compare", "--calls", "5000", "--seed", "4", "--quiet"])
+    out = capsys.readouterr().out
+    row = next(line for line in out.splitlines() if line.startswith("SMALL"))
+    assert "no blocked calls seen" in row and "fixed point outside" not in row
+    assert "verdict (exact)" in out and "Simulation seed 4" in out
+    assert status == 1  # SMALL misses its target by the exact method
+    assert main(["evaluate", path, "--check", "--calls", "5000", "--seed", "4", "--json",
+                 "--quiet"]) == 1
+    data = json.loads(capsys.readouterr().out)
+    small = next(d for d in data["demands"] if d["id"] == "SMALL")
+    assert small["note"] == "no blocked calls seen" and small["blocked_calls"] == 0
+    assert small["outside"] is False and small["verdict"] == "missed"
+    assert data["verdict_method"] == "exact" and data["seed"] == 4
+
+
+def test_loose_tolerance_prints_no_bistability(capsys):
+    # Source: see tests/test_fixed_point.py::test_loose_tolerance_is_not_bistability.
+    import pathlib
+
+    path = str(pathlib.Path(__file__).resolve().parent.parent / "networks" /
+               "three-villages.yaml")
+    for tol in ("1e-2", "1e-4"):
+        assert main(["evaluate", path, "--tol", tol]) == 0
+        out = capsys.readouterr().out
+        assert "bistable" not in out and "status: converged" in out
+
+
+def test_cv_without_lognormal_is_refused(tmp_path, capsys):
+    path = write(tmp_path, ONE_LINK.replace("CAP", "10"))
+    assert main(["evaluate", path, "--method", "simulate", "--cv", "2"]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1
+    assert "cv: applies to holding_law 'lognormal' only" in err
+
+
+def test_one_demand_reads_in_the_singular(tmp_path, capsys):
+    path = write(tmp_path, ONE_LINK.replace("CAP", "10"))
+    assert main(["evaluate", path]) == 0
+    out = capsys.readouterr().out
+    assert "The 1 demand meets its target." in out and "1 demands" not in out
+
+
+@pytest.mark.parametrize("umask,mode", [(0o022, 0o644), (0o027, 0o640)])
+def test_csv_files_get_the_usual_mode(tmp_path, capsys, umask, mode):
+    # Source: POSIX open(2): a new file gets 0666 less the umask (mkstemp alone gives 0600).
+    import os
+
+    path = write(tmp_path, TWO_DEMANDS)
+    out_dir = tmp_path / "out"
+    old = os.umask(umask)
+    try:
+        main(["evaluate", path, "--csv", str(out_dir)])
+    finally:
+        os.umask(old)
+    for name in ("demands.csv", "links.csv"):
+        assert (out_dir / name).stat().st_mode & 0o777 == mode
+    with open(out_dir / "demands.csv", newline="") as f:
+        rows = list(csv.DictReader(f))
+    assert [r["verdict"] for r in rows] == ["missed", "met"]
+
+
+# -- work refused over a stated limit (issue 19) -----------------------------------------------
+def test_exact_on_huge_links_is_refused(tmp_path, capsys):
+    text = ("name: Huge groups\nsites: [{id: A}, {id: B}, {id: C}]\nlinks:\n"
+            "  - {id: A-B, ends: [A, B], capacity: 1000000}\n"
+            "  - {id: B-C, ends: [B, C], capacity: 1000000}\n"
+            "demands:\n  - {id: AB, between: [A, B], traffic: 1.0}\n"
+            "  - {id: BC, between: [B, C], traffic: 1.0}\n"
+            "  - {id: AC, between: [A, C], traffic: 1.0, routes: [[A-B, B-C]]}\n")
+    path = write(tmp_path, text)
+    assert main(["evaluate", path, "--method", "exact"]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1
+    assert "states, more than the limit 200000; use method 'simulate'" in err
+
+
+def test_simulation_of_fast_and_slow_calls_is_refused(tmp_path, capsys):
+    text = ("name: Fast and slow\nsites: [{id: A}, {id: B}]\nlinks:\n"
+            "  - {id: A-B, ends: [A, B], capacity: 10}\ndemands:\n"
+            "  - {id: FAST, between: [A, B], traffic: 2.0, holding: 1.0e-15}\n"
+            "  - {id: SLOW, between: [A, B], traffic: 2.0, holding: 1}\n")
+    path = write(tmp_path, text)
+    assert main(["evaluate", path, "--method", "simulate"]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "more than the limit 1e+09" in err
+
+
+def test_option_applicability_comes_from_the_library(tmp_path, capsys):
+    from netdim.evaluate import METHOD_OPTIONS
+
+    path = write(tmp_path, ONE_LINK.replace("CAP", "10"))
+    assert "max_iter" not in METHOD_OPTIONS["exact"]
+    assert main(["evaluate", path, "--method", "exact", "--max-iter", "5"]) == 2
+    assert ("--max-iter: applies to --method fixed-point or --method conservative only, not "
+            "--method exact") in capsys.readouterr().err

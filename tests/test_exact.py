@@ -7,7 +7,7 @@ import numpy as np
 import pytest
 
 from netdim.errors import ModelTooLargeError
-from netdim.evaluate.exact import exact
+from netdim.evaluate.exact import count_states, exact
 from netdim.model import Demand, Network, Route
 
 
@@ -151,3 +151,59 @@ def test_bad_options(tandem, triangle):
         exact(net, max_states=0)
     with pytest.raises(ValueError, match="solver: the product form needs fixed routing"):
         exact(triangle(2, 1.0, 0), solver="product")
+
+
+# -- the work estimate (issue 19) --------------------------------------------------------------
+def _two_big_links(cap):
+    from netdim.model import Link, Site
+
+    sites = (Site("A"), Site("B"), Site("C"))
+    links = (Link("AB", ("A", "B"), cap), Link("BC", ("B", "C"), cap))
+    ds = (Demand("AB", ("A", "B"), 1.0, routes=(Route((0,), (1.0,)),)),
+          Demand("BC", ("B", "C"), 1.0, routes=(Route((1,), (1.0,)),)),
+          Demand("AC", ("A", "C"), 1.0, routes=(Route((0, 1), (1.0, 1.0)),)))
+    return Network("two big links", sites, links, ds)
+
+
+def _states_by_formula(cap):
+    # states (x, y, z) >= 0 with x + z <= cap and y + z <= cap: sum over z of (cap - z + 1)^2
+    # (counted here in closed form: sum of squares 1..cap+1, Faulhaber)
+    m = cap + 1
+    return m * (m + 1) * (2 * m + 1) // 6
+
+
+def test_huge_state_space_is_refused_before_anything_is_built():
+    # Source: the count of states in closed form (sum of squares); before, this case tried
+    # to allocate 30.5 GiB. The estimate (Knuth 1975) must be of the right order.
+    net = _two_big_links(1_000_000)
+    with pytest.raises(ModelTooLargeError, match=r"exact: network 'two big links' has about "
+                       r"3\.\d+e\+17 states, more than the limit 200000; use method "
+                       r"'simulate'"):
+        exact(net)
+    n = count_states(net)
+    assert 0.5 < n / _states_by_formula(1_000_000) < 2
+
+
+@pytest.mark.parametrize("cap", [30, 60])
+def test_state_estimate_against_the_count(cap):
+    # Source: closed-form count (sum of squares); the estimator is unbiased (Knuth 1975),
+    # 4096 walks: within 10 % here.
+    net = _two_big_links(cap)
+    exact_n = _states_by_formula(cap)
+    assert count_states(net, limit=10**7) == exact_n  # enumerated
+    est = count_states(net, limit=100)
+    assert est == pytest.approx(exact_n, rel=0.1)
+
+
+def test_estimate_beyond_a_float_is_reported():
+    # Source: common practice, no source: an estimate too large to print as a float still
+    # gives a one-line refusal.
+    from netdim.model import Link, Site
+
+    links = tuple(Link(f"L{i}", ("A", "B"), 10**6) for i in range(60))
+    ds = tuple(Demand(f"D{i}", ("A", "B"), 1.0, routes=(Route((i,), (1.0,)),))
+               for i in range(60))
+    net = Network("wide", (Site("A"), Site("B")), links, ds)
+    with pytest.raises(ModelTooLargeError, match="has more than 1e308 states, more than the limit"):
+        exact(net)
+    assert count_states(net, limit=1000) == 10**309

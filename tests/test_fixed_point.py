@@ -447,3 +447,97 @@ def test_demand_without_route_and_unknown_policy():
     bad = replace(net, routing=Routing(policy="random"))
     with pytest.raises(ValueError, match="routing policy: unknown policy 'random'"):
         fixed_point(bad)
+
+
+# -- verdicts the figures support (issue 12) -------------------------------------------------
+NETWORKS = __import__("pathlib").Path(__file__).resolve().parent.parent / "networks"
+
+
+@pytest.mark.parametrize("tol", [1e-2, 1e-4])
+def test_loose_tolerance_is_not_bistability(tol):
+    # Source: the same equations solved from idle and from full links to tol 1e-12 agree to
+    # 1e-9 (computed here), so the network has one solution; before, tol 1e-2 and 1e-4
+    # stopped the two ends apart and printed 'bistable'.
+    from netdim.netfile import read_network
+
+    net = read_network(NETWORKS / "three-villages.yaml")
+    lo = fixed_point(net, start="idle", tol=1e-12)
+    hi = fixed_point(net, start="full", tol=1e-12)
+    assert np.max(np.abs(lo.blocking - hi.blocking)) < 1e-9
+    ev = fixed_point(net, tol=tol)
+    assert ev.status == "converged" and ev.alternative is None
+    assert not any("bistable" in w for w in ev.warnings)
+    assert np.max(np.abs(ev.blocking - lo.blocking)) < 10 * tol
+
+
+def test_bistability_survives_a_loose_tolerance():
+    # Source: Gibbens, Hunt and Kelly 1990: the mesh of test_bistability_found_and_removed_
+    # by_reservation has two solutions whose mean blockings differ a hundredfold.
+    ev = fixed_point(mesh(6, 30, 22.2, 4), tol=1e-2)
+    assert ev.status == "bistable"
+    assert ev.alternative.blocking.mean() > 100 * ev.blocking.mean()
+    warning = next(w for w in ev.warnings if "two solutions" in w)
+    assert "'alternative'" not in warning  # the text report must not point at a JSON key
+
+
+def test_tiny_route_blocking_keeps_relative_precision():
+    # Source: mpmath at 50 digits: the reduced-load equations of the two-link case
+    # (B1 = E(a + a (1 - B2), 10), B2 = E(a (1 - B1), 10), a = 0.1) iterated to convergence,
+    # route blocking 1 - (1 - B1)(1 - B2) ~ 2.3e-14. Before, route blockings were
+    # 1 - prod(1 - B) in doubles: multiples of 1.1e-16, 5e-4 off here.
+    mpmath.mp.dps = 50
+
+    def erlang(a, c):
+        terms = [a**k / mpmath.factorial(k) for k in range(c + 1)]
+        return terms[-1] / mpmath.fsum(terms)
+
+    a = mpmath.mpf("0.1")
+    b1 = b2 = mpmath.mpf(0)
+    for _ in range(20):
+        b1, b2 = erlang(a + a * (1 - b2), 10), erlang(a * (1 - b1), 10)
+    ev = fixed_point(network([10, 10], [(0.1, [[0]]), (0.1, [[0, 1]])]))
+    assert ev.blocking[0] == pytest.approx(float(b1), rel=1e-12)
+    assert ev.blocking[1] == pytest.approx(float(1 - (1 - b1) * (1 - b2)), rel=1e-12)
+
+
+# -- structure and repeated calls (issues 13, 17) ---------------------------------------------
+def test_fixed_point_object_equals_the_function():
+    # Source: FixedPoint(network)(caps) is documented to be fixed_point(network, caps).
+    from netdim.evaluate import FixedPoint
+
+    net = mesh(5, 12, 8.0, 2, reservation=1)
+    fp = FixedPoint(net)
+    for caps in ([12] * 10, [10, 14] * 5, [0] + [12] * 9):
+        a = fp(caps)
+        b = fixed_point(net, caps)
+        np.testing.assert_array_equal(a.blocking, b.blocking)
+        np.testing.assert_array_equal(a.link_offered, b.link_offered)
+        assert a.status == b.status and a.iterations == b.iterations
+    warm = fp([12] * 10, start=a)
+    assert warm.blocking == pytest.approx(fixed_point(net, [12] * 10).blocking, abs=1e-9)
+
+
+def test_prepared_arrays_are_a_frozen_dataclass_kept_on_the_network():
+    import dataclasses
+    import importlib
+
+    from netdim.evaluate._reduced_load import RouteArrays
+
+    net = mesh(4, 10, 5.0, 2)
+    arrays = RouteArrays.of(net)
+    assert dataclasses.is_dataclass(arrays) and arrays is RouteArrays.of(net)
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        arrays.n_links = 3
+    module = importlib.import_module("netdim.evaluate.fixed_point")
+    assert not [n for n in vars(module) if "CACHE" in n.upper() and not n.startswith("__")]
+
+
+def test_link_solved_state_by_state_too_large_is_refused():
+    # Source: the documented limit MAX_STATE_UNITS: a trunk-reservation link walks its
+    # occupancy states one by one (linkmodels), so 10**6 units a link is refused at once.
+    from netdim.errors import ModelTooLargeError
+
+    net = network([10**6, 10], [(1.0, [[0], [1]])], policy="alternate", reservation=1)
+    with pytest.raises(ModelTooLargeError, match="link 'L0' has 1000000 units; with trunk "
+                                                 "reservation .* more than 100000"):
+        fixed_point(net)

@@ -6,24 +6,14 @@ import json
 import sys
 import time
 
+from netdim.evaluate import COMPARE_OPTIONS, HOLDING_LAWS, METHOD_OPTIONS, METHODS
+from netdim.vocabulary import Verdict
+
 __all__ = ["register", "run"]
 
-_METHODS = ("fixed-point", "conservative", "exact", "simulate")
-_LAWS = ("exponential", "deterministic", "lognormal")
-
-# option (argparse dest) -> (keyword, methods it applies to)
-_OPTIONS = {
-    "seed": ("seed", ("simulate",)),
-    "calls": ("calls", ("simulate",)),
-    "precision": ("precision", ("simulate",)),
-    "holding_law": ("holding_law", ("simulate",)),
-    "cv": ("cv", ("simulate",)),
-    "max_states": ("max_states", ("exact",)),
-    "tol": ("tol", ("fixed-point", "conservative")),
-    "max_iter": ("max_iter", ("fixed-point",)),
-}
-# what --check passes on to the comparison
-_CHECK_OPTIONS = ("seed", "calls", "precision", "holding_law", "cv", "max_states")
+# The flags that are options of some method, by argparse dest (= the library's keyword).
+_OPTION_DESTS = ("seed", "calls", "precision", "holding_law", "cv", "max_states", "tol",
+                 "max_iter")
 
 
 def register(subparsers):
@@ -33,28 +23,33 @@ def register(subparsers):
         description="Evaluate the blocking of every demand of a network file at its "
         "capacities: by the reduced-load fixed point (default), the conservative product "
         "bound, exactly (small networks) or by simulation. Demands and links are listed "
-        "worst first. Exit 0 when every target is met, 1 when some are not (naming them on "
-        "stderr), 2 on bad input.",
+        "worst first, each demand with its verdict: met, missed, or (simulation) unclear "
+        "when the confidence interval contains the target. Exit 0 when every demand is met, "
+        "1 when some are missed or unclear (naming them on stderr), 2 on bad input or work "
+        "beyond a stated limit, 3 when a computation did not converge.",
     )
     p.add_argument("file", metavar="FILE", help="network file (YAML)")
-    p.add_argument("--method", choices=_METHODS, default=None,
+    p.add_argument("--method", choices=METHODS, default=None,
                    help="evaluation method (default fixed-point)")
     p.add_argument("--conservative", action="store_true",
                    help="same as --method conservative: un-thinned link loads (product bound)")
     p.add_argument("--json", action="store_true", help="print the result as JSON")
     p.add_argument("--csv", metavar="DIR", help="also write DIR/demands.csv and DIR/links.csv")
-    p.add_argument("--check", action="store_true",
+    p.add_argument("--check", "--compare", dest="check", action="store_true",
                    help="accuracy check: fixed point beside simulation (and exact where small)")
     g = p.add_argument_group("simulation (--method simulate, --check)")
-    g.add_argument("--seed", type=int, default=None, help="random seed (reproducible run)")
+    g.add_argument("--seed", type=int, default=None,
+                   help="random seed (reproducible run; without one a seed is drawn and "
+                   "printed)")
     g.add_argument("--calls", type=int, default=None, metavar="N",
                    help="call arrivals to simulate")
     g.add_argument("--precision", type=float, default=None, metavar="X",
                    help="simulate until every interval is narrower than X relative")
-    g.add_argument("--holding-law", choices=_LAWS, default=None,
+    g.add_argument("--holding-law", choices=HOLDING_LAWS, default=None,
                    help="law of holding times (default exponential)")
     g.add_argument("--cv", type=float, default=None,
-                   help="coefficient of variation of the lognormal law")
+                   help="coefficient of variation of the lognormal law (with --holding-law "
+                   "lognormal only)")
     g = p.add_argument_group("exact method (--method exact, --check)")
     g.add_argument("--max-states", type=int, default=None, metavar="N",
                    help="refuse networks with more states than this")
@@ -89,53 +84,78 @@ def _progress(args):
 
     def progress(fraction, message):
         now = time.monotonic()
-        if now - start < 2.0 or (now - last[0] < 2.0 and fraction < 1.0):
+        done = fraction is not None and fraction >= 1.0
+        if now - start < 2.0 or (now - last[0] < 2.0 and not done):
             return
         last[0] = now
-        print(f"netdim evaluate: {100 * fraction:.0f}% {message}", file=sys.stderr, flush=True)
+        share = "" if fraction is None else f"{100 * fraction:.0f}% "
+        print(f"netdim evaluate: {share}{message}", file=sys.stderr, flush=True)
 
     return progress
 
 
-def run(args) -> int:
-    from netdim.netfile import read_network
+def _given(args) -> list[str]:
+    return sorted(dest for dest in _OPTION_DESTS if getattr(args, dest) is not None)
 
-    method = _method(args)
-    given = {dest for dest in _OPTIONS if getattr(args, dest) is not None}
+
+def _check_flags(args, method):
+    given = _given(args)
     if args.check:
         if args.method is not None or args.conservative:
             raise ValueError("--check: compares the methods itself; leave out --method")
-        wrong = given - set(_CHECK_OPTIONS)
+        wrong = [d for d in given if d not in COMPARE_OPTIONS]
         if wrong:
-            d = sorted(wrong)[0]
-            raise ValueError(f"{_flag(d)}: does not apply to --check")
+            raise ValueError(f"{_flag(wrong[0])}: does not apply to --check")
         if args.csv:
             raise ValueError("--csv: does not apply to --check")
-    else:
-        for dest in sorted(given):
-            if method not in _OPTIONS[dest][1]:
-                ok = " or ".join(f"--method {m}" for m in _OPTIONS[dest][1])
-                raise ValueError(f"{_flag(dest)}: applies to {ok} only, not --method {method}")
+        return given
+    for dest in given:
+        if dest not in METHOD_OPTIONS[method]:
+            takers = [m for m in METHODS if dest in METHOD_OPTIONS[m]]
+            ok = " or ".join(f"--method {m}" for m in takers)
+            raise ValueError(f"{_flag(dest)}: applies to {ok} only, not --method {method}")
+    return given
+
+
+def _report_verdicts(ids, verdicts) -> int:
+    """Name the missed and the unclear demands on stderr; the exit status."""
+    n = len(ids)
+    missed = [i for i, v in zip(ids, verdicts, strict=True) if v == Verdict.MISSED.value]
+    unclear = [i for i, v in zip(ids, verdicts, strict=True) if v == Verdict.UNCLEAR.value]
+    of = f"of {n} demand{'' if n == 1 else 's'}"
+    if missed:
+        print(f"netdim evaluate: {len(missed)} {of} missed the target: {', '.join(missed)}",
+              file=sys.stderr)
+    if unclear:
+        print(f"netdim evaluate: {len(unclear)} {of} unclear (the interval contains the "
+              f"target): {', '.join(unclear)}", file=sys.stderr)
+    return 1 if missed or unclear else 0
+
+
+def run(args) -> int:
+    # imported when the command runs: other sub-commands need not load the report modules
+    from netdim.evaluate import compare_methods, evaluate
+    from netdim.netfile import read_network
+    from netdim.report.comparison import comparison_text
+    from netdim.report.evaluation import evaluation_text, write_csv
+
+    method = _method(args)
+    given = _check_flags(args, method)
     network = read_network(args.file)
+    opts = {dest: getattr(args, dest) for dest in given}
 
     if args.check:
-        from netdim.evaluate.compare import compare_methods
-        from netdim.report.comparison import comparison_text
-
-        opts = {dest: getattr(args, dest) for dest in _CHECK_OPTIONS if dest in given}
-        result = compare_methods(network, network.capacities(), progress=_progress(args),
-                                 **opts)
+        sim = {k: v for k, v in opts.items() if k != "max_states"}
+        more = {"max_states": opts["max_states"]} if "max_states" in opts else {}
+        result = compare_methods(network, network.capacities(), sim,
+                                 progress=_progress(args), **more)
         if args.json:
             print(json.dumps(result.to_dict(), indent=2))
         else:
             text = comparison_text(result)
             print(text, end="" if text.endswith("\n") else "\n")
-        return 0
+        return _report_verdicts(result.demand_ids, result.verdicts())
 
-    from netdim.evaluate import evaluate
-    from netdim.report.evaluation import evaluation_text, write_csv
-
-    opts = {_OPTIONS[dest][0]: getattr(args, dest) for dest in given}
     if method == "simulate":
         opts["progress"] = _progress(args)
     ev = evaluate(network, method=method, **opts)
@@ -146,9 +166,4 @@ def run(args) -> int:
     else:
         title = f"{network.name} ({args.file})"
         print(evaluation_text(ev, title=title), end="")
-    if not ev.all_met:
-        unmet = ev.unmet
-        print(f"netdim evaluate: {len(unmet)} of {len(ev.demand_ids)} demands miss their "
-              f"target: {', '.join(unmet)}", file=sys.stderr)
-        return 1
-    return 0
+    return _report_verdicts(ev.demand_ids, ev.verdicts())

@@ -80,20 +80,29 @@ def _pop(ht, hs, hg, n):
 
 @njit(cache=True)
 def run_chunk(
-    t, gaps, dem, draws, law, sigma,
+    t, gaps, dem, draws, law, sigma, max_groups,
     d_bw, d_rptr, n_try, r_lptr, r_links, r_w, r_gptr, g_hold, g_lptr, g_links, g_bw, res,
     free, ht, hs, hg, state,
-    arrivals, blocked, admitted, fc_att, fc_blk, alt_att, alt_blk, offered,
+    arrivals, blocked, admitted, fc_att, fc_att2, fc_blk, alt_att, alt_blk, offered,
 ):
-    """Simulate ``len(gaps)`` arrivals from time ``t``; return the time of the last one.
+    """Simulate the arrivals ``gaps``, ``dem``, ``draws`` from time ``t``.
 
-    ``state`` holds ``[heap size, next sequence number]``; ``free``, the heap and the counters
-    are updated in place. ``n_try`` is 1 under fixed routing, else the number of routes.
+    Returns ``(time of the last arrival simulated, arrivals simulated)``: fewer than
+    ``len(gaps)`` when the departure heap has no room for ``max_groups`` more entries (the
+    caller grows it and goes on from there). ``state`` holds ``[heap size, next sequence
+    number]``; ``free``, the heap and the counters are updated in place. ``n_try`` is 1
+    under fixed routing, else the number of routes. ``fc_att2`` sums the squared weights of
+    first-choice attempts (for the effective number of attempts per link).
     """
     n = state[0]
     seq = state[1]
     shift = -0.5 * sigma * sigma
+    room = len(ht) - max_groups
     for i in range(len(gaps)):
+        if n > room:
+            state[0] = n
+            state[1] = seq
+            return t, i
         t += gaps[i]
         while n > 0 and ht[0] <= t:
             g = hg[0]
@@ -117,6 +126,7 @@ def run_chunk(
                 if k == 0:
                     f = free[j] < b
                     fc_att[j] += w
+                    fc_att2[j] += w * w
                     if f:
                         fc_blk[j] += w
                 else:
@@ -152,4 +162,4 @@ def run_chunk(
             seq += 1
     state[0] = n
     state[1] = seq
-    return t
+    return t, len(gaps)

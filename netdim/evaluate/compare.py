@@ -9,20 +9,30 @@ simulation's confidence interval.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
 
+from netdim._arrays import frozen
 from netdim.errors import ModelTooLargeError
+from netdim.evaluate._network import resolve_capacities
+from netdim.evaluate.exact import exact
+from netdim.evaluate.fixed_point import fixed_point
 from netdim.evaluate.result import Evaluation
+from netdim.evaluate.simulate import SimulationOptions, simulate
+from netdim.vocabulary import Verdict
 
-__all__ = ["Comparison", "compare_methods"]
+__all__ = ["Comparison", "compare_methods", "NO_LOSS_SEEN", "NO_CALLS", "OPTIONS"]
 
+#: What :func:`compare_methods` passes on: every simulation option, and the exact method's
+#: state limit.
+OPTIONS = tuple(SimulationOptions.__dataclass_fields__) + ("max_states",)
 
-def _frozen(a, dtype=float):
-    a = np.array(a, dtype=dtype)
-    a.setflags(write=False)
-    return a
+#: Flag of a demand the simulation saw no blocked call of.
+NO_LOSS_SEEN = "no blocked calls seen"
+#: Flag of a demand no simulated call of arrived.
+NO_CALLS = "no calls simulated"
 
 
 @dataclass(frozen=True)
@@ -51,6 +61,8 @@ class Comparison:
     evaluations : dict
         The full :class:`Evaluation` of each method (``'fixed-point'``, ``'simulate'``,
         ``'exact'``).
+    offered_calls, blocked_calls : ndarray of int or None
+        Simulated calls of each demand, and how many were blocked.
     """
 
     demand_ids: tuple
@@ -64,15 +76,21 @@ class Comparison:
     exact_outside: np.ndarray | None = None
     exact_message: str = ""
     evaluations: dict = field(default_factory=dict, compare=False)
+    offered_calls: np.ndarray | None = None
+    blocked_calls: np.ndarray | None = None
 
     def __post_init__(self):
         for name in ("target", "fixed_point", "simulated", "interval"):
-            object.__setattr__(self, name, _frozen(getattr(self, name)))
-        object.__setattr__(self, "outside", _frozen(self.outside, bool))
-        if self.exact is not None:
-            object.__setattr__(self, "exact", _frozen(self.exact))
+            object.__setattr__(self, name, frozen(getattr(self, name)))
+        object.__setattr__(self, "outside", frozen(self.outside, bool))
+        for name in ("exact",):
+            if getattr(self, name) is not None:
+                object.__setattr__(self, name, frozen(getattr(self, name)))
         if self.exact_outside is not None:
-            object.__setattr__(self, "exact_outside", _frozen(self.exact_outside, bool))
+            object.__setattr__(self, "exact_outside", frozen(self.exact_outside, bool))
+        for name in ("offered_calls", "blocked_calls"):
+            if getattr(self, name) is not None:
+                object.__setattr__(self, name, frozen(getattr(self, name), np.int64))
         object.__setattr__(self, "demand_ids", tuple(self.demand_ids))
 
     @property
@@ -80,9 +98,36 @@ class Comparison:
         """Ids of the demands whose fixed-point blocking lies outside the interval."""
         return tuple(i for i, f in zip(self.demand_ids, self.outside, strict=True) if f)
 
+    @property
+    def verdict_method(self) -> str:
+        """The method the verdicts come from: ``'exact'`` where available, else
+        ``'simulate'`` (three-way, by its interval)."""
+        return "exact" if "exact" in self.evaluations else "simulate"
+
+    def verdicts(self) -> np.ndarray:
+        """Per demand, ``'met'``, ``'missed'`` or ``'unclear'`` by :attr:`verdict_method`."""
+        ev = self.evaluations.get(self.verdict_method)
+        if ev is None:
+            raise ValueError("comparison: no evaluations kept to judge by")
+        return ev.verdicts()
+
+    @property
+    def all_met(self) -> bool:
+        return bool(np.all(self.verdicts() == Verdict.MET.value))
+
+    def notes(self) -> tuple:
+        """Per demand, what the simulation could not see: :data:`NO_CALLS`,
+        :data:`NO_LOSS_SEEN` or ``''``."""
+        if self.offered_calls is None or self.blocked_calls is None:
+            return ("",) * len(self.demand_ids)
+        return tuple(NO_CALLS if n == 0 else NO_LOSS_SEEN if k == 0 else ""
+                     for n, k in zip(self.offered_calls, self.blocked_calls, strict=True))
+
     def to_dict(self) -> dict:
         """The JSON form (keys are added, never renamed)."""
         demands = []
+        verdicts = self.verdicts() if self.evaluations else None
+        notes = self.notes()
         for i, did in enumerate(self.demand_ids):
             rec = {
                 "id": did,
@@ -95,8 +140,14 @@ class Comparison:
             }
             if self.exact_outside is not None:
                 rec["exact_outside"] = bool(self.exact_outside[i])
+            if verdicts is not None:
+                rec["verdict"] = str(verdicts[i])
+            if self.blocked_calls is not None:
+                rec["offered_calls"] = int(self.offered_calls[i])
+                rec["blocked_calls"] = int(self.blocked_calls[i])
+                rec["note"] = notes[i]
             demands.append(rec)
-        return {
+        out = {
             "demands": demands,
             "confidence": float(self.confidence),
             "flagged": list(self.flagged),
@@ -104,33 +155,48 @@ class Comparison:
             "exact_message": self.exact_message,
             "methods": {k: v.to_dict() for k, v in self.evaluations.items()},
         }
+        if verdicts is not None:
+            out["verdict_method"] = self.verdict_method
+            out["all_met"] = self.all_met
+        sim = self.evaluations.get("simulate")
+        if sim is not None:
+            out["seed"] = sim.details.get("seed")
+        return out
 
 
-def compare_methods(
-    network,
-    capacities=None,
-    seed=None,
-    calls: int | None = None,
-    precision: float | None = None,
-    holding_law: str = "exponential",
-    cv: float = 1.0,
-    confidence: float = 0.95,
-    max_states: int = 200_000,
-    progress=None,
-    **simulate_options,
-) -> Comparison:
+def _options(simulation) -> SimulationOptions:
+    if simulation is None:
+        return SimulationOptions()
+    if isinstance(simulation, SimulationOptions):
+        return simulation
+    if isinstance(simulation, Mapping):
+        unknown = set(simulation) - set(SimulationOptions.__dataclass_fields__)
+        if unknown:
+            raise ValueError(
+                f"simulation: unknown option {sorted(unknown)[0]!r}; choose from "
+                f"{', '.join(SimulationOptions.__dataclass_fields__)}"
+            )
+        return SimulationOptions(**simulation)
+    raise ValueError(f"simulation: expected SimulationOptions or a dict, got {simulation!r}")
+
+
+def compare_methods(network, capacities=None, simulation=None, *, max_states: int = 200_000,
+                    progress=None) -> Comparison:
     """Evaluate a network by the fixed point, by simulation and (if small) exactly.
 
     Parameters
     ----------
     network : Network
     capacities : array_like of int, optional
-    seed, calls, precision, holding_law, cv, confidence, progress
-        Passed to :func:`netdim.evaluate.simulate.simulate`.
+    simulation : SimulationOptions or dict, optional
+        Options of the simulation (:class:`~netdim.evaluate.simulate.SimulationOptions`:
+        ``seed``, ``calls``, ``precision``, ``holding_law``, ``cv``, ``confidence``,
+        ``warmup``, ``batches``, ``max_calls``).
     max_states : int
-        Passed to :func:`netdim.evaluate.exact.exact`; a larger network gets no exact column.
-    **simulate_options
-        Further options of the simulation (``warmup``, ``batches``, ``max_calls``).
+        Passed to :func:`~netdim.evaluate.exact.exact`; a larger network gets no exact
+        column.
+    progress : callable(fraction, message), optional
+        Passed to the simulation.
 
     Returns
     -------
@@ -142,28 +208,24 @@ def compare_methods(
         Bad options or capacities.
     ConvergenceError
         The fixed point did not converge.
+    ModelTooLargeError
+        The simulation would need more arrivals than it starts on.
 
     Notes
     -----
     A flag means the fixed point and the simulation disagree by more than the simulation's
-    sampling error at level ``confidence``; with many demands a few flags can arise by chance
-    (about ``1 - confidence`` of the demands when the fixed point were exact).
+    sampling error at the level asked for; with many demands a few flags arise by chance
+    (about ``1 - confidence`` of the demands were the fixed point exact). The verdicts are
+    the exact method's where it applies, else the simulation's (three-way).
 
     References
     ----------
-    F. P. Kelly, "Blocking probabilities in large circuit-switched networks", *Adv. Appl.
-    Probab.* 18 (1986) 473-505.
+    .. [1] F. P. Kelly, "Blocking probabilities in large circuit-switched networks",
+       Adv. Appl. Probab. 18 (1986) 473-505.
     """
-    from netdim.evaluate import resolve_capacities
-    from netdim.evaluate.exact import exact
-    from netdim.evaluate.fixed_point import fixed_point
-    from netdim.evaluate.simulate import simulate
-
+    opts = _options(simulation)
     caps = resolve_capacities(network, capacities)
-    sim = simulate(
-        network, caps, seed=seed, calls=calls, precision=precision, holding_law=holding_law,
-        cv=cv, confidence=confidence, progress=progress, **simulate_options,
-    )
+    sim = simulate(network, caps, progress=progress, **opts.as_kwargs())
     fp = fixed_point(network, caps)
     evaluations: dict[str, Evaluation] = {"fixed-point": fp, "simulate": sim}
     try:
@@ -187,10 +249,12 @@ def compare_methods(
         fixed_point=fp.blocking,
         simulated=sim.blocking,
         interval=sim.blocking_interval,
-        confidence=confidence,
+        confidence=opts.confidence,
         exact=None if ex is None else ex.blocking,
         outside=outside(fp.blocking),
         exact_outside=None if ex is None else outside(ex.blocking),
         exact_message=exact_message,
         evaluations=evaluations,
+        offered_calls=sim.details.get("offered_calls"),
+        blocked_calls=sim.details.get("blocked_calls"),
     )

@@ -21,17 +21,27 @@ refuses with :class:`~netdim.errors.ModelTooLargeError`.
 
 from __future__ import annotations
 
+import math
 import warnings as _warnings
 
 import numpy as np
-from scipy import sparse
-from scipy.sparse.linalg import LinearOperator, bicgstab, spsolve
 from scipy.special import gammaln, logsumexp
 
 from netdim.errors import ConvergenceError, ModelTooLargeError
+from netdim.evaluate._network import resolve_capacities, route_groups
 from netdim.evaluate.result import Evaluation
+from netdim.vocabulary import EvaluationStatus
 
-__all__ = ["exact", "count_states", "route_groups"]
+__all__ = ["exact", "count_states", "route_groups", "OPTIONS", "SOLVERS"]
+
+#: Keyword options of :func:`exact` (the command line takes its checks from here).
+OPTIONS = ("max_states", "solver")
+#: Values of ``solver``.
+SOLVERS = ("auto", "product", "markov")
+#: Most memory the state arrays may take (states x variables and links), bytes.
+MAX_BYTES = 1 << 30
+#: Random walks of the state-count estimate (Knuth's estimator).
+_WALKS = 4096
 
 #: Balance residual (relative) above which the exact result carries a warning.
 RESIDUAL_WARN = 1e-9
@@ -39,19 +49,6 @@ RESIDUAL_WARN = 1e-9
 RESIDUAL_FAIL = 1e-5
 #: Largest chain solved by a direct sparse LU (beyond: BiCGSTAB).
 DIRECT_LIMIT = 3000
-
-
-def route_groups(route) -> list[tuple[float, tuple[int, ...]]]:
-    """Group a route's links by holding time: ``[(holding, (link, ...)), ...]``.
-
-    Links of the route with the same mean holding time are released together (one call on a
-    telephone route frees every circuit at once); links with different means are released
-    independently. Groups are in order of first appearance along the route.
-    """
-    groups: dict[float, list[int]] = {}
-    for j, h in zip(route.links, route.holdings, strict=True):
-        groups.setdefault(float(h), []).append(int(j))
-    return [(h, tuple(links)) for h, links in groups.items()]
 
 
 class _Space:
@@ -95,58 +92,77 @@ class _Space:
         return len(self.ub)
 
 
+def _most(free, u, bound):
+    """Per partial state, the most calls of a variable with usage ``u`` that still fit."""
+    held = np.flatnonzero(u > 0)
+    most = np.min(free[:, held] // u[held], axis=1) if len(held) else np.zeros(len(free),
+                                                                                np.int64)
+    return np.minimum(most, bound)
+
+
 def _expand(usage, caps, ub, limit, rng=None):
     """All count vectors ``n >= 0`` with ``n @ usage <= caps`` (and ``n <= ub``).
 
-    Returns the states (int array, one row per state), or, when the count would pass
-    ``limit``, ``(None, estimate)`` where the estimate comes from finishing the enumeration
-    on a weighted random sample of the partial states (Knuth's estimator of a tree's size).
+    Returns ``(states, count)``: the states (int array, one row per state), or, as soon as
+    the count would pass ``limit`` or the arrays ``MAX_BYTES``, ``(None, estimate)``. Nothing
+    larger than the limit is ever built: the estimate comes from random walks down the
+    rest of the enumeration tree (Knuth's estimator, see :func:`_estimate`).
     """
     n_vars, n_links = usage.shape
     states = np.zeros((1, 0), dtype=np.int32)
     free = caps[None, :].copy()
-    weights = None  # None: exact mode; array: estimation mode
     for v in range(n_vars):
         u = usage[v]
-        held = np.flatnonzero(u > 0)
-        if len(held):
-            most = np.min(free[:, held] // u[held], axis=1)
-        else:
-            most = np.full(len(free), 0)
-        most = np.minimum(most, ub[v])
-        counts = most + 1
-        if weights is None and int(counts.sum()) > limit:
-            weights = np.ones(len(free))
-            rng = np.random.default_rng(12345) if rng is None else rng
+        counts = _most(free, u, ub[v]) + 1
+        total = int(counts.sum())
+        if total > limit or total * (4 * n_vars + 8 * n_links) > MAX_BYTES:
+            return None, _estimate(usage[v:], free, ub[v:], rng)
         rep = np.repeat(np.arange(len(free)), counts)
         starts = np.repeat(np.cumsum(counts) - counts, counts)
         vals = (np.arange(len(rep)) - starts).astype(np.int64)
-        if weights is not None:
-            w = weights[rep]
-            keep = 4096
-            if len(rep) > keep:
-                pick = rng.choice(len(rep), size=keep, p=w / w.sum())
-                total = w.sum()
-                rep, vals = rep[pick], vals[pick]
-                w = np.full(keep, total / keep)
-            weights = w
-            free = free[rep] - vals[:, None] * u[None, :]
-            continue
         states = np.concatenate([states[rep], vals[:, None].astype(np.int32)], axis=1)
         free = free[rep] - vals[:, None] * u[None, :]
-    if weights is not None:
-        return None, float(weights.sum())
     return states, len(states)
 
 
-def count_states(network, capacities=None, limit=10**7) -> int:
-    """Number of states the exact method would use (an estimate when above ``limit``)."""
-    from netdim.evaluate import resolve_capacities
+def _estimate(usage, free, ub, rng=None) -> float:
+    """Number of completions of the partial states ``free``, estimated without building them.
 
+    Each walk starts from a partial state drawn at random and picks, variable by variable,
+    a count uniformly among those that fit; the product of the numbers of choices along
+    the walk is an unbiased estimate of the leaves below its start [1]_. Summed in logs, so
+    the estimate may exceed any float (then ``inf``).
+
+    References
+    ----------
+    .. [1] D. E. Knuth, "Estimating the efficiency of backtrack programs", Math. Comp. 29
+       (1975) 121-136.
+    """
+    rng = np.random.default_rng(12345) if rng is None else rng
+    f = free[rng.integers(len(free), size=_WALKS)].astype(np.int64)
+    logw = np.full(_WALKS, math.log(len(free)))
+    for v in range(len(usage)):
+        most = _most(f, usage[v], ub[v])
+        logw += np.log1p(most.astype(float))
+        f -= rng.integers(0, most + 1)[:, None] * usage[v][None, :]
+    log_n = float(logsumexp(logw) - math.log(_WALKS))
+    return math.exp(log_n) if log_n < 709.0 else math.inf
+
+
+def _count_text(n: float) -> str:
+    return f"about {n:.3g}" if math.isfinite(n) else "more than 1e308"
+
+
+def count_states(network, capacities=None, limit=10**7) -> int:
+    """Number of states the exact method would use (an estimate when above ``limit``).
+
+    Nothing larger than ``limit`` states is built; an estimate too large for a float is
+    returned as ``10**309``.
+    """
     caps = resolve_capacities(network, capacities)
     space = _Space(network, caps, _product_form_applies(network))
     states, n = _expand(space.usage, caps, space.ub, limit)
-    return int(round(n))
+    return int(round(n)) if math.isfinite(n) else 10**309
 
 
 def _product_form_applies(network) -> bool:
@@ -175,6 +191,9 @@ def _encode(states, ub):
 
 def _generator(space, states, keys, strides):
     """Sparse generator matrix Q (rates per hour) of the chain over ``states``."""
+    # scipy.sparse takes about 0.2 s to import: only the Markov chain needs it
+    from scipy import sparse
+
     net = space.network
     order = np.argsort(keys)
     sorted_keys = keys[order]
@@ -245,6 +264,9 @@ def _solve_chain(q, out):
     chains and by BiCGSTAB with a Jacobi preconditioner for larger ones (a direct sparse LU
     of a many-dimensional chain fills in badly). Returns ``(pi, residual, iterations)``.
     """
+    # scipy.sparse.linalg takes about 0.35 s to import: only the Markov chain needs it
+    from scipy.sparse.linalg import LinearOperator, bicgstab, spsolve
+
     n = q.shape[0]
     if n == 1:
         return np.ones(1), 0.0, 0
@@ -322,7 +344,7 @@ def exact(network, capacities=None, max_states: int = 200_000, solver: str = "au
     Raises
     ------
     ModelTooLargeError
-        More than ``max_states`` states.
+        More than ``max_states`` states (or more than ``MAX_BYTES`` of state arrays).
     ConvergenceError
         The balance equations could not be solved accurately.
     ValueError
@@ -335,17 +357,33 @@ def exact(network, capacities=None, max_states: int = 200_000, solver: str = "au
     exponential holding times; under fixed routing with equal holdings the product form makes
     the answer hold for any holding-time law.
 
+    The state count is found before anything is built: enumerated up to ``max_states``,
+    beyond it estimated by random walks (Knuth's estimator [4]_).
+
     References
     ----------
-    F. P. Kelly, *Reversibility and Stochastic Networks*, Wiley 1979, ch. 8.
-    F. P. Kelly, "Loss networks", *Ann. Appl. Probab.* 1 (1991) 319-378.
-    J. S. Kaufman, "Blocking in a shared resource environment", *IEEE Trans. Commun.* 29 (1981).
-    """
-    from netdim.evaluate import resolve_capacities
+    .. [1] F. P. Kelly, *Reversibility and Stochastic Networks*, Wiley 1979, ch. 8.
+    .. [2] F. P. Kelly, "Loss networks", Ann. Appl. Probab. 1 (1991) 319-378.
+    .. [3] J. S. Kaufman, "Blocking in a shared resource environment", IEEE Trans. Commun.
+       29 (1981) 1474-1481.
+    .. [4] D. E. Knuth, "Estimating the efficiency of backtrack programs", Math. Comp. 29
+       (1975) 121-136.
 
-    if solver not in ("auto", "product", "markov"):
-        raise ValueError(f"solver: unknown solver {solver!r}; choose one of auto, product, markov")
-    if not isinstance(max_states, (int, np.integer)) or max_states < 1:
+    Examples
+    --------
+    One link of 10 circuits, 5 E: the product form gives Erlang B, E(5, 10) = 0.01838.
+
+    >>> from netdim.model import Demand, Link, Network, Route, Site
+    >>> net = Network("one", (Site("A"), Site("B")), (Link("AB", ("A", "B"), 10),),
+    ...               (Demand("AB", ("A", "B"), 5.0, routes=(Route((0,), (1.0,)),)),))
+    >>> ev = exact(net)
+    >>> round(float(ev.blocking[0]), 5), ev.details["states"]
+    (0.01838, 11)
+    """
+    if solver not in SOLVERS:
+        raise ValueError(f"solver: unknown solver {solver!r}; choose one of {', '.join(SOLVERS)}")
+    if (not isinstance(max_states, (int, np.integer)) or isinstance(max_states, bool)
+            or max_states < 1):
         raise ValueError(f"max_states: must be a positive integer, got {max_states!r}")
     caps = resolve_capacities(network, capacities)
     product = _product_form_applies(network)
@@ -359,9 +397,16 @@ def exact(network, capacities=None, max_states: int = 200_000, solver: str = "au
     space = _Space(network, caps, product)
     states, count = _expand(space.usage, caps, space.ub, int(max_states))
     if states is None:
+        if count > max_states:
+            raise ModelTooLargeError(
+                f"exact: network '{network.name}' has {_count_text(count)} states, "
+                f"more than the limit {max_states}; use method 'simulate' (or raise "
+                "max_states)"
+            )
         raise ModelTooLargeError(
-            f"exact: network '{network.name}' has about {count:.3g} states, more than the "
-            f"limit {max_states}; use method 'simulate' (or raise max_states)"
+            f"exact: network '{network.name}' has {_count_text(count)} states over "
+            f"{space.n_vars} call types, more than {MAX_BYTES >> 20} MiB of state arrays; "
+            "use method 'simulate'"
         )
     warns = []
     residual = 0.0
@@ -444,21 +489,17 @@ def _measure(network, caps, space, states, pi, residual, solver, warns, iteratio
             link_alt = np.where(alt_att > 0, alt_blk / np.where(alt_att > 0, alt_att, 1), alt_time)
         else:
             link_alt = link_b
-    return Evaluation(
+    return Evaluation.from_link_state(
+        network, caps,
         method="exact",
-        demand_ids=network.demand_ids,
-        offered=[d.traffic for d in network.demands],
+        status=EvaluationStatus.EXACT,
         blocking=np.clip(blocking, 0.0, 1.0),
-        target=[d.target for d in network.demands],
-        link_ids=network.link_ids,
-        capacity=caps,
         link_offered=offered,
         link_carried=pi @ occ,
         link_blocking=link_b,
         link_blocking_alternate=link_alt,
         iterations=int(iterations),
         residual=residual,
-        status="exact",
         message=f"exact ({solver}, {len(pi)} states)",
         warnings=tuple(warns),
         details={"states": int(len(pi)), "solver": solver},

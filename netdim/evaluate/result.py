@@ -1,4 +1,4 @@
-"""The result every evaluation method returns."""
+"""The result every evaluation method returns, and the verdict of each demand."""
 
 from __future__ import annotations
 
@@ -7,7 +7,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from netdim._arrays import frozen as _frozen
-from netdim.vocabulary import Verdict
+from netdim.evaluate._network import labels
+from netdim.vocabulary import EvaluationStatus, Verdict
 
 __all__ = ["Evaluation", "verdicts"]
 
@@ -81,8 +82,9 @@ class Evaluation:
     iterations : int
     residual : float
         Largest change at the last iteration (fixed point), balance residual (exact), or 0.
-    status : str
-        ``'converged'``, ``'exact'``, ``'simulated'`` or ``'bistable'``.
+    status : EvaluationStatus
+        ``'converged'``, ``'exact'``, ``'simulated'`` or ``'bistable'`` (a ``str`` enum,
+        :class:`~netdim.vocabulary.EvaluationStatus`).
     message : str
     warnings : tuple of str
     blocking_interval : ndarray or None, shape (n_demands, 2)
@@ -109,7 +111,7 @@ class Evaluation:
     link_blocking_alternate: np.ndarray
     iterations: int = 0
     residual: float = 0.0
-    status: str = "converged"
+    status: EvaluationStatus = EvaluationStatus.CONVERGED
     message: str = ""
     warnings: tuple = ()
     blocking_interval: np.ndarray | None = None
@@ -121,18 +123,54 @@ class Evaluation:
     def __post_init__(self):
         for name in ("offered", "blocking", "target", "link_offered", "link_carried",
                      "link_blocking", "link_blocking_alternate"):
-            object.__setattr__(self, name, _frozen(getattr(self, name)))
-        object.__setattr__(self, "capacity", _frozen(self.capacity, np.int64))
+            object.__setattr__(self, name, _read_only(getattr(self, name)))
+        object.__setattr__(self, "capacity", _read_only(self.capacity, np.int64))
         for name in ("blocking_interval", "link_blocking_interval"):
             if getattr(self, name) is not None:
-                object.__setattr__(self, name, _frozen(getattr(self, name)))
+                object.__setattr__(self, name, _read_only(getattr(self, name)))
         object.__setattr__(self, "demand_ids", tuple(self.demand_ids))
         object.__setattr__(self, "link_ids", tuple(self.link_ids))
         object.__setattr__(self, "warnings", tuple(self.warnings))
+        object.__setattr__(self, "status", EvaluationStatus(self.status))
         bad = ~np.isfinite(self.blocking)
         if bad.any():
             i = int(np.flatnonzero(bad)[0])
             raise ValueError(f"evaluation: blocking of demand '{self.demand_ids[i]}' is not finite")
+
+    @classmethod
+    def from_link_state(cls, network, capacity, *, method: str, status, blocking,
+                        link_offered, link_carried, link_blocking,
+                        link_blocking_alternate=None, **extra) -> Evaluation:
+        """The one constructor every method uses: labels, offered traffic and targets come
+        from ``network`` (memoised on it), the figures from the method.
+
+        Parameters
+        ----------
+        network : Network
+        capacity : array_like of int
+            The capacities evaluated, in link order.
+        method : str
+        status : EvaluationStatus or str
+        blocking : array_like
+            Per demand.
+        link_offered, link_carried, link_blocking : array_like
+            Per link, capacity units (see the class attributes).
+        link_blocking_alternate : array_like, optional
+            Default: ``link_blocking`` (fixed routing).
+        **extra
+            Any other field: ``iterations``, ``residual``, ``message``, ``warnings``,
+            ``blocking_interval``, ``link_blocking_interval``, ``confidence``,
+            ``alternative``, ``details``.
+        """
+        lab = labels(network)
+        return cls(
+            method=method, demand_ids=lab.demand_ids, offered=lab.offered, blocking=blocking,
+            target=lab.target, link_ids=lab.link_ids, capacity=capacity,
+            link_offered=link_offered, link_carried=link_carried, link_blocking=link_blocking,
+            link_blocking_alternate=(link_blocking if link_blocking_alternate is None
+                                     else link_blocking_alternate),
+            status=status, **extra,
+        )
 
     # -- derived figures --------------------------------------------------------------------
     @property
@@ -228,7 +266,7 @@ class Evaluation:
             "iterations": int(self.iterations),
             "residual": float(self.residual),
             "warnings": list(self.warnings),
-            "status": self.status,
+            "status": str(self.status),
             "message": self.message,
             "all_met": self.all_met,
         }
@@ -242,6 +280,15 @@ class Evaluation:
         if self.details:
             d["details"] = {k: v for k, v in self.details.items() if _jsonable(v)}
         return d
+
+
+def _read_only(a, dtype=float) -> np.ndarray:
+    """``a`` itself when it is already a read-only array of ``dtype`` that owns its data
+    (nothing can change it, e.g. the labels memoised on a network), else a frozen copy."""
+    if (isinstance(a, np.ndarray) and a.dtype == dtype and not a.flags.writeable
+            and a.base is None):
+        return a
+    return _frozen(a, dtype)
 
 
 def _jsonable(v) -> bool:

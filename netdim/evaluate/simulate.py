@@ -1,4 +1,4 @@
-"""Event-driven simulation of a loss network, with confidence intervals by batch means.
+"""Event-driven simulation of a loss network, with confidence intervals.
 
 Same semantics as every other evaluator (see :mod:`netdim.model`): Poisson arrivals per
 demand; a call of demand d on route r holds ``d.bandwidth`` units on every link of r, all
@@ -13,30 +13,29 @@ coefficient of variation, all with the route's mean), so that one can see where 
 depends on it: under fixed routing it does not (insensitivity of the product form), under
 alternate routing it may.
 
-The event loop is compiled with numba (:mod:`netdim.evaluate._simkernel`); the first call in
-a fresh install spends a few seconds compiling and caches the result on disk.
+The event loop is compiled with numba (:mod:`netdim.evaluate._simkernel`), imported on the
+first simulation only: numba takes about a second to import, which no other command should
+pay. The first run in a fresh install also spends a few seconds compiling (cached on disk).
 """
 
 from __future__ import annotations
 
 import math
+from dataclasses import asdict, dataclass
 
 import numpy as np
-from scipy import stats
 
-from netdim.evaluate import _simkernel as kern
-from netdim.evaluate.exact import route_groups
+from netdim.errors import ModelTooLargeError
+from netdim.evaluate._network import memo, resolve_capacities, route_groups
+from netdim.evaluate.intervals import batch_means, blocking_interval
 from netdim.evaluate.result import Evaluation
+from netdim.vocabulary import EvaluationStatus
 
-__all__ = ["simulate", "HOLDING_LAWS"]
+__all__ = ["simulate", "SimulationOptions", "HOLDING_LAWS", "OPTIONS", "MAX_ARRIVALS"]
 
-#: Holding-time laws understood by :func:`simulate`.
+#: Holding-time laws understood by :func:`simulate` (codes as in the kernel).
 HOLDING_LAWS = ("exponential", "deterministic", "lognormal")
-_LAW_CODE = {
-    "exponential": kern.LAW_EXPONENTIAL,
-    "deterministic": kern.LAW_DETERMINISTIC,
-    "lognormal": kern.LAW_LOGNORMAL,
-}
+_LAW_CODE = {"exponential": 0, "deterministic": 1, "lognormal": 2}
 #: Arrivals simulated when neither ``calls`` nor ``precision`` is given.
 DEFAULT_CALLS = 1_000_000
 #: Arrivals of the first stage of a ``precision`` run (when ``calls`` is not given).
@@ -45,13 +44,77 @@ PRECISION_START = 200_000
 DEFAULT_MAX_CALLS = 50_000_000
 #: Blocking below this floor is judged against the floor in ``precision`` runs.
 PRECISION_FLOOR = 1e-4
+#: Most arrivals (warm-up and run) a simulation will start on: about half an hour at the
+#: kernel's 5e5 arrivals a second.
+MAX_ARRIVALS = 1_000_000_000
 _CHUNK = 1 << 16
 
 
-class _Structure:
-    """The network as flat arrays for the kernel."""
+@dataclass(frozen=True)
+class SimulationOptions:
+    """The options of one simulation, checked once (see :func:`simulate` for each).
 
-    def __init__(self, network, caps):
+    Raises
+    ------
+    ValueError
+        An option out of range, or ``cv`` with a law other than ``'lognormal'``.
+    """
+
+    seed: object = None
+    calls: int | None = None
+    precision: float | None = None
+    holding_law: str = "exponential"
+    cv: float | None = None
+    confidence: float = 0.95
+    warmup: int | None = None
+    batches: int = 20
+    max_calls: int | None = None
+
+    def __post_init__(self):
+        if self.holding_law not in HOLDING_LAWS:
+            raise ValueError(f"holding_law: unknown law {self.holding_law!r}; choose one of "
+                             f"{', '.join(HOLDING_LAWS)}")
+        cv = self.cv
+        if cv is not None:
+            if self.holding_law != "lognormal":
+                raise ValueError(f"cv: applies to holding_law 'lognormal' only, not "
+                                 f"{self.holding_law!r} (whose coefficient of variation is "
+                                 "fixed)")
+            if not (isinstance(cv, (int, float)) and not isinstance(cv, bool)
+                    and math.isfinite(cv) and cv > 0):
+                raise ValueError(f"cv: the coefficient of variation must be > 0, got {cv!r}")
+        for name in ("calls", "max_calls"):
+            v = getattr(self, name)
+            if v is not None and (not isinstance(v, (int, np.integer)) or isinstance(v, bool)
+                                  or v <= 0):
+                raise ValueError(f"{name}: must be a positive integer, got {v!r}")
+        p = self.precision
+        if p is not None and not (isinstance(p, (int, float)) and 0 < p < 1):
+            raise ValueError(f"precision: must lie in (0, 1) (relative half-width), got {p!r}")
+        c = self.confidence
+        if not (isinstance(c, (int, float)) and 0 < c < 1):
+            raise ValueError(f"confidence: must lie in (0, 1), got {c!r}")
+        w = self.warmup
+        if w is not None and (not isinstance(w, (int, np.integer)) or isinstance(w, bool)
+                              or w < 0):
+            raise ValueError(f"warmup: must be an integer >= 0 (arrivals), got {w!r}")
+        b = self.batches
+        if not isinstance(b, (int, np.integer)) or isinstance(b, bool) or b < 2:
+            raise ValueError(f"batches: must be an integer >= 2, got {b!r}")
+
+    def as_kwargs(self) -> dict:
+        """The options as keyword arguments of :func:`simulate`."""
+        return asdict(self)
+
+
+#: Keyword options of :func:`simulate` (the command line takes its checks from here).
+OPTIONS = tuple(SimulationOptions.__dataclass_fields__) + ("progress",)
+
+
+class _Structure:
+    """The network as flat arrays for the kernel (capacity-free; memoised on the network)."""
+
+    def __init__(self, network):
         self.n_demands = len(network.demands)
         self.n_links = len(network.links)
         d_rptr, r_lptr, r_links, r_w, r_gptr = [0], [0], [], [], [0]
@@ -59,8 +122,16 @@ class _Structure:
         rates, self.route_demand = [], []
         max_groups = 1
         for d_idx, d in enumerate(network.demands):
-            rates.append(d.rate)
+            rate = d.rate
+            if not (math.isfinite(d.traffic) and d.traffic >= 0 and math.isfinite(d.holding)
+                    and d.holding > 0 and math.isfinite(rate)):
+                raise ValueError(f"demand '{d.id}': traffic {d.traffic!r} and holding "
+                                 f"{d.holding!r} must be finite, traffic >= 0, holding > 0")
+            rates.append(rate)
             for route in d.routes:
+                if not all(math.isfinite(h) and h > 0 for h in route.holdings):
+                    raise ValueError(f"demand '{d.id}': route holding times must be finite "
+                                     f"and > 0, got {list(route.holdings)}")
                 for j, h in zip(route.links, route.holdings, strict=True):
                     r_links.append(j)
                     r_w.append(d.bandwidth * h)
@@ -92,22 +163,47 @@ class _Structure:
         self.rates = np.array(rates, dtype=float)
         self.total_rate = float(self.rates.sum())
         self.cdf = np.cumsum(self.rates)
-        n_routes = len(r_lptr) - 1
-        # carried load per admitted call and hour: routes x links, bandwidth x mean holding
-        self.route_load = np.zeros((n_routes, self.n_links))
-        for r in range(n_routes):
-            for s in range(r_lptr[r], r_lptr[r + 1]):
-                self.route_load[r, r_links[s]] += r_w[s]
-        self.caps = np.asarray(caps, dtype=i64)
-        heap = int(self.caps.sum()) + 1
-        self.free = self.caps.copy()
-        self.ht = np.zeros(heap)
-        self.hs = np.zeros(heap, dtype=i64)
-        self.hg = np.zeros(heap, dtype=i64)
-        self.state = np.zeros(2, dtype=i64)
-        self.t = 0.0
+        self.n_routes = n_routes = len(r_lptr) - 1
+        # route of every step: carried load per link = sum over steps of (admitted calls of
+        # the route per hour) x bandwidth x mean holding (a dense routes x links matrix
+        # would take gigabytes on a large mesh)
+        self.step_route = np.repeat(np.arange(n_routes), np.diff(self.r_lptr))
         self.max_holding = float(self.g_hold.max()) if len(g_hold) else 1.0
-        self.n_routes = n_routes
+        self.min_holding = float(self.g_hold.min()) if len(g_hold) else 1.0
+        # calls in progress, on average, at most the offered traffic: each holds up to
+        # max_groups heap entries (the heap starts there and grows on demand)
+        self.busy_groups = float(sum(d.traffic for d in network.demands)) * max_groups
+
+
+def _initial_heap(s: _Structure, bound: int) -> int:
+    """Departure-heap entries to start with: room for 4 times the mean calls in progress."""
+    return int(min(bound, 4 * s.busy_groups + 64 * s.max_groups + 1024))
+
+
+class _State:
+    """What changes while simulating: free units, the departure heap, the clock."""
+
+    def __init__(self, s: _Structure, caps):
+        self.caps = np.asarray(caps, dtype=np.int64)
+        self.free = self.caps.copy()
+        # Entries never exceed the units in the network (each holds one or more units).
+        self.heap_bound = int(min(float(self.caps.sum(dtype=float)), 2.0**40)) + s.max_groups + 1
+        size = _initial_heap(s, self.heap_bound)
+        self.ht = np.zeros(size)
+        self.hs = np.zeros(size, dtype=np.int64)
+        self.hg = np.zeros(size, dtype=np.int64)
+        self.state = np.zeros(2, dtype=np.int64)
+        self.t = 0.0
+
+    def grow(self):
+        size = min(2 * len(self.ht), self.heap_bound)
+        if size <= len(self.ht):
+            raise AssertionError("simulate: the departure heap cannot grow past its bound")
+        for name in ("ht", "hs", "hg"):
+            old = getattr(self, name)
+            new = np.zeros(size, dtype=old.dtype)
+            new[:len(old)] = old
+            setattr(self, name, new)
 
 
 class _Counters:
@@ -116,6 +212,7 @@ class _Counters:
         self.blocked = np.zeros(s.n_demands, dtype=np.int64)
         self.admitted = np.zeros(s.n_routes, dtype=np.int64)
         self.fc_att = np.zeros(s.n_links)
+        self.fc_att2 = np.zeros(s.n_links)
         self.fc_blk = np.zeros(s.n_links)
         self.alt_att = np.zeros(s.n_links)
         self.alt_blk = np.zeros(s.n_links)
@@ -123,73 +220,72 @@ class _Counters:
         self.hours = 0.0
 
 
-def _run(s: _Structure, c: _Counters, n_calls: int, rng, law: int, sigma: float):
+def _run(kern, s: _Structure, st: _State, c: _Counters, n_calls: int, rng, law: int,
+         sigma: float):
     """Simulate ``n_calls`` arrivals, in chunks of pre-drawn random numbers."""
     left = n_calls
-    t_start = s.t
+    t_start = st.t
     while left > 0:
         k = min(left, _CHUNK)
         gaps = rng.standard_exponential(k) / s.total_rate
         dem = np.searchsorted(s.cdf, rng.random(k) * s.total_rate, side="right")
         np.minimum(dem, s.n_demands - 1, out=dem)
-        if law == kern.LAW_EXPONENTIAL:
+        if law == _LAW_CODE["exponential"]:
             draws = rng.standard_exponential((k, s.max_groups))
-        elif law == kern.LAW_LOGNORMAL:
+        elif law == _LAW_CODE["lognormal"]:
             draws = rng.standard_normal((k, s.max_groups))
         else:
-            draws = np.zeros((1, 1))
-        s.t = kern.run_chunk(
-            s.t, gaps, dem, draws, law, sigma,
-            s.d_bw, s.d_rptr, s.n_try, s.r_lptr, s.r_links, s.r_w, s.r_gptr, s.g_hold,
-            s.g_lptr, s.g_links, s.g_bw, s.res,
-            s.free, s.ht, s.hs, s.hg, s.state,
-            c.arrivals, c.blocked, c.admitted, c.fc_att, c.fc_blk, c.alt_att, c.alt_blk,
-            c.offered,
-        )
+            draws = np.zeros((k, 1))
+        i = 0
+        while i < k:
+            st.t, done = kern.run_chunk(
+                st.t, gaps[i:], dem[i:], draws[i:], law, sigma, s.max_groups,
+                s.d_bw, s.d_rptr, s.n_try, s.r_lptr, s.r_links, s.r_w, s.r_gptr, s.g_hold,
+                s.g_lptr, s.g_links, s.g_bw, s.res,
+                st.free, st.ht, st.hs, st.hg, st.state,
+                c.arrivals, c.blocked, c.admitted, c.fc_att, c.fc_att2, c.fc_blk, c.alt_att,
+                c.alt_blk, c.offered,
+            )
+            i += int(done)
+            if i < k:
+                st.grow()
         left -= k
-    c.hours += s.t - t_start
+    c.hours += st.t - t_start
 
 
-def _check_options(holding_law, cv, calls, precision, confidence, warmup, batches, max_calls):
-    if holding_law not in HOLDING_LAWS:
-        raise ValueError(
-            f"holding_law: unknown law {holding_law!r}; choose one of {', '.join(HOLDING_LAWS)}"
-        )
-    if not (isinstance(cv, (int, float)) and math.isfinite(cv) and cv > 0):
-        raise ValueError(f"cv: the coefficient of variation must be > 0, got {cv!r}")
-    for name, v in (("calls", calls), ("max_calls", max_calls)):
-        if v is not None and (not isinstance(v, (int, np.integer)) or isinstance(v, bool)
-                              or v <= 0):
-            raise ValueError(f"{name}: must be a positive integer, got {v!r}")
-    if precision is not None and not (
-        isinstance(precision, (int, float)) and 0 < precision < 1
-    ):
-        raise ValueError(f"precision: must lie in (0, 1) (relative half-width), got {precision!r}")
-    if not (isinstance(confidence, (int, float)) and 0 < confidence < 1):
-        raise ValueError(f"confidence: must lie in (0, 1), got {confidence!r}")
-    if warmup is not None and (not isinstance(warmup, (int, np.integer)) or warmup < 0):
-        raise ValueError(f"warmup: must be an integer >= 0 (arrivals), got {warmup!r}")
-    if not isinstance(batches, (int, np.integer)) or batches < 2:
-        raise ValueError(f"batches: must be an integer >= 2, got {batches!r}")
+def _work_check(s: _Structure, warmup, run_calls):
+    """Refuse, before anything runs, a simulation whose arrivals are out of reach.
+
+    The warm-up must cover 5 of the longest mean holding times at the total arrival rate:
+    with demands whose holding times span many orders of magnitude (1e-15 h beside 1 h)
+    that is astronomically many arrivals of the fast ones.
+    """
+    total = warmup + run_calls
+    if total <= MAX_ARRIVALS:
+        return
+    if warmup > run_calls:
+        why = (f"a warm-up of {warmup:.3g}: 5 mean holding times of {s.max_holding:.3g} h at "
+               f"{s.total_rate:.3g} calls per hour in all, the shortest mean holding being "
+               f"{s.min_holding:.3g} h")
+        way = ("use method 'fixed-point' or 'exact', or simulate the fast and slow demands as "
+               "separate networks")
+    else:
+        why = f"{run_calls:.3g} calls after a warm-up of {warmup:.3g}"
+        way = "ask for fewer calls (or a smaller max_calls), or use method 'fixed-point'"
+    raise ModelTooLargeError(
+        f"simulate: the run needs about {total:.3g} arrivals ({why}), more than the limit "
+        f"{MAX_ARRIVALS:.0e}; {way}"
+    )
 
 
-def _interval(num, den, conf):
-    """Ratio estimate and Student-t half-width from per-batch numerators and denominators."""
-    num = np.asarray(num, dtype=float)
-    den = np.asarray(den, dtype=float)
-    tot_den = den.sum(axis=0)
-    est = np.divide(num.sum(axis=0), tot_den, out=np.zeros(num.shape[1]), where=tot_den > 0)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        ratios = np.where(den > 0, num / np.where(den > 0, den, 1.0), np.nan)
-    m = np.sum(np.isfinite(ratios), axis=0)
-    half = np.zeros(num.shape[1])
-    ok = m >= 2
-    if ok.any():
-        sd = np.nanstd(ratios[:, ok], axis=0, ddof=1)
-        tq = stats.t.ppf(0.5 + conf / 2, m[ok] - 1)
-        half[ok] = tq * sd / np.sqrt(m[ok])
-    half[~ok & (tot_den > 0)] = 1.0  # too few batches to judge: no interval
-    return est, half
+def _seed(seed):
+    """The seed to report, and the generator. With no seed, one is drawn (so that the run
+    can be repeated)."""
+    if seed is None:
+        seed = int(np.random.SeedSequence().entropy % (1 << 32))
+    if isinstance(seed, (int, np.integer)) and not isinstance(seed, bool):
+        return int(seed), np.random.default_rng(int(seed))
+    return None, np.random.default_rng(seed)
 
 
 def simulate(
@@ -199,7 +295,7 @@ def simulate(
     calls: int | None = None,
     precision: float | None = None,
     holding_law: str = "exponential",
-    cv: float = 1.0,
+    cv: float | None = None,
     confidence: float = 0.95,
     warmup: int | None = None,
     batches: int = 20,
@@ -215,162 +311,208 @@ def simulate(
         One per link; default: the network's capacities.
     seed : int, numpy.random.Generator or None
         Normalised once with :func:`numpy.random.default_rng`; equal seeds give equal runs.
+        None: a seed is drawn and reported (``details['seed']``), so the run can be repeated.
     calls : int, optional
         Arrivals simulated after the warm-up (default 1,000,000; with ``precision``: the
         first stage, default 200,000).
     precision : float in (0, 1), optional
-        Keep simulating, each stage as long as all before it, until every demand's interval
-        half-width is at most ``precision`` times its blocking estimate (estimates below
-        ``PRECISION_FLOOR`` = 1e-4 are judged against the floor, so that rare blocking does
-        not demand an endless run), or until ``max_calls`` arrivals (then a warning says so).
+        Keep simulating, each stage as long as all before it, until every interval's larger
+        half (estimate to either end) is at most ``precision`` times the estimate (estimates
+        below ``PRECISION_FLOOR`` = 1e-4 are judged against the floor), or until
+        ``max_calls`` arrivals (then a warning says so). A zero-width interval never
+        counts as precise; demands that offer no traffic are left out of the test.
     holding_law : {'exponential', 'deterministic', 'lognormal'}
         Law of every holding time; its mean is the route step's holding time.
-    cv : float > 0
-        Coefficient of variation of the lognormal law (ignored by the others).
+    cv : float > 0, optional
+        Coefficient of variation of the lognormal law (default 1); refused with another law.
     confidence : float in (0, 1)
         Level of the intervals.
     warmup : int, optional
         Arrivals simulated and discarded first; default: enough for 5 of the longest mean
         holding times, at least 10% of the run and at least 1000.
     batches : int >= 2
-        Number of batch means (the run is cut into this many batches of equal arrivals;
-        a ``precision`` run adds batches of the same length).
+        Number of batch means (a ``precision`` run adds batches of the same length).
     max_calls : int, optional
         Cap of a ``precision`` run (default 50,000,000).
-    progress : callable(fraction_done, message), optional
-        Called after each batch (the command line writes it to stderr).
+    progress : callable(fraction, message), optional
+        Called after each batch; ``fraction`` of the run done (of ``max_calls`` for a
+        ``precision`` run).
 
     Returns
     -------
     Evaluation
-        ``method='simulate'``, ``status='simulated'``, with ``blocking_interval`` and
-        ``link_blocking_interval`` at level ``confidence``; ``iterations`` = batches. Link
-        figures in capacity units, each route step weighted by bandwidth x mean holding on
-        the link: ``link_offered`` = attempts whose route has room on every *other* link (the
-        reduced load of the fixed point), per hour; ``link_carried`` = admitted calls per
-        hour x bandwidth x mean holding, which is the time-average occupancy by Little's
-        law; ``link_blocking`` = share of first-choice attempts finding fewer than
-        ``bandwidth`` free units; ``link_blocking_alternate`` = share of alternate-route
-        attempts that would leave less than the reservation (``link_blocking`` under fixed
-        routing). A link no attempt reached shows 0. ``details``: ``calls``, ``warmup``,
-        ``hours``, ``batches``, ``holding_law``, ``cv``, ``half_width``.
+        ``method='simulate'``, ``status='simulated'``; ``blocking_interval`` and
+        ``link_blocking_interval`` at level ``confidence`` (see Notes); ``iterations`` =
+        batches. Link figures in capacity units, each route step weighted by bandwidth x
+        mean holding on the link: ``link_offered`` = attempts whose route has room on every
+        *other* link, per hour; ``link_carried`` = admitted calls per hour x bandwidth x
+        mean holding (the time-average occupancy, by Little's law); ``link_blocking`` =
+        share of first-choice attempts finding fewer than ``bandwidth`` free units;
+        ``link_blocking_alternate`` = share of alternate-route attempts that would leave less
+        than the reservation. ``details``: ``calls``, ``warmup``, ``hours``, ``batches``,
+        ``holding_law``, ``cv``, ``half_width`` (batch means), ``seed``, ``offered_calls``
+        and ``blocked_calls`` (per demand).
 
     Raises
     ------
     ValueError
-        Bad options (unknown holding law, cv <= 0, calls <= 0, precision outside (0, 1),
-        ...) or bad capacities.
+        Bad options (see :class:`SimulationOptions`), capacities, traffic or holding times.
+    ModelTooLargeError
+        More than ``MAX_ARRIVALS`` arrivals needed (warm-up and run), e.g. holding times
+        spanning many orders of magnitude.
 
     Notes
     -----
-    Batch means: after the warm-up the run is cut into consecutive batches; the estimate is
-    the ratio of totals and the half-width ``t_{m-1} s / sqrt(m)`` from the ``m`` batch
-    ratios (Law and Kelton, *Simulation Modeling and Analysis*, ch. 9). Blocking is call
-    congestion (blocked arrivals over arrivals).
+    Each interval is the union of the batch-means interval [1]_ and the exact binomial
+    (Clopper-Pearson) interval of the counts [2]_, so that a demand that saw no blocked call
+    in ``n`` still gets an upper limit of about ``3.7 / n`` (see
+    :mod:`netdim.evaluate.intervals`). Blocking is call congestion (blocked arrivals over
+    arrivals); a demand no call of which arrived has the interval [0, 1].
 
     References
     ----------
-    A. M. Law, W. D. Kelton, *Simulation Modeling and Analysis*, 3rd ed., McGraw-Hill 2000.
-    B. A. Sevastyanov, "An ergodic theorem for Markov processes and its application to
-    telephone systems with refusals", *Theory Probab. Appl.* 2 (1957) 104-112.
+    .. [1] A. M. Law, W. D. Kelton, *Simulation Modeling and Analysis*, 3rd ed.,
+       McGraw-Hill 2000, ch. 9.
+    .. [2] C. J. Clopper, E. S. Pearson, "The use of confidence or fiducial limits
+       illustrated in the case of the binomial", Biometrika 26 (1934) 404-413.
+    .. [3] B. A. Sevastyanov, "An ergodic theorem for Markov processes and its application
+       to telephone systems with refusals", Theory Probab. Appl. 2 (1957) 104-112.
     """
-    from netdim.evaluate import resolve_capacities
-
-    _check_options(holding_law, cv, calls, precision, confidence, warmup, batches, max_calls)
+    opts = SimulationOptions(seed=seed, calls=calls, precision=precision,
+                             holding_law=holding_law, cv=cv, confidence=confidence,
+                             warmup=warmup, batches=batches, max_calls=max_calls)
     caps = resolve_capacities(network, capacities)
-    rng = np.random.default_rng(seed)
-    law = _LAW_CODE[holding_law]
-    sigma = math.sqrt(math.log1p(cv * cv)) if law == kern.LAW_LOGNORMAL else 0.0
-    s = _Structure(network, caps)
-    n_calls = int(calls) if calls is not None else (
-        PRECISION_START if precision is not None else DEFAULT_CALLS)
-    cap = int(max_calls) if max_calls is not None else DEFAULT_MAX_CALLS
+    s = _structure(network)
+    law = _LAW_CODE[opts.holding_law]
+    cv_used = 1.0 if opts.cv is None else float(opts.cv)
+    sigma = math.sqrt(math.log1p(cv_used * cv_used)) if opts.holding_law == "lognormal" else 0.0
+    n_calls = int(opts.calls) if opts.calls is not None else (
+        PRECISION_START if opts.precision is not None else DEFAULT_CALLS)
+    cap = int(opts.max_calls) if opts.max_calls is not None else DEFAULT_MAX_CALLS
     warns = []
     if s.total_rate <= 0:
         warns.append("simulate: no demand offers traffic; nothing to simulate")
-    if warmup is None:
-        warmup = max(1000, n_calls // 10, int(5 * s.max_holding * s.total_rate))
-    batch = max(1, n_calls // batches)
+    if opts.warmup is None:
+        slow = 5.0 * s.max_holding * s.total_rate
+        need = max(1000.0, n_calls // 10, slow)
+        warm = int(min(need, 2.0 * MAX_ARRIVALS))  # int(inf) would raise
+    else:
+        need = warm = int(opts.warmup)
+    if s.total_rate > 0:
+        _work_check(s, need, cap if opts.precision is not None else n_calls)
+        covered = n_calls / s.total_rate
+        if covered < s.max_holding:
+            warns.append(f"simulate: the run covers {covered:.3g} h, less than the longest "
+                         f"mean holding time ({s.max_holding:.3g} h); its intervals may be "
+                         "too narrow; simulate more calls")
+    seed_used, rng = _seed(opts.seed)
+    batch = max(1, n_calls // opts.batches)
     per_batch = []
     if s.total_rate > 0:
-        _run(s, _Counters(s), int(warmup), rng, law, sigma)
+        # numba takes about a second to import: only a simulation pays for it
+        from netdim.evaluate import _simkernel as kern
+
+        st = _State(s, caps)
+        _run(kern, s, st, _Counters(s), warm, rng, law, sigma)
     done = 0
-    goal = batch * batches
+    goal = batch * opts.batches
+    judged = np.array([d.traffic > 0 for d in network.demands], dtype=bool)
     while s.total_rate > 0:
         while done < goal:
             c = _Counters(s)
-            _run(s, c, batch, rng, law, sigma)
+            _run(kern, s, st, c, batch, rng, law, sigma)
             per_batch.append(c)
             done += batch
             if progress is not None:
-                frac = done / goal if precision is None else min(1.0, done / cap)
+                frac = done / goal if opts.precision is None else min(1.0, done / cap)
                 progress(frac, f"simulated {done} of {goal} calls")
-        if precision is None:
+        if opts.precision is None:
             break
-        est, half = _interval([c.blocked for c in per_batch], [c.arrivals for c in per_batch],
-                              confidence)
-        if np.all(half <= precision * np.maximum(est, PRECISION_FLOOR)):
+        est, iv = _demand_interval(per_batch, opts.confidence)[:2]
+        wide = np.maximum(iv[:, 1] - est, est - iv[:, 0])
+        precise = (wide > 0) & (wide <= opts.precision * np.maximum(est, PRECISION_FLOOR))
+        if np.all(precise | ~judged):
             break
         if done >= cap:
             warns.append(
                 f"simulate: stopped at the cap of {cap} calls before every interval was "
-                f"within {precision:g} relative"
+                f"within {opts.precision:g} relative"
             )
             break
         goal = min(cap, 2 * done)
         goal = max(goal, done + batch)
-    return _result(network, caps, s, per_batch, confidence, warns, int(warmup), holding_law, cv)
+    return _result(network, caps, s, per_batch, opts, warns, warm, cv_used, seed_used)
 
 
-def _result(network, caps, s, per_batch, conf, warns, warmup, law, cv) -> Evaluation:
+def _structure(network) -> _Structure:
+    return memo(network, "evaluate.sim_structure", _Structure)
+
+
+def _demand_interval(per_batch, conf):
+    arrivals = np.array([c.arrivals for c in per_batch])
+    blocked = np.array([c.blocked for c in per_batch])
+    est, half = batch_means(blocked, arrivals, conf)
+    iv = blocking_interval(est, half, blocked.sum(axis=0), arrivals.sum(axis=0), conf)
+    return est, iv, half, arrivals.sum(axis=0), blocked.sum(axis=0)
+
+
+def _result(network, caps, s, per_batch, opts, warns, warmup, cv, seed) -> Evaluation:
     n_d, n_l = s.n_demands, s.n_links
+    conf = opts.confidence
     if per_batch:
-        est, half = _interval([c.blocked for c in per_batch], [c.arrivals for c in per_batch],
-                              conf)
-        lb, lhalf = _interval([c.fc_blk for c in per_batch], [c.fc_att for c in per_batch], conf)
-        la, _ = _interval([c.alt_blk for c in per_batch], [c.alt_att for c in per_batch], conf)
+        est, iv, half, n_arr, n_blk = _demand_interval(per_batch, conf)
+        fc_att = np.array([c.fc_att for c in per_batch])
+        lb, lhalf = batch_means([c.fc_blk for c in per_batch], fc_att, conf)
+        tot = fc_att.sum(axis=0)
+        sq = sum(c.fc_att2 for c in per_batch)
+        # Kish's effective number of attempts per link: weights are bandwidth x holding
+        n_eff = np.divide(tot * tot, sq, out=np.zeros(n_l), where=sq > 0)
+        liv = blocking_interval(lb, lhalf, lb * n_eff, n_eff, conf)
+        la, _ = batch_means([c.alt_blk for c in per_batch], [c.alt_att for c in per_batch],
+                            conf)
         hours = sum(c.hours for c in per_batch)
         admitted = sum(c.admitted for c in per_batch)
         offered = sum(c.offered for c in per_batch) / hours
-        carried = (admitted / hours) @ s.route_load
-        calls = int(sum(int(c.arrivals.sum()) for c in per_batch))
+        carried = np.bincount(s.r_links, weights=(admitted / hours)[s.step_route] * s.r_w,
+                              minlength=n_l)
+        calls = int(n_arr.sum())
     else:
         est, half = np.zeros(n_d), np.zeros(n_d)
-        lb, lhalf, la = np.zeros(n_l), np.zeros(n_l), np.zeros(n_l)
+        iv = np.column_stack([np.zeros(n_d), np.ones(n_d)])
+        n_arr = n_blk = np.zeros(n_d, dtype=np.int64)
+        lb, la = np.zeros(n_l), np.zeros(n_l)
+        liv = np.column_stack([np.zeros(n_l), np.ones(n_l)])
         offered, carried, hours, calls = np.zeros(n_l), np.zeros(n_l), 0.0, 0
     if network.routing.policy == "fixed":
         la = lb
-    lo = np.clip(est - half, 0.0, 1.0)
-    hi = np.clip(est + half, 0.0, 1.0)
-    llo = np.clip(lb - lhalf, 0.0, 1.0)
-    lhi = np.clip(lb + lhalf, 0.0, 1.0)
-    return Evaluation(
+    seed_note = f", seed {seed}" if seed is not None else ""
+    return Evaluation.from_link_state(
+        network, caps,
         method="simulate",
-        demand_ids=network.demand_ids,
-        offered=[d.traffic for d in network.demands],
+        status=EvaluationStatus.SIMULATED,
         blocking=est,
-        target=[d.target for d in network.demands],
-        link_ids=network.link_ids,
-        capacity=caps,
         link_offered=offered,
         link_carried=carried,
         link_blocking=lb,
         link_blocking_alternate=la,
         iterations=len(per_batch),
         residual=0.0,
-        status="simulated",
-        message=f"simulated {calls} calls in {len(per_batch)} batches ({law} holding times)",
+        message=(f"simulated {calls} calls in {len(per_batch)} batches ({opts.holding_law} "
+                 f"holding times{seed_note})"),
         warnings=tuple(warns),
-        blocking_interval=np.column_stack([lo, hi]),
-        link_blocking_interval=np.column_stack([llo, lhi]),
+        blocking_interval=iv,
+        link_blocking_interval=liv,
         confidence=float(conf),
         details={
             "calls": calls,
             "warmup": warmup,
             "hours": float(hours),
             "batches": len(per_batch),
-            "holding_law": law,
+            "holding_law": opts.holding_law,
             "cv": float(cv),
             "half_width": [float(h) for h in half],
+            "seed": seed,
+            "offered_calls": [int(v) for v in n_arr],
+            "blocked_calls": [int(v) for v in n_blk],
         },
     )

@@ -7,7 +7,7 @@ over up to 3 two-link routes via other sites), at a load near the 1 % targets an
 under fixed and alternate routing, it prints side by side (medians of repeats):
 
 - iterations and total time of ``fixed_point``: cold (routes flattened first) and warm (the
-  static arrays cached, as in a sizer's loop over capacities);
+  route arrays memoised on the network, as in a sizer's loop over capacities);
 - time per iteration and its ratio to the floor: one sparse product over all route steps plus
   one vectorised link-model evaluation (Erlang B, or the reservation chain under alternate
   routing) on every link;
@@ -15,6 +15,13 @@ under fixed and alternate routing, it prints side by side (medians of repeats):
   sweep, and the speed-up against it.
 
 Goals at 200 sites: within 2x of the per-iteration floor, at least 20x faster than the loop.
+
+``--repeat-calls``: the sizer's case, one network evaluated again and again from the last
+solution (``FixedPoint(network)(capacities, start=previous)``): per call, the whole time,
+the iteration's (the damped sweeps until the change is below tol, and the one sweep that
+gives the figures at the solution) and the rest (capacities, result); also
+``evaluate(network, start=previous)`` with the network's own capacities. Goal: the rest
+under 1 ms at 200 sites.
 
 ``--multirate``: also the same meshes with every third demand a 4-unit class, single-rate
 against two-class times per iteration, fixed and alternate routing (multi-rate under
@@ -37,9 +44,15 @@ import numpy as np
 from scipy import sparse
 
 from netdim.erlang import erlang_b
-from netdim.evaluate import fixed_point as fp_module
-from netdim.evaluate.fixed_point import _Problem, fixed_point
+from netdim.evaluate import FixedPoint, evaluate
+from netdim.evaluate._reduced_load import ReducedLoad, RouteArrays
+from netdim.evaluate.fixed_point import fixed_point
 from netdim.model import Demand, Link, Network, Route, Routing, Site
+
+
+def problem(net):
+    """The reduced-load equations of ``net`` at its own capacities."""
+    return ReducedLoad(RouteArrays.of(net), net.capacities())
 
 
 def mesh(n_sites, traffic, capacity, n_alt=3, policy="fixed", reservation=2):
@@ -91,27 +104,33 @@ def multirate_section(sites, repeats):
                       f"{per_it * 1e3:>8.2f} {per_it / single:>8.1f}", flush=True)
 
 
+#: The clock of every timing: wall time, or this process's CPU time (``--clock cpu``: steadier
+#: on a machine shared with other work, where waiting for a core inflates wall time).
+CLOCK = time.perf_counter
+
+
 def median_time(fn, repeats):
     times = []
     out = None
     for _ in range(repeats):
-        t0 = time.perf_counter()
+        t0 = CLOCK()
         out = fn()
-        times.append(time.perf_counter() - t0)
+        times.append(CLOCK() - t0)
     return statistics.median(times), out
 
 
 def floor_per_iteration(net, repeats):
     """One sparse product over every step plus one vectorised link-model evaluation."""
-    prob = _Problem(net, net.capacities())
-    n_steps = len(prob.step_slot)
-    m = sparse.csr_matrix((np.ones(n_steps), (prob.step_slot, np.arange(n_steps))),
-                          shape=(prob.n_slots, n_steps))
+    prob = problem(net)
+    a = prob.a
+    n_steps = len(a.step_slot)
+    m = sparse.csr_matrix((np.ones(n_steps), (a.step_slot, np.arange(n_steps))),
+                          shape=(a.n_slots, n_steps))
     x = np.random.default_rng(0).random(n_steps)
-    loads = np.asarray(m @ x).reshape(prob.n_links, prob.n_streams)
+    loads = np.asarray(m @ x).reshape(a.n_links, a.n_streams)
     caps = prob.caps
 
-    if prob.alternate:
+    if a.alternate:
         from netdim.linkmodels import reservation_link_many
 
         res = net.reservations()
@@ -191,7 +210,16 @@ def main(argv=None):
                     help="also time two call classes against one")
     ap.add_argument("--reservation-link", action="store_true",
                     help="also time the reservation link's two paths")
+    ap.add_argument("--repeat-calls", action="store_true",
+                    help="only the per-call time of repeated evaluations (a sizer's loop)")
+    ap.add_argument("--clock", choices=("wall", "cpu"), default="wall",
+                    help="time by the wall clock (default) or by this process's CPU time")
     args = ap.parse_args(argv)
+    global CLOCK
+    CLOCK = time.process_time if args.clock == "cpu" else time.perf_counter
+    if args.repeat_calls:
+        repeat_section(args.sites, max(args.repeats, 15), args.policies)
+        return
     head = (f"{'sites':>5} {'policy':>9} {'load':>5} {'links':>6} {'steps':>7} {'iter':>5} "
             f"{'cold s':>7} {'warm s':>7} {'ms/iter':>8} {'floor ms':>8} {'x floor':>7} "
             f"{'loop ms':>9} {'speed-up':>8}")
@@ -203,18 +231,18 @@ def main(argv=None):
             for label, traffic in (("near", 20.0), ("1.5x", 30.0), ("3x", 60.0)):
                 net = mesh(n, traffic, 30, policy=policy)
                 t0 = time.perf_counter()
-                fp_module._STATIC_CACHE.clear()
-                ev = fixed_point(net, start="idle")
+                ev = fixed_point(net, start="idle")  # a fresh network: nothing memoised
                 cold = time.perf_counter() - t0
                 t, ev = median_time(lambda net=net: fixed_point(net, start="idle"), args.repeats)
-                prob = _Problem(net, net.capacities())
-                zero = np.zeros((prob.n_links, prob.n_streams))
+                prob = problem(net)
+                zero = np.zeros((prob.a.n_links, prob.a.n_streams))
                 t_solve, _ = median_time(lambda p=prob, z=zero: p.solve(z, 1e-10, 1000, "b"),
                                          args.repeats)
                 per_it = t_solve / ev.iterations
                 floor = floor_per_iteration(net, args.repeats)
                 loop = loop_per_iteration(net, args.repeats)
-                print(f"{n:>5} {policy:>9} {label:>5} {prob.n_links:>6} {len(prob.step_slot):>7} "
+                a = prob.a
+                print(f"{n:>5} {policy:>9} {label:>5} {a.n_links:>6} {len(a.step_slot):>7} "
                       f"{ev.iterations:>5} {cold:>7.3f} {t:>7.3f} {per_it * 1e3:>8.2f} "
                       f"{floor * 1e3:>8.2f} {per_it / floor:>7.2f} {loop * 1e3:>9.1f} "
                       f"{loop / per_it:>8.1f}",
@@ -223,6 +251,48 @@ def main(argv=None):
         multirate_section(args.sites, args.repeats)
     if args.reservation_link:
         reservation_section(max(args.repeats, 5))
+
+
+def repeat_section(sites, repeats, policies):
+    """Per call of a sizer's loop: one network, capacities changed a little, warm start.
+
+    ``call``: ``FixedPoint(net)(trial, start=previous)``, the sizer's step. The rest (all but
+    the iteration) is measured where the iteration is shortest, so that its noise does not
+    swamp it: a call started from the solution at the same capacities (one sweep and one
+    link-model evaluation to see the change is below tol), less that iteration and the
+    sweep that gives the figures, timed alone.
+    """
+    head = (f"{'sites':>5} {'policy':>9} {'iter':>4} {'call ms':>8} {'1-iter call':>11} "
+            f"{'iteration':>9} {'rest ms':>8} {'evaluate() ms':>13}")
+    print(f"repeated calls on one network (medians of {repeats}, "
+          f"{'CPU' if CLOCK is time.process_time else 'wall'} time)")
+    print(head)
+    print("-" * len(head))
+    for n in sites:
+        for policy in policies:
+            net = mesh(n, 20.0, 30, policy=policy)
+            caps = net.capacities()
+            fp = FixedPoint(net)
+            prev = fp(caps)
+            # the sizer's trial plans differ from the last one by a module or two
+            trial = caps.copy()
+            trial[::7] += 1
+            t_call, ev = median_time(lambda fp=fp, k=trial, p=prev: fp(k, start=p), repeats)
+            sol = fp(trial, start=prev)
+            t_one, one = median_time(lambda fp=fp, k=trial, p=sol: fp(k, start=p), repeats)
+            t_eval, _ = median_time(lambda net=net, p=prev: evaluate(net, start=p), repeats)
+            prob = ReducedLoad(RouteArrays.of(net), trial)
+            state = sol.details["link_state"]
+
+            def iteration(prob=prob, state=state):
+                B, q, lq, *_ = prob.solve(state, 1e-10, 1000, "b")
+                prob.sweep(q, logq=lq)  # the figures at the solution
+
+            t_it, _ = median_time(iteration, repeats)
+            print(f"{n:>5} {policy:>9} {ev.iterations:>4} {t_call * 1e3:>8.2f} "
+                  f"{t_one * 1e3:>11.2f} {t_it * 1e3:>9.2f} {(t_one - t_it) * 1e3:>8.2f} "
+                  f"{t_eval * 1e3:>13.2f}", flush=True)
+            assert one.iterations == 1
 
 
 def reservation_section(repeats):
