@@ -39,7 +39,7 @@ from scipy import special
 from scipy.integrate import solve_ivp
 
 from netdim._arrays import frozen
-from netdim.erlang import erlang_b
+from netdim.erlang import erlang_b, log1m_erlang_b
 from netdim.errors import ConvergenceError
 from netdim.linkmodels import reservation_link_many
 from netdim.model import POLICIES, incidence
@@ -229,8 +229,12 @@ def offered_for_carried(carried, servers, guess=None, tol=1e-12, max_iter=200):
     for _ in range(max_iter):
         e = np.asarray(erlang_b(x, n), dtype=float)
         c = x * (1.0 - e)
+        near = e > 0.5
+        if near.any():
+            # 1 - E from its own accurate log: near saturation 1.0 - e cancels
+            c[near] = x[near] * np.exp(np.asarray(log1m_erlang_b(x[near], n[near]), float))
         g = c - q
-        done = np.abs(g) <= tol * q
+        done = (np.abs(g) <= tol * q) | (hi - lo <= 1e-14 * x)
         if done.all():
             out[live] = x
             return out
