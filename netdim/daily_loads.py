@@ -43,7 +43,7 @@ from netdim.erlang import erlang_b, log1m_erlang_b
 from netdim.errors import ConvergenceError
 from netdim.linkmodels import reservation_link_many
 from netdim.model import POLICIES, incidence
-from netdim.transient import day_loss, period_lengths, worst_period
+from netdim.transient import day_grid, day_loss, period_lengths, worst_period
 
 __all__ = [
     "METHODS",
@@ -56,8 +56,8 @@ __all__ = [
 
 #: Approximations of :func:`day_reduced_load`.
 METHODS = ("fpa", "mol")
-#: The one used when none is named: nearer the exact chain on a single park (see
-#: docs/measurements/daily.md).
+#: The one used when none is named, under fixed routing: nearer the exact chain on a single
+#: park (docs/measurements/daily.md). Under alternate routing only ``'mol'`` applies.
 DEFAULT_METHOD = "fpa"
 
 # Floor of 1 - B, so that a full link (capacity 0) never makes a log or a ratio blow up.
@@ -215,12 +215,19 @@ def offered_for_carried(carried, servers, guess=None, tol=1e-12, max_iter=200):
     .. [2] A. A. Messerli, "Proof of a convexity property of the Erlang B formula", Bell
        System Technical Journal 51 (1972) 951-953.
     """
+    return _invert_carried(carried, servers, guess, tol, max_iter)[0]
+
+
+def _invert_carried(carried, servers, guess=None, tol=1e-12, max_iter=200):
+    """(A, E(A, n)) of :func:`offered_for_carried`; E of the last step, so callers need no
+    second Erlang B evaluation (E = 1 where n = 0, 0 where only the carried load is 0)."""
     q_all = np.atleast_1d(np.asarray(carried, dtype=float))
     n_all = np.broadcast_to(np.asarray(servers, dtype=float), q_all.shape)
     out = np.zeros(q_all.shape)
+    e_out = np.where(n_all > 0, 0.0, 1.0)
     live = (q_all > 0) & (n_all > 0)
     if not live.any():
-        return out
+        return out, e_out
     n = n_all[live]
     q = np.minimum(q_all[live], n * (1.0 - _SATURATION))
     lo = q.copy()
@@ -237,7 +244,8 @@ def offered_for_carried(carried, servers, guess=None, tol=1e-12, max_iter=200):
         done = (np.abs(g) <= tol * q) | (hi - lo <= 1e-14 * x)
         if done.all():
             out[live] = x
-            return out
+            e_out[live] = e
+            return out, e_out
         below = g < 0
         lo = np.where(below, x, lo)
         hi = np.where(below, hi, x)
@@ -245,7 +253,7 @@ def offered_for_carried(carried, servers, guess=None, tol=1e-12, max_iter=200):
             step = x - g / ((1.0 - e) - e * (n - c))
         # outside the bracket: bisect, geometrically while the bracket spans decades
         mid = np.where(hi > 4.0 * lo, np.sqrt(lo * hi), 0.5 * (lo + hi))
-        step = np.where(np.isfinite(step) & (step > lo) & (step < hi), step, mid)
+        step = np.where(np.isfinite(step) & (step >= lo) & (step <= hi), step, mid)
         x = np.where(done, x, step)
     raise ConvergenceError(
         f"offered load for a carried load: not solved in {max_iter} steps", iterations=max_iter
@@ -340,10 +348,9 @@ class _Equations:
         """(first load, overflow load, B per link and stream) for step states ``x``."""
         if self.method == "fpa":
             carried = np.bincount(self.step_link, weights=x, minlength=self.n_links)
-            a = offered_for_carried(carried, self.caps, guess=self._guess)
+            a, e = _invert_carried(carried, self.caps, guess=self._guess)
             self._guess = a
-            b = np.asarray(erlang_b(a, self.caps), dtype=float).reshape(-1, 1)
-            return a, np.zeros(self.n_links), b
+            return a, np.zeros(self.n_links), e.reshape(-1, 1)
         loads = np.bincount(self.slot, weights=x, minlength=self.n_links * self.n_streams)
         loads = np.maximum(loads.reshape(self.n_links, self.n_streams), 0.0)
         if not self.alternate:
@@ -467,7 +474,7 @@ def _check_rates(network, rates):
 
 
 def day_reduced_load(network, rates, capacities=None, *, period=1.0, start=None,
-                     cyclic=False, method=DEFAULT_METHOD, steps_per_period=4, quantile=0.95,
+                     cyclic=False, method=None, steps_per_period=4, quantile=0.95,
                      rtol=1e-8, max_days=200, day_tol=1e-9) -> DayEvaluation:
     """Blocking of every demand over a day of varying demand, by a reduced-load ODE.
 
@@ -486,7 +493,8 @@ def day_reduced_load(network, rates, capacities=None, *, period=1.0, start=None,
     cyclic : bool
         The day repeats: start from the periodic state (days are run until the state at
         the end of the day equals the start within ``day_tol``); not with ``start``.
-    method : {'fpa', 'mol'}
+    method : {'fpa', 'mol'}, optional
+        Default :data:`DEFAULT_METHOD` under fixed routing, ``'mol'`` under alternate.
     steps_per_period : int
         Grid points per period for the occupancy curves.
     quantile : float
@@ -532,6 +540,8 @@ def day_reduced_load(network, rates, capacities=None, *, period=1.0, start=None,
     >>> int(r.peak_period[0]), round(float(r.peak_blocking[0]), 3)
     (5, 0.052)
     """
+    if method is None:
+        method = "mol" if network.routing.policy == "alternate" else DEFAULT_METHOD
     if method not in METHODS:
         raise ValueError(f"method: unknown method {method!r}; choose one of {', '.join(METHODS)}")
     caps = _capacities(network, capacities)
@@ -586,9 +596,7 @@ def day_reduced_load(network, rates, capacities=None, *, period=1.0, start=None,
     lost_fraction = np.divide(lost.sum(axis=1), tot, out=np.zeros(D), where=tot > 0)
     peak_period = np.array([worst_period(blocking[i], offered[i]) for i in range(D)],
                            dtype=np.int64)
-    times = np.concatenate([[0.0], *(
-        t0 + np.linspace(0.0, dt, steps_per_period + 1)[1:]
-        for t0, dt in zip(np.cumsum(hours) - hours, hours, strict=True))])
+    times = day_grid(hours, steps_per_period)
     a1s, means, qs, fulls = [], [], [], []
     for xg in grid:
         a1, a2, _ = eq.link_state(xg)

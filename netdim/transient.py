@@ -49,6 +49,7 @@ __all__ = [
     "day_loss",
     "day_servers",
     "period_lengths",
+    "day_grid",
     "worst_period",
 ]
 
@@ -77,42 +78,36 @@ _CYCLIC_TOL = 1e-11
 
 @dataclass(frozen=True)
 class DayLoss:
-    """Blocking and occupancy of one resource over the day.
+    """Blocking and occupancy of one resource over the day (``P`` periods, ``G`` grid times).
 
     Attributes
     ----------
     servers : int
     holding : float
         Mean holding time (hours).
-    rates, period_hours : ndarray, shape (P,)
-        Arrivals per hour and length (hours) of each period.
+    rates, period_hours, offered, lost : ndarray, shape (P,)
+        Arrivals per hour, hours, and expected arrivals offered and lost, per period.
     blocking : ndarray, shape (P,)
-        Per period, the share of time the resource is full, which a Poisson arrival sees
-        (call congestion = lost / offered when the period has arrivals).
-    offered, lost : ndarray, shape (P,)
-        Expected arrivals offered and lost in each period.
-    peak_blocking : float
-    peak_period : int
-        Worst period (0-based) among those with arrivals (among all if none has any).
+        Share of each period the resource is full: what a Poisson arrival sees there, so
+        ``lost / offered`` in a period with arrivals.
+    peak_blocking, peak_period : float, int
+        The worst period (0-based) among those with arrivals (among all if none has any).
     lost_fraction : float
         Share of the day's arrivals lost (0 when nothing arrives).
     occupancy_period_mean : ndarray, shape (P,)
-        Time-average number of busy units in each period.
+        Time-average busy units per period.
     times : ndarray, shape (G,)
-        Grid, hours from the start of the day (period ends included).
-    occupancy_mean, full_probability : ndarray, shape (G,)
-        Mean busy units and probability that every unit is busy at each grid time.
-    occupancy_quantile : ndarray of int, shape (G,)
-        The ``quantile`` point of the number of busy units at each grid time.
+        Hours from the start of the day, ``steps_per_period`` per period, 0 included.
+    occupancy_mean, full_probability, occupancy_quantile : ndarray, shape (G,)
+        Mean busy units, P(every unit busy) and the ``quantile`` point of busy units.
     quantile : float
     peak_occupancy, peak_time : float
-        Largest mean occupancy on the grid and when it occurs.
+        The largest mean occupancy on the grid and when.
     start, end : ndarray, shape (n + 1,)
-        Distribution of busy units at the start and at the end of the day.
+        Distribution of busy units at the start and the end of the day.
     cyclic : bool
-        True when ``start`` is the periodic state (equal to ``end`` within ``residual``).
     residual : float
-        ``||end - start||_1`` for a cyclic day; 0 otherwise.
+        Cyclic day: ``||end - start||_1``; 0 otherwise.
     method : str
     """
 
@@ -181,17 +176,11 @@ class DaySizing:
 
     Attributes
     ----------
-    servers : int
-    target : float
-    target_basis : {'peak', 'day'}
-    result : DayLoss
-        The day at ``servers``.
-    below : DayLoss or None
-        The day at ``servers - 1`` (which misses the target); None at the lower limit.
-    busy_hour_traffic : float
-        Largest rate times the holding time (erlangs).
-    busy_hour_servers : int
-        Erlang B's size for ``busy_hour_traffic`` at ``target``, for comparison.
+    servers, target, target_basis : int, float, {'peak', 'day'}
+    result, below : DayLoss, DayLoss or None
+        The day at ``servers``, and at ``servers - 1`` (None at the lower limit).
+    busy_hour_traffic, busy_hour_servers : float, int
+        Largest rate times holding time (erlangs) and Erlang B's size for it at ``target``.
     evaluations : int
         Days computed by the search.
     """
@@ -247,6 +236,13 @@ def period_lengths(period, n_periods: int) -> np.ndarray:
     if bad.any():
         raise ValueError(f"period: must be a number of hours > 0, got {float(arr[bad][0])!r}")
     return arr
+
+
+def day_grid(hours, steps: int) -> np.ndarray:
+    """Grid times (hours from the start): 0, then ``steps`` equal steps in every period."""
+    starts = np.cumsum(hours) - hours
+    return np.concatenate([[0.0], *(t0 + np.linspace(0.0, dt, steps + 1)[1:]
+                                    for t0, dt in zip(starts, hours, strict=True))])
 
 
 def worst_period(blocking, offered) -> int:
@@ -586,9 +582,7 @@ def day_loss(rates, servers, holding, period=1.0, *, start=0, cyclic=False,
     occ = states @ k
     cdf = np.cumsum(states, axis=1)
     qcurve = np.minimum(np.argmax(cdf >= quantile - 1e-12, axis=1), n)
-    times = np.concatenate([[0.0], np.repeat(np.cumsum(hours) - hours, steps)
-                            + np.tile(np.arange(1, steps + 1), lam.size)
-                            * np.repeat(hours / steps, steps)])
+    times = day_grid(hours, steps)
     # Little's law over each period: busy-unit hours = h (carried - change of the mean)
     bounds = occ[::steps]
     carried = offered - lost

@@ -63,9 +63,10 @@ def tandem(c1=10, c2=12):
 def triangle(reservation=1):
     sites = (Site("A"), Site("B"), Site("C"))
     links = (Link("AB", ("A", "B"), 10), Link("BC", ("B", "C"), 10), Link("AC", ("A", "C"), 10))
-    dem = (Demand("AB", ("A", "B"), 7.0, 1.0, routes=(Route((0,), (1.0,)), Route((2, 1), (1.0, 1.0)))),
-           Demand("BC", ("B", "C"), 6.0, 1.0, routes=(Route((1,), (1.0,)), Route((0, 2), (1.0, 1.0)))),
-           Demand("AC", ("A", "C"), 8.0, 1.0, routes=(Route((2,), (1.0,)), Route((0, 1), (1.0, 1.0)))))
+    two = (1.0, 1.0)
+    dem = (Demand("AB", ("A", "B"), 7.0, 1.0, routes=(Route((0,), (1.0,)), Route((2, 1), two))),
+           Demand("BC", ("B", "C"), 6.0, 1.0, routes=(Route((1,), (1.0,)), Route((0, 2), two))),
+           Demand("AC", ("A", "C"), 8.0, 1.0, routes=(Route((2,), (1.0,)), Route((0, 1), two))))
     return Network("tri", sites, links, dem,
                    routing=Routing(policy="alternate", reservation=reservation))
 
@@ -322,7 +323,8 @@ def test_networks_the_methods_do_not_take():
     with pytest.raises(ValueError, match=r"demand 'W': bandwidth 2: the day methods take single"):
         day_reduced_load(multi, [[1.0]])
     with pytest.raises(ValueError, match=r"method 'fpa': fixed routing only for now; use method"):
-        day_reduced_load(triangle(), np.ones((3, 1)))
+        day_reduced_load(triangle(), np.ones((3, 1)), method="fpa")
+    assert day_reduced_load(triangle(), np.ones((3, 1))).method == "mol"
     odd = Network(net.name, net.sites, net.links, net.demands, routing=Routing(policy="random"))
     with pytest.raises(ValueError, match=r"routing policy: unknown policy 'random'"):
         day_reduced_load(odd, np.ones((3, 1)))
