@@ -10,9 +10,10 @@ Prints:
    ratios method / exact (goal: within 15 % at 70 and 76) and the times;
 2. the least size for 1 % in the worst period and for 1 % of the day's arrivals, exact and
    by each network method, against Erlang B at the busy hour;
-3. a tandem of two links with a transit demand, against its exact transient chain (every
-   route state enumerated; scipy.sparse.linalg.expm_multiply on the generator augmented
-   with one column per demand gathering its loss probability), ratios per demand;
+3. a tandem of two links with a transit demand, heavily and lightly loaded, against its
+   exact transient chain (every route state enumerated; scipy.sparse.linalg.expm_multiply
+   on the generator augmented with one column per demand gathering its loss probability),
+   ratios per demand;
 4. the exact chain's time for 100 to 1000 units and 24 or 96 periods, both solvers, from
    empty and cyclic (goal: fast enough to be the default for one resource);
 5. the network methods' time on the bundled networks (alternate routing: 'mol') and on the
@@ -152,9 +153,10 @@ def exact_network_day(net, caps, rates, hours):
     return out
 
 
-def tandem_figures(repeats):
+def tandem_figures(repeats, scale):
     print("3. Tandem A-B-C (links of 14 and 16), demands AB, BC and the transit AC, a morning")
-    print("   wave over 10 half-hour periods; exact transient chain against the two methods")
+    print(f"   wave x {scale} over 10 half-hour periods; exact transient chain against the two "
+          "methods")
     sites = (Site("A"), Site("B"), Site("C"))
     links = (Link("AB", ("A", "B"), 14), Link("BC", ("B", "C"), 16))
     net = Network("tandem", sites, links, (
@@ -163,7 +165,7 @@ def tandem_figures(repeats):
         Demand("AC", ("A", "C"), 1.0, 1.0, routes=(Route((0, 1), (1.0, 1.0)),)),
     ))
     wave = np.array([1, 3, 8, 14, 16, 14, 10, 6, 3, 1], float)
-    rates = np.vstack([wave, 0.7 * wave, 0.5 * wave])
+    rates = scale * np.vstack([wave, 0.7 * wave, 0.5 * wave])
     hours = np.full(10, 0.5)
     ex, t_ex = timed(lambda: exact_network_day(net, [14, 16], rates, hours), 1)
     offered = rates * hours
@@ -234,7 +236,8 @@ def main():
     day_loss([1.0], 2, 1.0)  # compile (or load) the numba kernel outside the timings
     print(f"Erlang B at the busy hour, 90 E, 1 %: {servers_for(90.0, 0.01)} servers\n")
     park_figures(args.repeats)
-    tandem_figures(args.repeats)
+    tandem_figures(args.repeats, 1.0)
+    tandem_figures(args.repeats, 0.5)
     speed_exact(args.repeats, args.quick)
     speed_networks(args.repeats)
 
