@@ -43,7 +43,7 @@ from netdim.erlang import erlang_b, log1m_erlang_b
 from netdim.errors import ConvergenceError
 from netdim.linkmodels import reservation_link_many
 from netdim.model import POLICIES, incidence
-from netdim.transient import day_grid, day_loss, period_lengths, worst_period
+from netdim.transient import day_grid, day_loss, offered_load, period_lengths, worst_period
 
 __all__ = [
     "METHODS",
@@ -635,28 +635,6 @@ def day_reduced_load(network, rates, capacities=None, *, period=1.0, start=None,
     )
 
 
-def _infinite_server_load(total, r, hold, n0):
-    """Mean busy units of an infinite resource on the grid (the time-varying offered load):
-    ``m(t) = m0 exp(-t/h) + lambda h (1 - exp(-t/h))`` within each period."""
-    m = float(n0) if not r.cyclic else float(r.start @ np.arange(r.start.size))
-    if r.cyclic:
-        # the periodic infinite-server load: m0 = m(T) solved in closed form (linear in m0)
-        decay = np.exp(-r.period_hours / hold)
-        gain = total * hold * (1.0 - decay)
-        keep, add = 1.0, 0.0
-        for d, g in zip(decay, gain, strict=True):
-            keep, add = keep * d, add * d + g
-        m = add / (1.0 - keep)
-    out = [m]
-    steps = (r.times.size - 1) // r.period_hours.size
-    for lam_p, dt in zip(total, r.period_hours, strict=True):
-        t = np.linspace(0.0, dt, steps + 1)[1:]
-        e = np.exp(-t / hold)
-        out.extend(m * e + lam_p * hold * (1.0 - e))
-        m = out[-1]
-    return np.array(out)
-
-
 def day_single_resource(network, rates, capacities=None, *, period=1.0, start=None,
                         cyclic=False, steps_per_period=4, quantile=0.95,
                         method="uniformization") -> DayEvaluation:
@@ -725,7 +703,8 @@ def day_single_resource(network, rates, capacities=None, *, period=1.0, start=No
         lost_fraction=frozen(np.divide(lost.sum(axis=1), tot, out=np.zeros(D), where=tot > 0)),
         link_blocking=row(r.blocking),
         times=r.times,
-        offered_load=row(_infinite_server_load(lam.sum(axis=0), r, hold, n0)),
+        offered_load=row(offered_load(lam.sum(axis=0), hold, r.period_hours, start=n0,
+                                      cyclic=cyclic, steps_per_period=steps_per_period)),
         occupancy_mean=row(r.occupancy_mean),
         full_probability=row(r.full_probability),
         occupancy_quantile=frozen(r.occupancy_quantile[None, :], dtype=np.int64),

@@ -50,6 +50,7 @@ __all__ = [
     "day_servers",
     "period_lengths",
     "day_grid",
+    "offered_load",
     "worst_period",
 ]
 
@@ -243,6 +244,36 @@ def day_grid(hours, steps: int) -> np.ndarray:
     starts = np.cumsum(hours) - hours
     return np.concatenate([[0.0], *(t0 + np.linspace(0.0, dt, steps + 1)[1:]
                                     for t0, dt in zip(starts, hours, strict=True))])
+
+
+def offered_load(rates, holding, period=1.0, *, start=0.0, cyclic=False,
+                 steps_per_period=4) -> np.ndarray:
+    """Offered traffic over the day: the mean busy units of an infinite resource.
+
+    Within a period ``m(t) = m0 exp(-t / h) + lambda h (1 - exp(-t / h))`` [1]_; from
+    ``m0 = start``, or, for a cyclic day, the ``m0`` that the day returns to (closed form).
+    On the grid of :func:`day_grid`. Its peak, not ``max(rates) * holding``, is the busy-hour
+    traffic of a varying day.
+
+    References
+    ----------
+    .. [1] D. L. Jagerman, Bell System Technical Journal 54 (1975) 625-661.
+    """
+    lam, h = _check_rates(rates), _check_holding(holding)
+    hours = period_lengths(period, lam.size)
+    decay = np.exp(-hours / h)
+    m = float(start)
+    if cyclic:
+        keep, add = 1.0, 0.0  # m(T) = keep m0 + add, linear in m0
+        for d, lam_p in zip(decay, lam, strict=True):
+            keep, add = keep * d, add * d + lam_p * h * (1.0 - d)
+        m = add / (1.0 - keep)
+    out = [m]
+    for lam_p, dt in zip(lam, hours, strict=True):
+        e = np.exp(-np.linspace(0.0, dt, steps_per_period + 1)[1:] / h)
+        out.extend(m * e + lam_p * h * (1.0 - e))
+        m = out[-1]
+    return np.array(out)
 
 
 def worst_period(blocking, offered) -> int:

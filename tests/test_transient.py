@@ -19,7 +19,14 @@ from scipy import integrate
 
 from netdim import transient
 from netdim.errors import ConvergenceError, InfeasibleError, ModelTooLargeError
-from netdim.transient import day_loss, day_servers, period_lengths, worst_period
+from netdim.transient import (
+    day_grid,
+    day_loss,
+    day_servers,
+    offered_load,
+    period_lengths,
+    worst_period,
+)
 
 # The worked example of the issue: arrivals per hour in twelve 1-h periods, mean stay 2 h.
 WAVE = [5, 10, 30, 45, 40, 30, 20, 15, 10, 5, 2, 0]
@@ -223,6 +230,23 @@ def test_occupancy_curves_against_the_matrix_exponential():
     for i in range(3):
         want = integrate.quad(mean_at, 0, 1, args=(i, states[4 * i]), epsabs=1e-11)[0]
         assert r.occupancy_period_mean[i] == pytest.approx(want, abs=1e-8)
+
+
+def test_offered_load_is_the_infinite_server_mean():
+    # m' = lambda(t) - m / h (the infinite-server mean; Jagerman 1975), solved by solve_ivp
+    rates, hours, h = [8.0, 30.0, 2.0], [1.0, 0.5, 3.0], 1.5
+    m = offered_load(rates, h, hours, start=4.0, steps_per_period=5)
+    times = day_grid(np.array(hours), 5)
+
+    def f(t, y):
+        i = min(int(np.searchsorted(np.cumsum(hours), t, side="right")), 2)
+        return [rates[i] - y[0] / h]
+
+    sol = integrate.solve_ivp(f, (0, 4.5), [4.0], t_eval=times, rtol=1e-11, atol=1e-12,
+                              max_step=0.01)
+    np.testing.assert_allclose(m, sol.y[0], rtol=1e-7)
+    cyc = offered_load(rates, h, hours, cyclic=True)
+    assert cyc[0] == pytest.approx(cyc[-1], rel=1e-12)
 
 
 def test_periods_without_arrivals_are_not_the_worst():
