@@ -12,8 +12,12 @@ blocking of the route's other links, each link's blocking from Erlang B at each 
     On one link the mean equation is exact and only the closure approximates.
 ``'mol'`` -- the modified offered load: each step's state is the load ``m`` of an
     infinite-server link, ``m' = lambda prod_{i in r, i != j} (1 - B_i) - m / h``, and
-    ``B_j = E(sum m, C_j)``. Also under alternate routing with trunk reservation (each link
-    then the reservation chain, fed by first-choice and overflow loads).
+    ``B_j = E(sum m, C_j)``.
+
+Under alternate routing with trunk reservation each link is the reservation chain fed by
+first-choice and overflow loads; ``'fpa'`` then carries both states per step: the modified
+offered loads give each link's mix of the two streams, the carried loads its level (the
+law's mean equals the carried total).
 
 With constant rates both settle on the reduced-load (Erlang fixed point) solution.
 
@@ -56,8 +60,8 @@ __all__ = [
 
 #: Approximations of :func:`day_reduced_load`.
 METHODS = ("fpa", "mol")
-#: The one used when none is named, under fixed routing: nearer the exact chain on a single
-#: park (docs/measurements/daily.md). Under alternate routing only ``'mol'`` applies.
+#: The one used when none is named: nearer the exact chain on every network measured
+#: (docs/measurements/daily.md).
 DEFAULT_METHOD = "fpa"
 
 # Floor of 1 - B, so that a full link (capacity 0) never makes a log or a ratio blow up.
@@ -260,6 +264,63 @@ def _invert_carried(carried, servers, guess=None, tol=1e-12, max_iter=200):
     )
 
 
+def _reservation_law(a1, a2, caps, thr):
+    """Occupancy law of reservation links (birth rate ``a1 + a2`` below ``thr`` busy units,
+    ``a1`` above), rows padded to the largest capacity, in log space."""
+    k = np.arange(int(caps.max()) + 1)
+    lam = np.where(k[None, :-1] < thr[:, None], (a1 + a2)[:, None], a1[:, None])
+    with np.errstate(divide="ignore"):
+        logw = np.concatenate([np.zeros((len(caps), 1)), np.cumsum(np.log(lam), axis=1)],
+                              axis=1)
+    logw -= special.gammaln(k + 1.0)[None, :]
+    logw[k[None, :] > caps[:, None]] = -np.inf
+    p = np.exp(logw - logw.max(axis=1, keepdims=True))
+    return p / p.sum(axis=1, keepdims=True)
+
+
+def _scale_to_occupancy(m1, m2, caps, thr, target, guess=None, tol=1e-12, max_iter=100):
+    """Per link the factor ``s`` whose reservation law at loads ``(s m1, s m2)`` has mean
+    ``target``, with that law's blockings (B1 = P(full), B2 = P(>= thr busy)).
+
+    The mean rises with s from 0 to the capacity, and ``d mean / d log s = variance``
+    (the weights go as ``s^k``): Newton in log s, bisecting where it leaves the bracket.
+    """
+    n = len(caps)
+    k = np.arange(int(caps.max()) + 1) if n else np.arange(1)
+    s = np.zeros(n)
+    b1, b2 = np.zeros(n), np.zeros(n)
+    live = (target > 0) & (m1 + m2 > 0) & (caps > 0)
+    if not live.any():
+        return s, b1, b2
+    cap, th, f, o = caps[live], thr[live], m1[live], m2[live]
+    q = np.minimum(target[live], cap * (1.0 - _SATURATION))
+    u = np.log(q / (f + o)) if guess is None else np.log(np.where(
+        guess[live] > 0, guess[live], q / (f + o)))
+    lo, hi = np.full(u.size, -np.inf), np.full(u.size, np.inf)
+    rows = np.arange(u.size)
+    for _ in range(max_iter):
+        x = np.exp(u)
+        p = _reservation_law(x * f, x * o, cap, th)
+        mean = p @ k
+        var = np.maximum(p @ (k * k) - mean * mean, 1e-300)
+        g = mean - q
+        done = (np.abs(g) <= tol * np.maximum(q, 1.0)) | (hi - lo <= 1e-14)
+        if done.all():
+            s[live] = x
+            b1[live] = p[rows, cap]
+            b2[live] = np.where(k[None, :] >= th[:, None], p, 0.0).sum(axis=1)
+            return s, b1, b2
+        lo = np.where(g < 0, u, lo)
+        hi = np.where(g < 0, hi, u)
+        step = u - np.clip(g / var, -5.0, 5.0)
+        inside = (step > lo) & (step < hi)
+        mid = np.where(np.isfinite(lo) & np.isfinite(hi), 0.5 * (lo + hi), step)
+        u = np.where(done, u, np.where(inside, step, mid))
+    raise ConvergenceError(
+        f"carried-load closure: the link loads were not matched in {max_iter} steps",
+        iterations=max_iter)
+
+
 # --------------------------------------------------------------------------------------------
 # link occupancy laws
 
@@ -308,12 +369,8 @@ class _Equations:
                     "single-rate networks only (every bandwidth 1) for now"
                 )
         self.alternate = policy == "alternate"
-        if self.alternate and method == "fpa":
-            raise ValueError(
-                "method 'fpa': fixed routing only for now; use method 'mol' for alternate "
-                "routing"
-            )
         self.method = method
+        self.link_ids = network.link_ids
         inc = incidence(network, first_only=not self.alternate)
         self.n_links = len(network.links)
         self.n_demands = len(network.demands)
@@ -340,12 +397,26 @@ class _Equations:
             self.n_links, dtype=np.int64)
         self.max_rank = int(self.route_rank.max()) + 1 if self.n_routes else 1
         self.rank_routes = [np.flatnonzero(self.route_rank == k) for k in range(1, self.max_rank)]
+        # fpa under alternate routing carries both the carried and the offered loads
+        self.mixed = self.alternate and method == "fpa"
+        self.n_state = self.n_steps * (2 if self.mixed else 1)
         self._guess = None
         self.calls = 0
 
     # -- link state from the step states ----------------------------------------------------
     def link_state(self, x):
         """(first load, overflow load, B per link and stream) for step states ``x``."""
+        if self.method == "fpa" and self.alternate:
+            # x = carried loads then modified offered loads, step by step: the carried
+            # total sets the level of each link's law, the offered loads its stream mix
+            c, m = x[:self.n_steps], x[self.n_steps:]
+            total = np.bincount(self.step_link, weights=c, minlength=self.n_links)
+            loads = np.bincount(self.slot, weights=m, minlength=2 * self.n_links).reshape(-1, 2)
+            scale, b1, b2 = _scale_to_occupancy(loads[:, 0], loads[:, 1], self.caps,
+                                                self.caps - self.res, total, self._guess)
+            self._guess = scale
+            b1[self.caps == 0] = b2[self.caps == 0] = 1.0
+            return scale * loads[:, 0], scale * loads[:, 1], np.column_stack([b1, b2])
         if self.method == "fpa":
             carried = np.bincount(self.step_link, weights=x, minlength=self.n_links)
             a, e = _invert_carried(carried, self.caps, guess=self._guess)
@@ -383,17 +454,22 @@ class _Equations:
         x = np.maximum(x, 0.0)
         _, _, b = self.link_state(x)
         logq, s_route, loss, reach = self.route_terms(b)
-        if self.method == "fpa":
-            inflow = np.exp(s_route[self.step_route])
+        offered = lam[self.step_demand] * reach[self.step_route]
+        if self.mixed:
+            admitted = offered * np.exp(s_route[self.step_route])
+            inflow = np.concatenate([admitted, admitted / np.exp(logq)])
+            hold = np.concatenate([self.step_hold, self.step_hold])
         else:
-            inflow = np.exp(s_route[self.step_route] - logq)
-        inflow = inflow * lam[self.step_demand] * reach[self.step_route]
-        return inflow - x / self.step_hold, self.demand_loss(loss), b[:, 0]
+            # fpa: the call must pass every link; mol: every other link of the route
+            inflow = offered * np.exp(s_route[self.step_route]
+                                      - (0.0 if self.method == "fpa" else logq))
+            hold = self.step_hold
+        return inflow - x / hold, self.demand_loss(loss), b[:, 0]
 
 
 def _solve_period(eq, x0, lam, dt, t_eval, rtol):
     """Integrate one period; the state is steps + demand loss-time + link full-time."""
-    S, D = eq.n_steps, eq.n_demands
+    S, D = eq.n_state, eq.n_demands
 
     def f(t, y):
         dx, dl, db = eq.rhs(y[:S], lam)
@@ -411,7 +487,7 @@ def _solve_period(eq, x0, lam, dt, t_eval, rtol):
 def _check_start(eq, network, start):
     x0 = np.zeros(eq.n_steps)
     if start is None:
-        return x0
+        return np.zeros(eq.n_state)
     s = np.asarray(start, dtype=float)
     if s.shape != (eq.n_demands,):
         raise ValueError(
@@ -432,7 +508,7 @@ def _check_start(eq, network, start):
             f"start: link '{network.links[j].id}': {busy[j]:g} calls in progress exceed its "
             f"capacity {int(eq.caps[j])}"
         )
-    return x0
+    return np.tile(x0, eq.n_state // eq.n_steps) if eq.n_steps else x0
 
 
 def _capacities(network, capacities):
@@ -474,14 +550,14 @@ def _check_rates(network, rates):
 
 
 def day_reduced_load(network, rates, capacities=None, *, period=1.0, start=None,
-                     cyclic=False, method=None, steps_per_period=4, quantile=0.95,
+                     cyclic=False, method=DEFAULT_METHOD, steps_per_period=4, quantile=0.95,
                      rtol=1e-8, max_days=200, day_tol=1e-9) -> DayEvaluation:
     """Blocking of every demand over a day of varying demand, by a reduced-load ODE.
 
     Parameters
     ----------
     network : Network
-        Single-rate, fixed routing (``'mol'`` also alternate routing).
+        Single-rate; fixed or alternate routing.
     rates : array_like, shape (D, P)
         Arrivals per hour of each demand in each period.
     capacities : array_like of int, optional
@@ -493,8 +569,7 @@ def day_reduced_load(network, rates, capacities=None, *, period=1.0, start=None,
     cyclic : bool
         The day repeats: start from the periodic state (days are run until the state at
         the end of the day equals the start within ``day_tol``); not with ``start``.
-    method : {'fpa', 'mol'}, optional
-        Default :data:`DEFAULT_METHOD` under fixed routing, ``'mol'`` under alternate.
+    method : {'fpa', 'mol'}
     steps_per_period : int
         Grid points per period for the occupancy curves.
     quantile : float
@@ -512,8 +587,7 @@ def day_reduced_load(network, rates, capacities=None, *, period=1.0, start=None,
     Raises
     ------
     ValueError
-        Bad rates, capacities, period, start, method or options; multi-rate demands; 'fpa'
-        with alternate routing.
+        Bad rates, capacities, period, start, method or options; multi-rate demands.
     ConvergenceError
         The ODE solver failed, or no periodic state within ``max_days``.
 
@@ -540,8 +614,6 @@ def day_reduced_load(network, rates, capacities=None, *, period=1.0, start=None,
     >>> int(r.peak_period[0]), round(float(r.peak_blocking[0]), 3)
     (5, 0.052)
     """
-    if method is None:
-        method = "mol" if network.routing.policy == "alternate" else DEFAULT_METHOD
     if method not in METHODS:
         raise ValueError(f"method: unknown method {method!r}; choose one of {', '.join(METHODS)}")
     caps = _capacities(network, capacities)
@@ -559,7 +631,7 @@ def day_reduced_load(network, rates, capacities=None, *, period=1.0, start=None,
         raise ValueError("start: a cyclic day has no start occupancy; give one or the other")
     eq = _Equations(network, caps, method)
     x = _check_start(eq, network, start)
-    S, D, L = eq.n_steps, eq.n_demands, eq.n_links
+    S, D, L = eq.n_state, eq.n_demands, eq.n_links
 
     days, residual = 0, 0.0
     if cyclic:

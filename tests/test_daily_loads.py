@@ -193,25 +193,47 @@ def test_constant_rates_settle_on_the_reduced_load_fixed_point(method):
     assert r.days >= 1 and r.residual < 1e-6
 
 
-def test_mol_alternate_routing_settles_on_the_fixed_point_with_reservation():
-    net = triangle()
+@pytest.mark.parametrize("method", daily_loads.METHODS)
+@pytest.mark.parametrize("reservation", [0, 1])
+def test_alternate_routing_settles_on_the_fixed_point_with_reservation(method, reservation):
+    net = triangle(reservation)
     want = static_fixed_point_alternate(net)
     rates = np.array([[d.rate] * 4 for d in net.demands])
-    r = day_reduced_load(net, rates, period=3.0, cyclic=True, method="mol", rtol=1e-10)
+    r = day_reduced_load(net, rates, period=3.0, cyclic=True, method=method, rtol=1e-10)
     np.testing.assert_allclose(r.blocking[:, -1], want, rtol=1e-5)
 
 
-def test_mol_alternate_routing_over_a_varying_day():
-    # overflow helps: the alternate-routed triangle loses less than the same triangle with
-    # first routes only (same day, same capacities)
-    net = triangle(reservation=0)
+@pytest.mark.parametrize("method", daily_loads.METHODS)
+def test_alternate_routes_closed_by_reservation_are_fixed_routing(method):
+    # a reservation of the whole capacity keeps every overflow call off: the day must be
+    # that of the same network routed over first routes only (the model's own identity)
+    net = triangle(reservation=10)
     rates = np.array([[1, 7, 12, 3.0], [6.0] * 4, [2, 8, 14, 1.0]])
-    alt = day_reduced_load(net, rates, method="mol")
+    alt = day_reduced_load(net, rates, method=method)
     fixed = Network(net.name, net.sites, net.links,
                     tuple(Demand(d.id, d.between, d.traffic, d.holding, routes=d.routes[:1])
                           for d in net.demands))
-    one = day_reduced_load(fixed, rates, method="mol")
-    assert np.all(alt.lost_fraction < one.lost_fraction)
+    one = day_reduced_load(fixed, rates, method=method)
+    np.testing.assert_allclose(alt.blocking, one.blocking, rtol=1e-6, atol=1e-12)
+    np.testing.assert_allclose(alt.occupancy_mean, one.occupancy_mean, rtol=1e-6, atol=1e-9)
+
+
+def test_the_reservation_law_matched_to_a_carried_total():
+    # the factor s with mean occupancy of the chain at (s f, s o) equal to the target,
+    # against the birth-death chain written out here
+    caps, res = np.array([12, 30, 8]), np.array([2, 4, 0])
+    f, o = np.array([5.0, 20.0, 1.0]), np.array([3.0, 9.0, 0.5])
+    target = np.array([9.0, 27.5, 2.0])
+    s, b1, b2 = daily_loads._scale_to_occupancy(f, o, caps, caps - res, target)
+    for j in range(3):
+        w = [1.0]
+        for k in range(1, caps[j] + 1):
+            lam = s[j] * (f[j] + o[j] if k - 1 < caps[j] - res[j] else f[j])
+            w.append(w[-1] * lam / k)
+        w = np.array(w) / sum(w)
+        assert w @ np.arange(caps[j] + 1) == pytest.approx(target[j], rel=1e-10)
+        assert b1[j] == pytest.approx(w[-1], rel=1e-9)
+        assert b2[j] == pytest.approx(w[caps[j] - res[j]:].sum(), rel=1e-9)
 
 
 # --------------------------------------------------------------------------------------------
@@ -322,9 +344,6 @@ def test_networks_the_methods_do_not_take():
                     (Demand("W", ("A", "B"), 1.0, bandwidth=2, routes=(Route((0,), (1.0,)),)),))
     with pytest.raises(ValueError, match=r"demand 'W': bandwidth 2: the day methods take single"):
         day_reduced_load(multi, [[1.0]])
-    with pytest.raises(ValueError, match=r"method 'fpa': fixed routing only for now; use method"):
-        day_reduced_load(triangle(), np.ones((3, 1)), method="fpa")
-    assert day_reduced_load(triangle(), np.ones((3, 1))).method == "mol"
     odd = Network(net.name, net.sites, net.links, net.demands, routing=Routing(policy="random"))
     with pytest.raises(ValueError, match=r"routing policy: unknown policy 'random'"):
         day_reduced_load(odd, np.ones((3, 1)))

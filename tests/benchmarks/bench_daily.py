@@ -105,43 +105,64 @@ def least_by_method(method, basis, start=60):
 
 
 def exact_network_day(net, caps, rates, hours):
-    """Exact transient chain of a small fixed-routing network (one holding time per demand).
+    """Exact transient chain of a small network (one holding time per demand).
 
-    State: calls in progress per demand. Returns blocking per demand and period.
+    State: calls in progress on every route. A call tries its demand's routes in order
+    (under fixed routing the first only); a later route is taken only while each of its
+    links has more than the link's reservation free. Returns blocking per demand and
+    period.
     """
-    routes = [d.routes[0].links for d in net.demands]
-    hold = [d.holding for d in net.demands]
-    D = len(routes)
-    ranges = [range(min(caps[j] for j in r) + 1) for r in routes]
+    alternate = net.routing.policy == "alternate"
+    res = net.reservations() if alternate else np.zeros(len(caps), dtype=int)
+    routes, owner = [], []
+    for d, dem in enumerate(net.demands):
+        for k, r in enumerate(dem.routes if alternate else dem.routes[:1]):
+            routes.append((r.links, k))
+            owner.append(d)
+    D, R = len(net.demands), len(routes)
+    hold = [net.demands[d].holding for d in owner]
+    ranges = [range(min(caps[j] for j in links) + 1) for links, _ in routes]
+    on = [[r for r in range(R) if j in routes[r][0]] for j in range(len(caps))]
     states = [s for s in itertools.product(*ranges)
-              if all(sum(s[d] for d in range(D) if j in routes[d]) <= caps[j]
-                     for j in range(len(caps)))]
+              if all(sum(s[r] for r in on[j]) <= caps[j] for j in range(len(caps)))]
     index = {s: i for i, s in enumerate(states)}
     S = len(states)
 
-    def free(s, d):
-        return all(sum(s[e] for e in range(D) if j in routes[e]) < caps[j] for j in routes[d])
+    def admit(s, d):
+        busy = [sum(s[r] for r in on[j]) for j in range(len(caps))]
+        for r in range(R):
+            if owner[r] != d:
+                continue
+            links, rank = routes[r]
+            limit = [caps[j] - (res[j] if rank > 0 else 0) for j in links]
+            if all(busy[j] < lim for j, lim in zip(links, limit, strict=True)):
+                return r
+        return None
 
-    blocked = np.array([[0.0 if free(s, d) else 1.0 for s in states] for d in range(D)])
+    choice = [[admit(s, d) for d in range(D)] for s in states]
+    blocked = np.array([[1.0 if choice[i][d] is None else 0.0 for i in range(S)]
+                        for d in range(D)])
     p = np.zeros(S)
-    p[index[(0,) * D]] = 1.0
+    p[index[(0,) * R]] = 1.0
     out = np.zeros((D, rates.shape[1]))
     for per in range(rates.shape[1]):
         rows, cols, vals = [], [], []
         for i, s in enumerate(states):
             for d in range(D):
-                if free(s, d):
+                r = choice[i][d]
+                if r is not None and rates[d, per] > 0:
                     t = list(s)
-                    t[d] += 1
+                    t[r] += 1
                     rows.append(i)
                     cols.append(index[tuple(t)])
                     vals.append(rates[d, per])
-                if s[d] > 0:
+            for r in range(R):
+                if s[r] > 0:
                     t = list(s)
-                    t[d] -= 1
+                    t[r] -= 1
                     rows.append(i)
                     cols.append(index[tuple(t)])
-                    vals.append(s[d] / hold[d])
+                    vals.append(s[r] / hold[r])
         q = sparse.csr_matrix((vals, (rows, cols)), shape=(S, S))
         q = q - sparse.diags(np.asarray(q.sum(axis=1)).ravel())
         # augmented: columns S.. S+D-1 gather P(demand d blocked)
@@ -153,21 +174,9 @@ def exact_network_day(net, caps, rates, hours):
     return out
 
 
-def tandem_figures(repeats, scale):
-    print("3. Tandem A-B-C (links of 14 and 16), demands AB, BC and the transit AC, a morning")
-    print(f"   wave x {scale} over 10 half-hour periods; exact transient chain against the two "
-          "methods")
-    sites = (Site("A"), Site("B"), Site("C"))
-    links = (Link("AB", ("A", "B"), 14), Link("BC", ("B", "C"), 16))
-    net = Network("tandem", sites, links, (
-        Demand("AB", ("A", "B"), 1.0, 1.0, routes=(Route((0,), (1.0,)),)),
-        Demand("BC", ("B", "C"), 1.0, 1.5, routes=(Route((1,), (1.5,)),)),
-        Demand("AC", ("A", "C"), 1.0, 1.0, routes=(Route((0, 1), (1.0, 1.0)),)),
-    ))
-    wave = np.array([1, 3, 8, 14, 16, 14, 10, 6, 3, 1], float)
-    rates = scale * np.vstack([wave, 0.7 * wave, 0.5 * wave])
-    hours = np.full(10, 0.5)
-    ex, t_ex = timed(lambda: exact_network_day(net, [14, 16], rates, hours), 1)
+def compare(title, net, rates, hours, repeats):
+    print(title)
+    ex, t_ex = timed(lambda: exact_network_day(net, net.capacities(), rates, hours), 1)
     offered = rates * hours
     ex_lost = (ex * offered).sum(axis=1) / offered.sum(axis=1)
     ex_peak = ex.max(axis=1)
@@ -181,6 +190,37 @@ def tandem_figures(repeats, scale):
                   f"{r.peak_blocking[d] / ex_peak[d]:>7.3f} {r.lost_fraction[d]:>9.6f} "
                   f"{ex_lost[d]:>9.6f} {r.lost_fraction[d] / ex_lost[d]:>7.3f} {t:>8.3f}")
     print()
+
+
+def two_parks(repeats, scale):
+    sites = (Site("ROAD"), Site("CAMPUS"))
+    links = (Link("NORTH", ("ROAD", "CAMPUS"), 12), Link("SOUTH", ("ROAD", "CAMPUS"), 10))
+    net = Network("two parks", sites, links, (
+        Demand("north-visitors", ("ROAD", "CAMPUS"), 1.0, 2.0,
+               routes=(Route((0,), (2.0,)), Route((1,), (2.0,)))),
+        Demand("south-visitors", ("ROAD", "CAMPUS"), 1.0, 3.0,
+               routes=(Route((1,), (3.0,)), Route((0,), (3.0,)))),
+    ), routing=Routing(policy="alternate", reservation=2))
+    wave = np.array([0.5, 2, 5, 7, 6, 4, 3, 2, 1, 0.5, 0.2, 0])
+    rates = scale * np.vstack([wave, 0.6 * wave])
+    compare(f"3b. Two parks of 12 and 10 spaces, each overflowing to the other (reservation 2),"
+            f"\n    a wave x {scale} over 12 one-hour periods; exact chain against the methods",
+            net, rates, np.ones(12), repeats)
+
+
+def tandem_figures(repeats, scale):
+    sites = (Site("A"), Site("B"), Site("C"))
+    links = (Link("AB", ("A", "B"), 14), Link("BC", ("B", "C"), 16))
+    net = Network("tandem", sites, links, (
+        Demand("AB", ("A", "B"), 1.0, 1.0, routes=(Route((0,), (1.0,)),)),
+        Demand("BC", ("B", "C"), 1.0, 1.5, routes=(Route((1,), (1.5,)),)),
+        Demand("AC", ("A", "C"), 1.0, 1.0, routes=(Route((0, 1), (1.0, 1.0)),)),
+    ))
+    wave = np.array([1, 3, 8, 14, 16, 14, 10, 6, 3, 1], float)
+    rates = scale * np.vstack([wave, 0.7 * wave, 0.5 * wave])
+    compare(f"3. Tandem A-B-C (links of 14 and 16), demands AB, BC and the transit AC, a "
+            f"morning\n   wave x {scale} over 10 half-hour periods; exact transient chain "
+            "against the two methods", net, rates, np.full(10, 0.5), repeats)
 
 
 # --------------------------------------------------------------------------------------------
@@ -238,6 +278,8 @@ def main():
     park_figures(args.repeats)
     tandem_figures(args.repeats, 1.0)
     tandem_figures(args.repeats, 0.5)
+    two_parks(args.repeats, 1.0)
+    two_parks(args.repeats, 1.6)
     speed_exact(args.repeats, args.quick)
     speed_networks(args.repeats)
 
