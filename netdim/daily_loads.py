@@ -326,27 +326,14 @@ def _scale_to_occupancy(m1, m2, caps, thr, target, guess=None, tol=1e-12, max_it
 
 
 def _occupancy(first, over, caps, res, level):
-    """Mean, ``level`` quantile and P(full) of each link's occupancy law.
-
-    The birth-death law with birth rate ``first + over`` below ``C - r`` busy units and
-    ``first`` above (``over = 0``: the truncated Poisson law of Erlang B), in log space.
-    """
-    cmax = int(caps.max()) if caps.size else 0
-    k = np.arange(cmax + 1)
-    thr = (caps - res)[:, None]
-    lam = np.where(k[None, :-1] < thr, (first + over)[:, None], first[:, None])
-    with np.errstate(divide="ignore"):
-        loglam = np.log(lam)
-    logw = np.concatenate([np.zeros((len(caps), 1)), np.cumsum(loglam, axis=1)], axis=1)
-    logw = logw - special.gammaln(k + 1.0)[None, :]
-    logw[k[None, :] > caps[:, None]] = -np.inf
-    logw -= logw.max(axis=1, keepdims=True)
-    w = np.exp(logw)
-    w /= w.sum(axis=1, keepdims=True)
-    mean = w @ k
-    qk = np.argmax(np.cumsum(w, axis=1) >= level - 1e-12, axis=1)
-    full = w[np.arange(len(caps)), caps]
-    return mean, np.minimum(qk, caps), full
+    """Mean, ``level`` quantile and P(full) of each link's occupancy law (the reservation
+    chain; ``over = 0`` or ``res = 0``: the truncated Poisson law of Erlang B)."""
+    if not caps.size:
+        return np.zeros(0), np.zeros(0, dtype=np.int64), np.zeros(0)
+    p = _reservation_law(first, over, caps, caps - res)
+    k = np.arange(p.shape[1])
+    qk = np.argmax(np.cumsum(p, axis=1) >= level - 1e-12, axis=1)
+    return p @ k, np.minimum(qk, caps), p[np.arange(len(caps)), caps]
 
 
 # --------------------------------------------------------------------------------------------
