@@ -38,6 +38,7 @@ from scipy.sparse.linalg import expm_multiply
 from netdim import read_network
 from netdim.daily_loads import day_reduced_load, day_single_resource
 from netdim.erlang import servers_for
+from netdim.evaluate import evaluate
 from netdim.model import Demand, Link, Network, Route, Routing, Site
 from netdim.transient import day_loss, day_servers
 
@@ -223,6 +224,30 @@ def tandem_figures(repeats, scale):
             "against the two methods", net, rates, np.full(10, 0.5), repeats)
 
 
+def two_parks_constant(repeats):
+    print("3c. The two parks at constant demand (0.5, 0.7, 1.0 x the wave's peak): exact chain")
+    print("    at the end of 20 hours (over 6 holding times), the static reduced-load fixed point")
+    print("    (netdim.evaluate) and the day methods on a cyclic day; ratios to the exact chain")
+    sites = (Site("ROAD"), Site("CAMPUS"))
+    links = (Link("NORTH", ("ROAD", "CAMPUS"), 12), Link("SOUTH", ("ROAD", "CAMPUS"), 10))
+    for k in (0.5, 0.7, 1.0):
+        net = Network("two parks", sites, links, (
+            Demand("north-visitors", ("ROAD", "CAMPUS"), k * 7 * 2.0, 2.0,
+                   routes=(Route((0,), (2.0,)), Route((1,), (2.0,)))),
+            Demand("south-visitors", ("ROAD", "CAMPUS"), k * 4.2 * 3.0, 3.0,
+                   routes=(Route((1,), (3.0,)), Route((0,), (3.0,)))),
+        ), routing=Routing(policy="alternate", reservation=2))
+        rates = np.array([[k * 7.0] * 20, [k * 4.2] * 20])
+        ex = exact_network_day(net, [12, 10], rates, np.ones(20))[:, -1]
+        static = evaluate(net).blocking
+        line = f"   x {k}: exact {np.round(ex, 4)}, fixed point / exact {np.round(static / ex, 3)}"
+        for m in ("fpa", "mol"):
+            r = day_reduced_load(net, rates[:, :4], period=5.0, cyclic=True, method=m)
+            line += f", {m} / exact {np.round(r.blocking[:, -1] / ex, 3)}"
+        print(line)
+    print()
+
+
 # --------------------------------------------------------------------------------------------
 # 4-5: speed
 
@@ -281,6 +306,7 @@ def main():
     tandem_figures(args.repeats, 0.5)
     two_parks(args.repeats, 1.0)
     two_parks(args.repeats, 1.6)
+    two_parks_constant(args.repeats)
     speed_exact(args.repeats, args.quick)
     speed_networks(args.repeats)
 
