@@ -23,7 +23,7 @@ import numpy as np
 import pytest
 from scipy import integrate, optimize, stats
 
-from netdim import daily_loads
+from netdim import _day_closures, daily_loads
 from netdim.daily_loads import (
     day_reduced_load,
     day_single_resource,
@@ -224,7 +224,7 @@ def test_the_reservation_law_matched_to_a_carried_total():
     caps, res = np.array([12, 30, 8]), np.array([2, 4, 0])
     f, o = np.array([5.0, 20.0, 1.0]), np.array([3.0, 9.0, 0.5])
     target = np.array([9.0, 27.5, 2.0])
-    s, b1, b2 = daily_loads._scale_to_occupancy(f, o, caps, caps - res, target)
+    s, b1, b2 = _day_closures.scale_to_occupancy(f, o, caps, caps - res, target)
     for j in range(3):
         w = [1.0]
         for k in range(1, caps[j] + 1):

@@ -17,7 +17,7 @@ import pytest
 import scipy.linalg as sl
 from scipy import integrate
 
-from netdim import transient
+from netdim import _transient_solvers, transient
 from netdim.errors import ConvergenceError, InfeasibleError, ModelTooLargeError
 from netdim.transient import (
     day_grid,
@@ -330,6 +330,6 @@ def test_too_large_and_infeasible():
 
 def test_cyclic_failure_is_reported(monkeypatch):
     # no residual is small enough under a negative tolerance: the error path must be taken
-    monkeypatch.setattr(transient, "_CYCLIC_TOL", -1.0)
+    monkeypatch.setattr(_transient_solvers, "_CYCLIC_TOL", -1.0)
     with pytest.raises(ConvergenceError, match=r"cyclic day: the periodic state was not found"):
         day_loss([1.0, 2.0], 4, 1.0, cyclic=True)
