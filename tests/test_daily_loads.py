@@ -355,6 +355,42 @@ def test_networks_the_methods_do_not_take():
         day_single_resource(mixed, np.ones((2, 1)))
 
 
+def test_single_resource_refusals():
+    net = park(5, demands=2)
+    wide = Network("p", net.sites, net.links, (
+        Demand("W", ("G", "P"), 1.0, 1.0, bandwidth=2, routes=(Route((0,), (1.0,)),)),))
+    with pytest.raises(ValueError, match=r"demand 'W': bandwidth 2: single-rate only"):
+        day_single_resource(wide, [[1.0]])
+    lost = Network("p", net.sites, net.links, (Demand("X", ("G", "P"), 1.0),))
+    with pytest.raises(ValueError, match=r"demand 'X': has no route over the link"):
+        day_single_resource(lost, [[1.0]])
+    with pytest.raises(ValueError, match=r"start: expected a whole number >= 0 of calls per"):
+        day_single_resource(net, np.ones((2, 1)), start=[1.5, 0])
+
+
+def test_zero_holding_time_is_refused():
+    net = Network("p", park(5).sites, park(5).links,
+                  (Demand("Z", ("G", "P"), 1.0, 1.0, routes=(Route((0,), (0.0,)),)),))
+    with pytest.raises(ValueError, match=r"holding: every holding time must be > 0 hours"):
+        day_reduced_load(net, [[1.0]])
+
+
+def test_solver_and_closure_failures_are_reported(monkeypatch):
+    with pytest.raises(ConvergenceError, match=r"offered load for a carried load: not solved"):
+        offered_for_carried([60.0], [70], max_iter=1)
+    with pytest.raises(ConvergenceError, match=r"carried-load closure: the link loads were not"):
+        _day_closures.scale_to_occupancy(np.array([5.0]), np.array([3.0]), np.array([12]),
+                                         np.array([10]), np.array([9.0]), max_iter=1)
+
+    class Failed:
+        success = False
+        message = "too much work"
+
+    monkeypatch.setattr(daily_loads, "solve_ivp", lambda *a, **k: Failed())
+    with pytest.raises(ConvergenceError, match=r"day equations: the ODE solver stopped: too"):
+        day_reduced_load(tandem(), np.ones((3, 2)))
+
+
 def test_cyclic_day_that_does_not_settle():
     # holding time far above the day: one day is not enough to forget the start
     with pytest.raises(ConvergenceError, match=r"cyclic day: the state still changed by"):

@@ -325,6 +325,8 @@ def test_too_large_and_infeasible():
         day_servers(WAVE, 2.0, 0.01, target_basis="hour")
     with pytest.raises(ValueError, match=r"start: sizing takes a whole number of busy units"):
         day_servers(WAVE, 2.0, 0.01, start=[1.0])
+    with pytest.raises(ValueError, match=r"max_servers: must be a whole number >= 1"):
+        day_servers(WAVE, 2.0, 0.01, max_servers=0)
     assert period_lengths(0.25, 3).tolist() == [0.25] * 3
 
 
@@ -333,3 +335,13 @@ def test_cyclic_failure_is_reported(monkeypatch):
     monkeypatch.setattr(_transient_solvers, "_CYCLIC_TOL", -1.0)
     with pytest.raises(ConvergenceError, match=r"cyclic day: the periodic state was not found"):
         day_loss([1.0, 2.0], 4, 1.0, cyclic=True)
+
+
+def test_ode_solver_failure_is_reported(monkeypatch):
+    class Failed:
+        success = False
+        message = "step size too small"
+
+    monkeypatch.setattr(_transient_solvers, "solve_ivp", lambda *a, **k: Failed())
+    with pytest.raises(ConvergenceError, match=r"the ODE solver stopped: step size too small"):
+        day_loss([1.0], 3, 1.0, method="ode")
