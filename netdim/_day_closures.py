@@ -127,18 +127,21 @@ def scale_to_occupancy(m1, m2, caps, thr, target, guess=None, tol=1e-12, max_ite
     """Per link the factor ``s`` whose reservation law at loads ``(s m1, s m2)`` has mean
     ``target``, with that law's blockings (B1 = P(full), B2 = P(>= thr busy)).
 
-    The mean rises with s from 0 to the capacity, and ``d mean / d log s = variance``
-    (the weights go as ``s^k``): Newton in log s, bisecting where it leaves the bracket.
+    The mean rises with s from 0 to the capacity (to ``thr`` without first-choice load), and
+    ``d mean / d log s = variance`` (the weights go as ``s^k``): Newton in log s, bisecting
+    where it leaves the bracket. Links with nothing to scale keep the law at 0 busy units.
     """
     n = len(caps)
-    k = np.arange(int(caps.max()) + 1) if n else np.arange(1)
     s = np.zeros(n)
-    b1, b2 = np.zeros(n), np.zeros(n)
-    live = (target > 0) & (m1 + m2 > 0) & (caps > 0)
+    # the law at 0 busy units: full only without capacity, overflow shut if thr <= 0
+    b1, b2 = (caps == 0).astype(float), (thr <= 0).astype(float)
+    reach = np.where(m1 > 0, caps, np.where(m2 > 0, np.clip(thr, 0, caps), 0))
+    live = (target > 0) & (reach > 0)
     if not live.any():
         return s, b1, b2
     cap, th, f, o = caps[live], thr[live], m1[live], m2[live]
-    q = np.minimum(target[live], cap * (1.0 - SATURATION))
+    k = np.arange(int(cap.max()) + 1)
+    q = np.minimum(target[live], reach[live] * (1.0 - SATURATION))
     u = np.log(q / (f + o)) if guess is None else np.log(np.where(
         guess[live] > 0, guess[live], q / (f + o)))
     lo, hi = np.full(u.size, -np.inf), np.full(u.size, np.inf)

@@ -200,7 +200,6 @@ class _Equations:
                 )
         self.alternate = policy == "alternate"
         self.method = method
-        self.link_ids = network.link_ids
         inc = incidence(network, first_only=not self.alternate)
         self.n_links = len(network.links)
         self.n_demands = len(network.demands)
@@ -217,7 +216,6 @@ class _Equations:
         self.step_hold = np.asarray(inc.step_factor) * holding[self.step_demand]
         if np.any(~(self.step_hold > 0)):
             raise ValueError("holding: every holding time must be > 0 hours")
-        self.first_route = np.asarray(inc.first_route)
         self.step_first = self.route_rank[self.step_route] == 0
         self.stream = (~self.step_first).astype(np.int64) if self.alternate else np.zeros(
             self.n_steps, dtype=np.int64)
@@ -231,7 +229,6 @@ class _Equations:
         self.mixed = self.alternate and method == "fpa"
         self.n_state = self.n_steps * (2 if self.mixed else 1)
         self._guess = None
-        self.calls = 0
 
     # -- link state from the step states ----------------------------------------------------
     def link_state(self, x):
@@ -280,7 +277,6 @@ class _Equations:
 
     def rhs(self, x, lam):
         """(d states / dt, demand loss probability, first-choice link blocking)."""
-        self.calls += 1
         x = np.maximum(x, 0.0)
         _, _, b = self.link_state(x)
         logq, s_route, loss, reach = self.route_terms(b)

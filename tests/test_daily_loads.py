@@ -355,6 +355,22 @@ def test_networks_the_methods_do_not_take():
         day_single_resource(mixed, np.ones((2, 1)))
 
 
+@pytest.mark.parametrize("method", daily_loads.METHODS)
+def test_a_link_shut_to_overflow_and_offered_only_overflow(method):
+    # the AC link keeps its whole capacity back and nobody routes first over it: the
+    # demand whose alternate route crosses it must see that route blocked all day
+    sites = (Site("A"), Site("B"), Site("C"))
+    links = (Link("AB", ("A", "B"), 3), Link("BC", ("B", "C"), 10),
+             Link("AC", ("A", "C"), 10, reservation=10))
+    dem = (Demand("AB", ("A", "B"), 1.0, 1.0,
+                  routes=(Route((0,), (1.0,)), Route((2, 1), (1.0, 1.0)))),)
+    net = Network("shut", sites, links, dem, routing=Routing(policy="alternate"))
+    r = day_reduced_load(net, [[6.0, 6.0]], method=method)
+    # blocking is that of AB alone: Erlang B over the day of a 3-unit link
+    alone = day_reduced_load(park(3, 1.0), [[6.0, 6.0]], method=method)
+    np.testing.assert_allclose(r.blocking, alone.blocking, rtol=1e-6)
+
+
 def test_single_resource_refusals():
     net = park(5, demands=2)
     wide = Network("p", net.sites, net.links, (
