@@ -119,7 +119,7 @@ def _build():  # noqa: C901 - one closure per kernel, compiled together
             out[i] = log_e(a[i], x[i])
 
     @jit
-    def chain_one(cap, t_s, t_p, f, la, g, w):  # pragma: no cover - compiled
+    def chain_one(cap, t_s, t_p, f, la, g, w, up, rr, ss, p):  # pragma: no cover - compiled
         # States (phase, k): phase 1 = on (the IPP offers calls at rate la), 0 = off; k busy
         # units. Poisson calls admitted while k < t_s, IPP calls while on and k < t_p.
         # Linear level reduction towards the level m nearest the mean load, from both ends:
@@ -132,12 +132,14 @@ def _build():  # noqa: C901 - one closure per kernel, compiled together
         mean = f + la * g / (g + w)
         top = max(min(t_s, cap) if f > 0.0 else 0, min(t_p, cap) if la > 0.0 else 0)
         m = max(0, min(top, int(mean)))
-        up = np.zeros((cap + 1, 2))
         for k in range(cap):
             up[k, 0] = f if k < t_s else 0.0
             up[k, 1] = up[k, 0] + (la if k < t_p else 0.0)
-        rr = np.zeros((cap + 1, 2, 2))
-        ss = np.zeros((cap + 1, 2, 2))
+        up[cap, 0] = 0.0
+        up[cap, 1] = 0.0
+        for i in range(2):
+            for i2 in range(2):
+                rr[cap, i, i2] = 0.0
         for k in range(cap, m, -1):
             kk = k + 1.0
             n00 = -(up[k, 0] + k + g) + kk * rr[k, 0, 0]
@@ -188,7 +190,6 @@ def _build():  # noqa: C901 - one closure per kernel, compiled together
             x0, x1 = n11, -n01
         if x0 + x1 < 0.0:
             x0, x1 = -x0, -x1
-        p = np.zeros((cap + 1, 2))
         p[m, 0] = max(x0, 0.0)
         p[m, 1] = max(x1, 0.0)
         for k in range(m, cap):
@@ -217,10 +218,18 @@ def _build():  # noqa: C901 - one closure per kernel, compiled together
         return bs, bp, loss
 
     @jit
+    def scratch(caps):  # pragma: no cover - compiled
+        c = 1
+        for j in range(caps.size):
+            c = max(c, caps[j] + 1)
+        return np.zeros((c, 2)), np.zeros((c, 2, 2)), np.zeros((c, 2, 2)), np.zeros((c, 2))
+
+    @jit
     def chain_vec(caps, ts, tp, first, lam, gam, om, out):  # pragma: no cover - compiled
+        up, rr, ss, p = scratch(caps)
         for j in range(caps.size):
             out[j, 0], out[j, 1], out[j, 2] = chain_one(caps[j], ts[j], tp[j], first[j],
-                                                        lam[j], gam[j], om[j])
+                                                        lam[j], gam[j], om[j], up, rr, ss, p)
 
     @jit
     def rapp(m, z):  # pragma: no cover - compiled
@@ -228,26 +237,30 @@ def _build():  # noqa: C901 - one closure per kernel, compiled together
         return a, max(a * (m + z) / (m + z - 1.0) - m - 1.0, 0.0)
 
     @jit
-    def table_group(m, z, qa, qn, u0, v0, step):  # pragma: no cover - compiled
-        ar, nr = rapp(m, z)
+    def bilinear(q, m, z, u0, v0, step):  # pragma: no cover - compiled
         fu = (math.log10(m) - u0) / step
         fv = (math.log10(z - 1.0) - v0) / step
-        i = min(max(int(math.floor(fu)), 0), qa.shape[0] - 2)
-        j = min(max(int(math.floor(fv)), 0), qa.shape[1] - 2)
+        i = min(max(int(math.floor(fu)), 0), q.shape[0] - 2)
+        j = min(max(int(math.floor(fv)), 0), q.shape[1] - 2)
         du = fu - i
         dv = fv - j
-        ca = ((1 - du) * (1 - dv) * qa[i, j] + du * (1 - dv) * qa[i + 1, j]
-              + (1 - du) * dv * qa[i, j + 1] + du * dv * qa[i + 1, j + 1])
-        cn = ((1 - du) * (1 - dv) * qn[i, j] + du * (1 - dv) * qn[i + 1, j]
-              + (1 - du) * dv * qn[i, j + 1] + du * dv * qn[i + 1, j + 1])
+        return ((1 - du) * (1 - dv) * q[i, j] + du * (1 - dv) * q[i + 1, j]
+                + (1 - du) * dv * q[i, j + 1] + du * dv * q[i + 1, j + 1])
+
+    @jit
+    def table_group(m, z, qa, qn, u0, v0, step):  # pragma: no cover - compiled
+        ar, nr = rapp(m, z)
+        ca = bilinear(qa, m, z, u0, v0, step)
+        cn = bilinear(qn, m, z, u0, v0, step)
         return ar * math.exp(ca), max(math.expm1(math.log1p(nr) + cn), 0.0)
 
     @jit
-    def link_kernel(f, o, ov, caps, thr, smooth_rtol, eq_o, eq_l, use_table, qa, qn, u0,
-                    v0, step, near, out, lost_z, ipp, logb):  # pragma: no cover - compiled
+    def link_kernel(f, o, ov, caps, thr, smooth_rtol, eq_o, eq_l, use_table, qa, qn, qs,
+                    u0, v0, step, near, out, lost_z, ipp, logb):  # pragma: no cover - compiled
         # The link model of netdim.peaked.link_factors, one link at a time. eq_o / eq_l:
         # equivalent groups (A*, N*) of the overflow class / of the whole mix given by the
         # caller (NaN: from the table or Rapp's formula here).
+        up, rr, ss, p = scratch(caps)
         for j in range(f.size):
             fj, oj = f[j], o[j]
             vj = max(ov[j], oj)
@@ -256,15 +269,22 @@ def _build():  # noqa: C901 - one closure per kernel, compiled together
             rate, gon, goff = oj, 1.0, 0.0
             if oj > 0.0 and vj > oj * (1.0 + smooth_rtol):
                 a, n = eq_o[j, 0], eq_o[j, 1]
-                if a != a:
-                    a, n = table_group(oj, zo, qa, qn, u0, v0, step) \
-                        if use_table and zo - 1.0 >= near else rapp(oj, zo)
-                e1 = a * math.exp(log_e(a, n))
-                e2 = a * e1 / (2.0 * (n + 1.0 - a + e1))
-                e3 = a / (3.0 * ((n + 2.0 - a) / (2.0 * e2) + 1.0 / e1))
+                if a == a:
+                    e1 = a * math.exp(log_e(a, n))
+                    e2 = a * e1 / (2.0 * (n + 1.0 - a + e1))
+                    e3 = a / (3.0 * ((n + 2.0 - a) / (2.0 * e2) + 1.0 / e1))
+                    shape = e3 / e2
+                elif use_table and zo - 1.0 >= near and math.log10(oj) >= u0:
+                    shape = oj * math.exp(bilinear(qs, oj, zo, u0, v0, step))
+                else:
+                    a, n = rapp(oj, zo)
+                    e1 = a * math.exp(log_e(a, n))
+                    e2 = a * e1 / (2.0 * (n + 1.0 - a + e1))
+                    e3 = a / (3.0 * ((n + 2.0 - a) / (2.0 * e2) + 1.0 / e1))
+                    shape = e3 / e2
                 b1 = oj
                 b2 = (vj - b1 + b1 * b1) / 2.0
-                b3 = b2 * (e3 / e2)
+                b3 = b2 * shape
                 r2 = 2.0 * b2 / b1
                 r3 = 3.0 * b3 / b2
                 s = 2.0 * (r3 - r2) / (2.0 * r2 - b1 - r3)
@@ -273,7 +293,7 @@ def _build():  # noqa: C901 - one closure per kernel, compiled together
                 if s > 0.0 and lam > 0.0 and 0.0 < g < s:
                     rate, gon, goff = lam, g, s - g
             ipp[j, 0], ipp[j, 1], ipp[j, 2] = rate, gon, goff
-            bs, bp, _ = chain_one(cap, cap, tj, fj, rate, gon, goff)
+            bs, bp, _ = chain_one(cap, cap, tj, fj, rate, gon, goff, up, rr, ss, p)
             out[j, 0] = bs
             out[j, 1] = 1.0 if tj <= 0 else bp
             out[j, 2] = zo
@@ -290,13 +310,27 @@ def _build():  # noqa: C901 - one closure per kernel, compiled together
                 a, n = eq_l[j, 0], eq_l[j, 1]
                 if a != a:
                     a, n = table_group(tm, zl, qa, qn, u0, v0, step) \
-                        if use_table and zl - 1.0 >= near else rapp(tm, zl)
+                        if use_table and zl - 1.0 >= near and math.log10(tm) >= u0 \
+                        else rapp(tm, zl)
+            # E(A*, N* + C - r) and E(A*, N* + C) by the recursion on from E(A*, N*)
+            lo = max(tj, 0)
+            hi = max(cap, 0)
+            inv = math.exp(-log_e(a, n))
+            srv = n
+            for _ in range(lo):
+                srv += 1.0
+                inv = 1.0 + inv * srv / a
+            le_lo = -math.log(inv) if inv < 1e300 else log_e(a, n + lo)
+            for _ in range(hi - lo):
+                srv += 1.0
+                inv = 1.0 + inv * srv / a
+            le_hi = -math.log(inv) if inv < 1e300 else log_e(a, n + hi)
             for c in range(2):
-                srv = float(max(cap if c == 0 else tj, 0))
-                le = log_e(a, n + srv)
-                mo = a * math.exp(le)
+                lec = le_hi if c == 0 else le_lo
+                srv = float(hi if c == 0 else lo)
+                mo = a * math.exp(lec)
                 lost_z[j, c] = max(1.0 - mo + a / (n + srv + 1.0 - a + mo), 1.0)
-                logb[j, c] = min(math.log(a) + le - math.log(tm), 0.0)
+                logb[j, c] = min(math.log(a) + lec - math.log(tm), 0.0)
 
     return {"log_erlang": log_erlang_vec, "chain": chain_vec, "link": link_kernel,
             "log_e": log_e}
@@ -369,11 +403,11 @@ def link_kernel(f, o, ov, caps, thr, smooth_rtol, eq_o, eq_l, table, near):
     """The link model on every link in one compiled pass (see ``netdim.peaked``).
 
     ``table``: None (Rapp's formula where ``eq_o`` / ``eq_l`` hold NaN) or the tuple
-    ``(qa, qn, u0, v0, step)`` of corrections to it (used where ``Z - 1 >= near``; the
-    caller gives the groups outside the table). Returns ``(out, lost_z, ipp, logb)``:
-    per link the first-choice blocking, the overflow class's blocking and its peakedness;
-    the lost peakedness at C and C - r; the IPP (rate, on, off); and the log of the mix's
-    equivalent random loss fraction at C and C - r.
+    ``(qa, qn, qs, u0, v0, step)`` of corrections to it (used where ``Z - 1 >= near`` and
+    ``M >= 10^u0``; the caller gives the groups outside the table). Returns
+    ``(out, lost_z, ipp, logb)``: per link the first-choice blocking, the overflow class's
+    blocking and its peakedness; the lost peakedness at C and C - r; the IPP (rate, on,
+    off); and the log of the mix's equivalent random loss fraction at C and C - r.
     """
     n = len(f)
     out = np.empty((n, 3))
@@ -381,12 +415,13 @@ def link_kernel(f, o, ov, caps, thr, smooth_rtol, eq_o, eq_l, table, near):
     ipp = np.empty((n, 3))
     logb = np.empty((n, 2))
     use = table is not None
-    qa, qn, u0, v0, step = table if use else (np.zeros((2, 2)), np.zeros((2, 2)), 0.0, 0.0, 1.0)
+    zero = np.zeros((2, 2))
+    qa, qn, qs, u0, v0, step = table if use else (zero, zero, zero, 0.0, 0.0, 1.0)
     kernels()["link"](np.ascontiguousarray(f, dtype=float), np.ascontiguousarray(o, dtype=float),
                       np.ascontiguousarray(ov, dtype=float),
                       np.ascontiguousarray(caps, dtype=np.int64),
                       np.ascontiguousarray(thr, dtype=np.int64), float(smooth_rtol),
                       np.ascontiguousarray(eq_o, dtype=float),
-                      np.ascontiguousarray(eq_l, dtype=float), use, qa, qn, float(u0),
+                      np.ascontiguousarray(eq_l, dtype=float), use, qa, qn, qs, float(u0),
                       float(v0), float(step), float(near), out, lost_z, ipp, logb)
     return out, lost_z, ipp, logb

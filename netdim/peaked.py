@@ -168,9 +168,10 @@ def _solve_exact(m, z, tol=1e-14, max_iter=200):
 
 
 class _Table:
-    """(A*, N*) interpolated in a grid of exact solutions: log10 M in [-8, 4] and
-    log10(Z - 1) in [-4, 2], step 0.1, as corrections to Rapp's closed form (smooth), built
-    once on first use (about half a second)."""
+    """Equivalent random groups interpolated in a grid of exact solutions: log10 M in
+    [-8, 4] and log10(Z - 1) in [-4, 2], step 0.1, built once on first use (about half a
+    second). Kept: log A* and log(1 + N*) as corrections to Rapp's closed form, and the
+    third-moment ratio ``b3 / b2`` of the group's overflow over M (all smooth there)."""
 
     U = (-8.0, 4.0)
     V = (-4.0, 2.0)
@@ -186,14 +187,16 @@ class _Table:
             m, z = 10.0 ** uu.ravel(), 1.0 + 10.0 ** vv.ravel()
             a, n = _solve_exact(m, z)
             ar, nr = _rapp(m, z)
+            _, b2, b3 = overflow_binomial_moments(a, n)
             cls._grid = ((np.log(a) - np.log(ar)).reshape(uu.shape),
-                         (np.log1p(n) - np.log1p(nr)).reshape(uu.shape))
+                         (np.log1p(n) - np.log1p(nr)).reshape(uu.shape),
+                         (np.log(b3 / b2) - np.log(m)).reshape(uu.shape))
         return cls._grid
 
     @classmethod
     def kernel_args(cls):
-        qa, qn = cls.grid()
-        return qa, qn, cls.U[0], cls.V[0], cls.STEP
+        qa, qn, qs = cls.grid()
+        return qa, qn, qs, cls.U[0], cls.V[0], cls.STEP
 
     @classmethod
     def inside(cls, m, z):
@@ -202,7 +205,7 @@ class _Table:
 
     @classmethod
     def lookup(cls, m, z):
-        qa, qn = cls.grid()
+        qa, qn, _ = cls.grid()
         fu = (np.log10(m) - cls.U[0]) / cls.STEP
         fv = (np.log10(z - 1.0) - cls.V[0]) / cls.STEP
         i = np.clip(np.floor(fu).astype(np.int64), 0, qa.shape[0] - 2)
@@ -276,7 +279,8 @@ def _equivalent(m, z, how):
     if how == "rapp":
         return _rapp(m, z)
     a, n = np.empty(m.shape), np.empty(m.shape)
-    near = z - 1.0 < 10.0 ** _Table.V[0]  # all but Poisson: the shape hardly matters
+    # all but Poisson, or next to no traffic: the shape hardly matters
+    near = (z - 1.0 < 10.0 ** _Table.V[0]) | (m < 10.0 ** _Table.U[0])
     rest = ~near
     if near.any():
         a[near], n[near] = _rapp(m[near], z[near])
@@ -546,7 +550,11 @@ class LinkFactors:
 
     def stream_blocking(self, link, is_overflow, peakedness):
         """Blocking of streams on ``link``: first-choice, or overflow of ``peakedness``."""
-        over = np.minimum(self.overflow[link] * peakedness / self.overflow_peakedness[link], 1.0)
+        # B Z_i / Z, taken as 1 - (1 - B)^(Z_i / Z): the same to first order in B, and below
+        # 1 where B Z_i / Z would pass it (heavy overload); smooth, so the fixed point is
+        ratio = peakedness / self.overflow_peakedness[link]
+        over = -np.expm1(ratio * np.log1p(-np.minimum(self.overflow[link], 1.0 - 1e-16)))
+        over = np.where(self.overflow[link] >= 1.0, 1.0, over)
         return np.where(is_overflow, over, self.first[link])
 
 
@@ -620,7 +628,10 @@ def link_factors(first, overflow, overflow_variance, capacities, reservations, m
             continue
         idx = np.flatnonzero(rough)
         z = vv[idx] / mm[idx]
-        keep = z - 1.0 >= 10.0 ** _Table.V[0]
+        # below the table's smallest mean or peakedness: Rapp's formula (the kernel's
+        # choice where no group is given): so little traffic, or so smooth, that its
+        # shape does not matter
+        keep = (z - 1.0 >= 10.0 ** _Table.V[0]) & (mm[idx] >= 10.0 ** _Table.U[0])
         if equivalent == "table":
             keep &= ~_Table.inside(mm[idx], z)
         idx, z = idx[keep], z[keep]
