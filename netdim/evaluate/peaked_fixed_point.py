@@ -158,7 +158,7 @@ def _capacities(network, capacities):
     if bad.any():
         j = int(np.flatnonzero(bad)[0])
         raise ValueError(
-            f"capacities: link '{network.links[j].id}' has capacity {caps[j]!r}; "
+            f"capacities: link '{network.links[j].id}' has capacity {caps.tolist()[j]!r}; "
             "capacities must be whole numbers >= 0"
         )
     return flt.astype(np.int64)
