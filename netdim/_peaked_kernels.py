@@ -306,16 +306,20 @@ def _build():  # noqa: C901 - one closure per kernel, compiled together
                 continue
             zl = (fj + vj) / tm
             a, n = tm, 0.0
+            inv = 1.0  # 1 / E(A*, N*): the group's overflow mean is the mix's mean, E = M / A*
             if zl > 1.0 + smooth_rtol:
                 a, n = eq_l[j, 0], eq_l[j, 1]
-                if a != a:
-                    a, n = table_group(tm, zl, qa, qn, u0, v0, step) \
-                        if use_table and zl - 1.0 >= near and math.log10(tm) >= u0 \
-                        else rapp(tm, zl)
+                if a == a:
+                    inv = a / tm
+                elif use_table and zl - 1.0 >= near and math.log10(tm) >= u0:
+                    a, n = table_group(tm, zl, qa, qn, u0, v0, step)
+                    inv = a / tm
+                else:  # Rapp's group has another overflow mean: its own E
+                    a, n = rapp(tm, zl)
+                    inv = math.exp(-log_e(a, n))
             # E(A*, N* + C - r) and E(A*, N* + C) by the recursion on from E(A*, N*)
             lo = max(tj, 0)
             hi = max(cap, 0)
-            inv = math.exp(-log_e(a, n))
             srv = n
             for _ in range(lo):
                 srv += 1.0
