@@ -8,6 +8,8 @@ enumeration) and simulation with confidence intervals.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import mpmath
 import numpy as np
 import pytest
@@ -16,7 +18,7 @@ from netdim.errors import ConvergenceError
 from netdim.evaluate import evaluate
 from netdim.evaluate.peaked_fixed_point import METHOD, peaked_fixed_point
 from netdim.model import Demand, Link, Network, Route, Routing, Site
-from netdim.netfile import read_network
+from netdim.netfile import loads_network, read_network
 
 NETWORKS = "networks"
 
@@ -44,8 +46,6 @@ def two_groups(a, n1, n2, reservation=0, second_traffic=0.0):
 def test_fixed_routing_equals_the_plain_fixed_point(line_yaml, tandem, triangle):
     # source: the plain reduced-load fixed point (evaluate(method='fixed-point')); with no
     # overflow every stream is Poisson and the equations are the same
-    from netdim.netfile import loads_network
-
     line = loads_network(line_yaml())
     line = line.with_capacities([28, 24])
     for net in (line, tandem(6, 3.0),
@@ -221,8 +221,6 @@ def test_bad_arguments(triangle, one_link):
     with pytest.raises(ValueError, match="demand 'D1': bandwidth 2: the peaked fixed point "
                                          "handles single-unit calls only"):
         peaked_fixed_point(one_link(10, [(3.0, 1), (2.0, 2)]))
-    from dataclasses import replace
-
     with pytest.raises(ValueError, match="routing policy: unknown policy 'random'"):
         peaked_fixed_point(replace(net, routing=Routing("random")))
 
