@@ -19,7 +19,8 @@ The link model (design notes and measurements: ``docs/theory/peaked-overflow.md`
    peaked overflow.
 3. Within the overflow class a stream of peakedness ``Z_i`` meets ``B Z_i / Z`` of the
    class's blocking ``B`` (the split in proportion to peakedness, which keeps the class's
-   lost traffic).
+   lost traffic), taken as ``1 - (1 - B)^(Z_i / Z)``: the same to first order in ``B``, and
+   below 1 in heavy overload.
 4. What a link loses in each class has Riordan's peakedness of the overflow of the
    equivalent group of the link's whole offered traffic, at the class's threshold.
 
@@ -535,8 +536,9 @@ class LinkFactors:
     first : ndarray
         Blocking of first-choice calls (admitted while a unit is free).
     overflow : ndarray
-        Call congestion of the overflow class as a whole (its calls leave the reservation
-        free); a stream of it of peakedness ``Z_i`` meets ``overflow Z_i / Z``.
+        Call congestion ``B`` of the overflow class as a whole (its calls leave the
+        reservation free); a stream of it of peakedness ``Z_i`` meets
+        ``1 - (1 - B)^(Z_i / Z)``, about ``B Z_i / Z``.
     overflow_peakedness : ndarray
         ``Z`` of the whole overflow class.
     lost_peakedness : ndarray, shape (n_links, 2)

@@ -3,25 +3,27 @@
 The reduced-load fixed point treats every stream offered to a link as Poisson. Overflow is
 not: it comes in bursts, when the group it left is full, and meets more blocking than the
 time congestion of the links it overflows onto. Here every stream offered to a link carries
-its mean and its variance:
+its mean and its peakedness (variance over mean):
 
-* a first-choice stream is Poisson (variance = mean), thinned by the blocking of the other
-  links of its route (a random thinning of a Poisson stream is Poisson);
-* the stream offered to a demand's route ``k >= 1`` is the overflow of route ``k - 1``: its
-  mean is the demand's traffic times the blocking of every earlier route, its peakedness
-  that of the traffic the earlier route lost on its links (Riordan's moments of the
-  equivalent group each link forms, split in proportion to lost traffic);
-* on each link of the route a stream of peakedness ``Z`` is thinned by the blocking ``b`` of
-  the route's other links to peakedness ``1 + (1 - b)(Z - 1)`` (random splitting of the
-  calls on an infinite group: the law of total variance).
+* a first-choice stream is Poisson, thinned by the blocking of the other links of its route
+  (a random thinning of a Poisson stream is Poisson);
+* the stream offered to a demand's route ``k >= 1`` is what route ``k - 1`` lost: its mean
+  is the demand's traffic times the blocking of every earlier route, as in the plain fixed
+  point; it is made of parts of what each link of route ``k - 1`` loses;
+* what a link loses in one class (first-choice, or overflow under reservation) is one
+  stream, of Riordan's peakedness for the equivalent random group of the link's traffic;
+  the parts of it that reach one link, over all demands, are one random part of it, of
+  share ``P`` and peakedness ``1 + P (Z - 1)`` (random splitting of the calls on an infinite
+  group: the law of total variance), thinned the same way by the route's other links.
 
-Each link then gives each stream its own blocking from the peaked-traffic model of
-:func:`netdim.peaked.class_factors` (equivalent random or Hayward, the split in proportion
-to peakedness, trunk reservation against overflow), and the whole is iterated to a fixed
-point as the plain reduced-load evaluation is: the same adaptive damping, the same solve
-from idle and from full links with a bistability report, the same ConvergenceError. Without
-overflow (fixed routing, or demands with one route) every stream is Poisson and the
-equations are those of the plain fixed point.
+Each link then gives each stream its own blocking from the link model of
+:func:`netdim.peaked.link_factors` (the overflow as an interrupted Poisson process with three
+moments from its equivalent random group, solved exactly with the first-choice traffic and
+the trunk reservation; the split in proportion to peakedness within the overflow), and the
+whole is iterated to a fixed point as the plain reduced-load evaluation is: the same adaptive
+damping, the same solves from idle and from full links with a bistability report, the same
+ConvergenceError. Without overflow (fixed routing, or demands with one route) every stream
+is Poisson and the equations are those of the plain fixed point.
 
 Design notes and the accuracy measured against exact solutions and simulation:
 ``docs/theory/peaked-overflow.md``, ``docs/measurements/accuracy.md``.
@@ -407,12 +409,14 @@ def peaked_fixed_point(network, capacities=None, link_model="ipp", equivalent="t
         per-link holding times as the file gives them.
     capacities : array_like of int, optional
         One per link, in link order; default: the network's own capacities.
-    link_model : {'ert', 'hayward'}
-        Peaked-traffic model of a link: the equivalent random method, or Hayward's
-        approximation (see :func:`netdim.peaked.peaked_group_loss`).
-    equivalent : {'rapp', 'exact'}
-        How the equivalent random group is found: Rapp's closed form (fast), or Wilkinson's
-        equations solved exactly (one root search per link and sweep: small networks only).
+    link_model : {'ipp', 'ert', 'hayward'}
+        The link model (see :mod:`netdim.peaked`): ``ipp`` (default) the IPP chain;
+        ``ert`` / ``hayward`` the same with each class's loss rescaled to the equivalent
+        random method's (Hayward's) total loss without reservation.
+    equivalent : {'table', 'exact', 'rapp'}
+        How equivalent random groups are found: interpolated in a table of exact solutions
+        (default), solved for every link at every sweep (slower), or Rapp's closed form
+        (poor for the overflow of lightly loaded groups).
     tol : float
         Convergence test: largest change of any stream's blocking or lost peakedness
         between two sweeps.
@@ -431,10 +435,10 @@ def peaked_fixed_point(network, capacities=None, link_model="ipp", equivalent="t
         ``method`` is ``'peaked-fixed-point'``; ``status`` ``'converged'`` or ``'bistable'``
         (then ``alternative`` holds the solution from full links). ``details``:
         ``link_model``, ``equivalent``, ``damping``, ``largest_link_peakedness`` (in the
-        JSON), and the arrays ``step_blocking`` and ``lost_peakedness`` (per route step,
-        routes in demand and preference order), ``route_blocking``, ``route_reach``,
-        ``route_peakedness`` (of the traffic offered to each route) and
-        ``link_peakedness`` (variance over mean of each link's offered traffic).
+        JSON), and the arrays ``step_blocking`` and ``step_peakedness`` (per route step,
+        routes in demand and preference order), ``lost_peakedness`` (per link and class,
+        first-choice then overflow), ``route_blocking``, ``route_reach`` and
+        ``link_peakedness`` (of each link's offered traffic).
 
     Raises
     ------
@@ -446,17 +450,14 @@ def peaked_fixed_point(network, capacities=None, link_model="ipp", equivalent="t
 
     Notes
     -----
-    Route k of demand d is offered ``A_d prod_{m<k} L_m`` with peakedness ``Z_k``
-    (``Z_0 = 1``); a step of the route on link j is offered ``m = A_d f_j reach_k p_j``,
-    ``p_j = prod_{i in route, i != j} (1 - b_i)``, with peakedness ``1 + p_j (Z_k - 1)`` and
-    meets the blocking ``b_j`` its link model gives a stream of that peakedness in its class
-    (first-choice, or overflow under the link's reservation). ``Z_{k+1}`` is the mean of the
-    lost peakedness of route k's steps weighted by the traffic each loses. The per-link
-    holding-time factor ``f_j`` scales a stream's mean and keeps its peakedness (an
-    approximation: overflow held for a shorter time on a later link is in fact smoother).
-    Demand blocking is ``prod_k L_k`` with ``L_k = 1 - prod_j (1 - b_j)``, as in the plain
-    fixed point: the routes of one demand are taken as independent, which they are not
-    (the limit measured in ``docs/measurements/accuracy.md``).
+    Route k of demand d is offered ``A_d prod_{m<k} L_m``; its step on link j carries
+    ``m = A_d f_j reach_k p_j``, ``p_j = prod_{i in route, i != j} (1 - b_i)`` (``f_j``: the
+    holding time on j over the demand's), and meets the blocking its link model gives a
+    stream of its peakedness in its class. The peakedness is kept when a later link holds
+    calls for another time (an approximation, poor for the campus shuttle; see the design
+    notes). Demand blocking is ``prod_k L_k``, ``L_k = 1 - prod_j (1 - b_j)``, as in the
+    plain fixed point: the routes of one demand are taken as independent, which they are
+    not; this is what limits the accuracy at light load (``docs/measurements/accuracy.md``).
 
     References
     ----------
