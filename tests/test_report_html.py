@@ -29,6 +29,7 @@ from netdim.report.cells import decimals_for, prob_cells  # noqa: E402
 from netdim.report.html import (  # noqa: E402
     Section,
     chart_section,
+    combined_verdicts,
     evaluation_html,
     html_document,
     plan_html,
@@ -538,3 +539,23 @@ def test_sites_without_coordinates_get_a_seeded_layout():
     assert len({tuple(round(v, 6) for v in p) for p in pos.values()}) == len(pos)
     given = figures.site_positions(_net("regional-telephone.yaml"))
     assert given["QML"] == (2.0, 9.0)
+
+
+def test_a_second_solution_that_disagrees_makes_the_verdict_unclear(villages_simulated):
+    # A bistable evaluation (two fixed-point solutions): a demand met in one and missed in
+    # the other cannot be promised either way. The second solution is made by hand here,
+    # at twice each target, so every demand disagrees.
+    from dataclasses import replace
+
+    net = villages_simulated[0]
+    ev = netdim.evaluate(net)
+    assert ev.all_met
+    other = replace(ev, blocking=2 * np.asarray(ev.target))
+    both = replace(ev, status="bistable", alternative=other)
+    assert list(combined_verdicts(both)) == ["unclear"] * len(ev.demand_ids)
+    assert list(combined_verdicts(replace(ev, alternative=ev))) == list(ev.verdicts())
+    text = evaluation_html(net, both, curves=0)
+    page = Page(text)
+    assert {c["text"] for c in page.column("t-demands", "verdict").values()} == {"unclear"}
+    assert "bistable" in page_text(text, "cautions")
+    assert "cannot be judged (unclear)" in page_text(text, "summary")

@@ -3,9 +3,10 @@
 :func:`evaluation_html` reports an :class:`~netdim.evaluate.result.Evaluation` of a network
 at its capacities, :func:`plan_html` a :class:`~netdim.dimension.plan.Plan`; both return one
 HTML string that needs no network access and no JavaScript (styles inline, pictures as inline
-SVG from :mod:`netdim.report.figures`). Studies add their own :class:`Section` objects
-(``sections=``) or build a whole page with :func:`html_document`. :func:`write_report` writes
-the file whole or not at all.
+SVG from :mod:`netdim.report.figures`). Studies add their own :class:`~netdim.report.page.Section`
+objects (``sections=``) or build a whole page with :func:`~netdim.report.page.html_document`;
+:func:`~netdim.report.page.write_report` writes the file whole or not at all (all three are
+re-exported here).
 
 Every number cell carries its exact value in ``data-value`` (what ``to_dict()`` holds); the
 text shows one format per column, units in the headers.
@@ -13,12 +14,7 @@ text shows one format per column, units in the headers.
 
 from __future__ import annotations
 
-import errno
 import html as _html
-import importlib.metadata
-import os
-import tempfile
-from dataclasses import dataclass
 
 import numpy as np
 
@@ -34,6 +30,15 @@ from netdim.report.cells import (
     percent_cells,
     prob_cells,
     text_cell,
+)
+from netdim.report.page import (
+    Section,
+    chart_section,
+    facts_html,
+    figure_html,
+    html_document,
+    table_html,
+    write_report,
 )
 from netdim.report.words import (
     KINDS,
@@ -56,152 +61,13 @@ __all__ = [
     "figure_html",
     "chart_section",
     "combined_verdicts",
+    "plan_costs",
     "write_report",
 ]
-
-_STYLE = """
-body{font-family:system-ui,"DejaVu Sans","Liberation Sans",Arial,sans-serif;color:#222;
-margin:0 auto;max-width:1360px;padding:1.2em 1.6em;line-height:1.4;background:#fff}
-h1{font-size:1.6em;margin:.2em 0}h2{font-size:1.25em;margin:1.6em 0 .4em;
-border-bottom:1px solid #ccc;padding-bottom:.2em}
-p.lead{font-size:1.05em;margin:.3em 0 1em}
-nav a{margin-right:1em;color:#2f5d8a}
-dl.facts{display:grid;grid-template-columns:max-content auto;gap:.15em 1.2em;margin:.6em 0}
-dl.facts dt{font-weight:600}dl.facts dd{margin:0}
-div.table{overflow-x:auto}
-table{border-collapse:collapse;font-size:.86em;margin:.4em 0}
-th,td{padding:.22em .55em;border-bottom:1px solid #e2e2e2;vertical-align:bottom}
-td{white-space:nowrap}tr.unbuilt td{color:#888}
-th{background:#f2f4f7;text-align:left;font-weight:600}
-td.num{text-align:right;font-variant-numeric:tabular-nums}th.num{text-align:right}
-tbody tr:nth-child(even){background:#fafafa}
-td.v-met{color:#1e6b47;font-weight:600}td.v-missed{color:#b02a1e;font-weight:700}
-td.v-unclear{color:#8a5a00;font-weight:600}
-p.legend,figcaption{font-size:.85em;color:#555;margin:.3em 0 .8em;max-width:62em}
-figure{margin:.6em 0}figure svg{max-width:100%;height:auto;display:block}
-ul.cautions li{margin:.3em 0}
-footer{margin-top:2.5em;font-size:.8em;color:#777;border-top:1px solid #ddd;padding-top:.5em}
-@media print{nav{display:none}h2{break-after:avoid}figure,table{break-inside:avoid}}
-"""
-
-
-def _version() -> str:
-    # From the installed metadata: importing the package root here would make a cycle once
-    # netdim/__init__.py exports the report functions.
-    try:
-        return importlib.metadata.version("netdim")
-    except importlib.metadata.PackageNotFoundError:
-        return "(version unknown)"
 
 
 def _e(text) -> str:
     return _html.escape(str(text), quote=True)
-
-
-@dataclass(frozen=True)
-class Section:
-    """One part of a report page.
-
-    Attributes
-    ----------
-    id : str
-        The section's anchor (``<section id=...>``), unique in the page.
-    title : str
-        Heading, plain text.
-    body : str
-        HTML fragment, already escaped (build it with :func:`table_html`,
-        :func:`figure_html` or :func:`html.escape`).
-    """
-
-    id: str
-    title: str
-    body: str
-
-
-# -- building blocks ------------------------------------------------------------------------
-def table_html(table_id, headers, columns, row_ids=None, legend=None, row_css=None) -> str:
-    """A table from columns of :class:`~netdim.report.cells.Cell`.
-
-    Parameters
-    ----------
-    table_id : str
-    headers : sequence of str
-        Plain text, units included (``'offered (E)'``).
-    columns : sequence of sequences of Cell
-        One per header, all of the same length.
-    row_ids : sequence of str, optional
-        ``data-id`` of each row (the demand or link id).
-    legend : sequence of str, optional
-        Lines under the table explaining its headers.
-    row_css : sequence of str, optional
-        Class of each row (``'unbuilt'`` greys a link that is not built).
-    """
-    n = len(columns[0]) if columns else 0
-    if any(len(c) != n for c in columns) or len(headers) != len(columns):
-        raise ValueError(f"table {table_id}: headers and columns differ in length")
-    numeric = [any(c.value is not None for c in col) for col in columns]
-    head = "".join(f'<th class="num">{_e(h)}</th>' if num else f"<th>{_e(h)}</th>"
-                   for h, num in zip(headers, numeric, strict=True))
-    rows = []
-    for i in range(n):
-        rid = "" if row_ids is None else f' data-id="{_e(row_ids[i])}"'
-        css = f' class="{_e(row_css[i])}"' if row_css is not None and row_css[i] else ""
-        rows.append(f"<tr{rid}{css}>" + "".join(col[i].html() for col in columns) + "</tr>")
-    out = (f'<div class="table"><table id="{_e(table_id)}"><thead><tr>{head}</tr></thead>'
-           "<tbody>" + "\n".join(rows) + "</tbody></table></div>")
-    if legend:
-        out += "".join(f'<p class="legend">{_e(line)}</p>' for line in legend)
-    return out
-
-
-def figure_html(svg, caption, figure_id=None) -> str:
-    """An inline SVG picture (from :mod:`netdim.report.figures`) with its caption."""
-    fid = "" if figure_id is None else f' id="{_e(figure_id)}"'
-    return f'<figure class="plot"{fid}>{svg}<figcaption>{_e(caption)}</figcaption></figure>'
-
-
-def chart_section(section_id, title, svg, caption) -> Section:
-    """A section holding one picture: what a study adds for its failure, growth, comparison
-    or cost-against-target chart."""
-    return Section(section_id, title, figure_html(svg, caption, f"fig-{section_id}"))
-
-
-def _facts(pairs) -> str:
-    return '<dl class="facts">' + "".join(
-        f"<dt>{_e(k)}</dt><dd>{_e(v)}</dd>" for k, v in pairs) + "</dl>"
-
-
-def html_document(title, sections, *, lead=None) -> str:
-    """The whole page: a title, a line of lead text, a contents bar and the sections.
-
-    Parameters
-    ----------
-    title : str
-    sections : sequence of Section
-    lead : str, optional
-        One sentence under the title (the verdict of the run).
-
-    Returns
-    -------
-    str
-        A complete HTML5 document with no external resource.
-    """
-    ids = [s.id for s in sections]
-    if len(set(ids)) != len(ids):
-        dup = next(i for i in ids if ids.count(i) > 1)
-        raise ValueError(f"html_document: section id '{dup}' is used twice")
-    nav = "".join(f'<a href="#{_e(s.id)}">{_e(s.title)}</a>' for s in sections)
-    body = "\n".join(f'<section id="{_e(s.id)}"><h2>{_e(s.title)}</h2>\n{s.body}\n</section>'
-                     for s in sections)
-    lead_html = "" if lead is None else f'<p class="lead">{_e(lead)}</p>'
-    return (
-        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
-        '<meta name="viewport" content="width=device-width, initial-scale=1">\n'
-        f"<title>{_e(title)}</title>\n<style>{_STYLE}</style>\n</head>\n<body>\n"
-        f"<header><h1>{_e(title)}</h1>{lead_html}<nav>{nav}</nav></header>\n{body}\n"
-        f"<footer>Made by netdim {_e(_version())}. Figures are planning estimates; "
-        "see the cautions.</footer>\n</body>\n</html>\n"
-    )
 
 
 # -- verdicts and order ---------------------------------------------------------------------
@@ -418,7 +284,7 @@ def evaluation_sections(network, ev, *, kind=None, seed=None, measure="utilisati
         facts.append(("busiest link", f"{ev.link_ids[j]}: {100 * ev.utilisation[j]:.1f}% of "
                       f"{int(ev.capacity[j])} {unit} in use"))
     facts.append(("method", method_words(ev, seed)))
-    out = [Section("summary", "Summary", _facts(facts)),
+    out = [Section("summary", "Summary", facts_html(facts)),
            _map_section(network, ev, unit, measure),
            _demand_section(network, ev, dec),
            _link_section(network, ev, kind, dec)]
@@ -434,7 +300,7 @@ def _assumptions(network, ev, seed, extra=()) -> Section:
     pairs += [(f"warning {k + 1}", w) for k, w in enumerate(ev.warnings)]
     if ev.message:
         pairs.append(("evaluation", ev.message))
-    return Section("assumptions", "Assumptions", _facts(pairs))
+    return Section("assumptions", "Assumptions", facts_html(pairs))
 
 
 def _cautions(network, kind, evs) -> Section:
@@ -532,19 +398,20 @@ def plan_html(plan, *, network=None, title=None, kind=None, source=None,
     figures.reset_ids()
     verdict = combined_verdicts(ev) if ver is None else ver.verdicts()
     built = int((plan.capacities > 0).sum())
+    money = plan_costs(plan)
     facts = [("status", plan.status), ("result", verdict_counts_words(verdict)),
-             ("cost", cost_cells([plan.cost])[0].text)]
+             ("cost", money["cost"])]
     if plan.status != "economic":
-        facts.append(("lower bound", cost_cells([plan.lower_bound])[0].text))
+        facts.append(("lower bound", money["lower_bound"]))
         facts.append(("gap", f"{100 * plan.gap:.1f}%"))
-    facts += [("baseline cost", cost_cells([plan.baseline_cost])[0].text),
+    facts += [("baseline cost", money["baseline_cost"]),
               ("saving against the baseline", f"{100 * plan.saving:.1f}%"),
               ("links built", f"{built} of {len(plan.capacities)}"
                + (f" (not built: {', '.join(plan.dropped_links)})" if plan.dropped_links
                   else ""))]
-    body = [Section("summary", "Summary", _facts(facts)),
+    body = [Section("summary", "Summary", facts_html(facts)),
             Section("bound", "How good the plan is",
-                    "".join(f"<p>{_e(p)}</p>" for p in bound_words(plan, net))),
+                    "".join(f"<p>{_e(p)}</p>" for p in bound_words(plan, net, money))),
             _map_section(net, ev, unit, measure),
             _demand_section(net, ev, dec, sim=ver, label=f"{plan.model} model"),
             _link_section(net, ev, kind, dec, plan=plan)]
@@ -564,66 +431,22 @@ def plan_html(plan, *, network=None, title=None, kind=None, source=None,
     seed = d.get("verify_seed")
     assumptions = _assumptions(net, ev, None, extra)
     if ver is not None:
-        assumptions = Section(assumptions.id, assumptions.title, assumptions.body + _facts(
+        assumptions = Section(assumptions.id, assumptions.title, assumptions.body + facts_html(
             [("simulation", method_words(ver, seed))]))
     body += [assumptions, _cautions(net, kind, [ev] + ([ver] if ver is not None else []))]
-    lead = f"Plan: {plan.status}, cost {cost_cells([plan.cost])[0].text}; " + \
+    lead = f"Plan: {plan.status}, cost {money['cost']}; " + \
         verdict_counts_words(verdict)
     if source:
         lead = f"{source}: {lead}"
     return html_document(title or f"{net.name}: plan", body, lead=lead)
 
 
-# -- writing --------------------------------------------------------------------------------
-def _umask() -> int:
-    mask = os.umask(0o022)
-    os.umask(mask)
-    return mask
-
-
-def write_report(html, path) -> str:
-    """Write ``html`` to ``path`` whole or not at all.
-
-    The text goes to a temporary file in the same directory, is flushed to disk, and is
-    renamed over ``path`` (:func:`os.replace`), so a reader sees the old file or the new
-    one, never half of one; on any failure the temporary file is removed and ``path`` is
-    left as it was. The file gets mode 0644 less the process's umask.
-
-    Parameters
-    ----------
-    html : str
-    path : str or os.PathLike
-
-    Returns
-    -------
-    str
-        The path written.
-
-    Raises
-    ------
-    OSError
-        The directory does not exist or cannot be written, or ``path`` is a directory.
-    """
-    path = os.fspath(path)
-    directory = os.path.dirname(os.path.abspath(path))
-    if not os.path.isdir(directory):
-        raise FileNotFoundError(errno.ENOENT, "cannot write the report: no such directory",
-                                directory)
-    if os.path.isdir(path):
-        raise IsADirectoryError(errno.EISDIR, "cannot write the report: is a directory", path)
-    data = html.encode("utf-8")
-    fd, tmp = tempfile.mkstemp(prefix=".netdim-report-", suffix=".tmp", dir=directory)
-    try:
-        with os.fdopen(fd, "wb") as f:
-            f.write(data)
-            f.flush()
-            os.fsync(f.fileno())
-        os.chmod(tmp, 0o644 & ~_umask())
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
-    return path
+def plan_costs(plan) -> dict:
+    """The plan's cost, lower bound, baseline cost and (verified plans) unverified cost as
+    text, in one format (:func:`~netdim.report.cells.cost_cells` over all of them)."""
+    names = ["cost", "lower_bound", "baseline_cost"]
+    values = [plan.cost, plan.lower_bound, plan.baseline_cost]
+    if "unverified_cost" in plan.details:
+        names.append("unverified_cost")
+        values.append(float(plan.details["unverified_cost"]))
+    return {n: c.text for n, c in zip(names, cost_cells(values), strict=True)}

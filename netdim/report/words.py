@@ -137,8 +137,12 @@ def routing_words(network) -> str:
     return text
 
 
-def bound_words(plan, network) -> list[str]:
-    """Paragraphs on the plan's lower bound and gap, and what a large gap means."""
+def bound_words(plan, network, costs) -> list[str]:
+    """Paragraphs on the plan's lower bound and gap, and what a large gap means.
+
+    ``costs`` holds the plan's figures as the report shows them (``cost``, ``lower_bound``,
+    and ``unverified_cost`` for a verified plan), so the words and the tables agree.
+    """
     d = plan.details
     kind = d.get("bound") or "no description"
     if plan.status == "economic":
@@ -149,14 +153,14 @@ def bound_words(plan, network) -> list[str]:
     if plan.status == "infeasible":
         out.append("Some demands cannot meet their target within the links' bounds; the plan "
                    f"shown is the best found and does not meet every target. {plan.message}")
-    out.append(f"The plan costs {plan.cost:,.2f}. No plan meeting every target under the "
-               f"{plan.model} model can cost less than {plan.lower_bound:,.2f} (lower bound: "
+    out.append(f"The plan costs {costs['cost']}. No plan meeting every target under the "
+               f"{plan.model} model can cost less than {costs['lower_bound']} (lower bound: "
                f"{kind}). The gap, (cost - bound) / cost, is {100 * plan.gap:.1f}%: the most "
                "any such plan could save against this one.")
-    if plan.verification is not None and "unverified_cost" in d:
+    if plan.verification is not None and "unverified_cost" in costs:
         out.append(f"The bound is for the {plan.model} model. The plan was then checked by "
                    "simulation and, where a demand missed there, sized again with tighter "
-                   f"working targets (the unchecked plan cost {d['unverified_cost']:,.2f}).")
+                   f"working targets (the unchecked plan cost {costs['unverified_cost']}).")
     if plan.status == "optimal-within-gap":
         out.append("The gap is within the solver's tolerance: no cheaper plan exists under "
                    "the model, to that tolerance.")
