@@ -293,6 +293,9 @@ def test_verified_plan_shows_the_simulation_beside_the_model(villages_verified):
         assert float(cells[rec["id"]]["attrs"]["data-high"]) == rec["interval"][1]
         assert judged[rec["id"]]["text"] == strict[rec["id"]]
     assert f"seed {plan.details['verify_seed']}" in page_text(text, "assumptions")
+    # the summary's "all met" needs both the model and the simulation to say met
+    all_met = plan.evaluation.all_met and set(strict.values()) == {"met"}
+    assert ("All 3 demands meet their target." in page_text(text, "summary")) == all_met
 
 
 # -- the page as a whole ----------------------------------------------------------------------
@@ -368,6 +371,8 @@ def test_study_sections_are_added_before_the_assumptions(regional):
     order = [m.group(1) for m in re.finditer(r'<section id="([^"]+)"', text)]
     assert order.index("growth") == order.index("assumptions") - 1
     assert 'id="fig-growth"' in text
+    ids = Page(text).ids  # a picture drawn before the report shares no id with its own
+    assert len(ids) == len(set(ids))
 
 
 # -- errors -----------------------------------------------------------------------------------
@@ -390,6 +395,11 @@ def test_plan_without_a_network_is_refused(campus_plan):
 
     with pytest.raises(ValueError, match="the plan carries no network; pass network="):
         plan_html(replace(campus_plan[1], network=None))
+
+
+def test_plan_for_another_network_is_refused(campus_plan):
+    with pytest.raises(ValueError, match="the plan is not of network 'Three villages'"):
+        plan_html(campus_plan[1], network=_net("three-villages.yaml"))
 
 
 def test_duplicate_section_ids_are_refused():
@@ -508,9 +518,7 @@ def test_study_charts_draw_their_labels_and_are_deterministic():
     }
     svg = {}
     for name, draw in charts.items():
-        figures.reset_ids()
         svg[name] = draw()
-        figures.reset_ids()
         assert draw() == svg[name], name
         assert svg[name].startswith("<svg ") and svg[name].endswith("</svg>")
         assert float(re.search(r'width="([\d.]+)pt"', svg[name]).group(1)) > 0

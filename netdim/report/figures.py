@@ -2,9 +2,9 @@
 
 Every function takes plain figures (arrays, lists of ids) and returns one ``<svg>`` element
 ready to be written inline into an HTML page: no XML declaration, no metadata, no namespace
-URLs, ``href`` instead of ``xlink:href``, and every ``id`` prefixed so that several pictures
-can share a page. The output is deterministic: a fixed ``svg.hashsalt``, no date, text drawn
-as paths (no font is needed to view it).
+URLs, ``href`` instead of ``xlink:href``, and every ``id`` prefixed with a hash of the picture
+so that several pictures can share a page. The output is deterministic: a fixed
+``svg.hashsalt``, no date, text drawn as paths (no font is needed to view it).
 
 matplotlib is the optional extra ``netdim[report]``; it is imported when a picture is drawn,
 so ``import netdim.report.figures`` works without it. The figures are built with
@@ -13,8 +13,8 @@ so ``import netdim.report.figures`` works without it. The figures are built with
 
 from __future__ import annotations
 
+import hashlib
 import io
-import itertools
 import math
 import re
 
@@ -44,7 +44,6 @@ _MISS = "#c0392b"
 _OK = "#2e7d5b"
 _INK = "#333333"
 _GREY = "#9a9a9a"
-_ids = itertools.count(1)
 
 
 def _mpl():
@@ -90,7 +89,9 @@ def _svg(matplotlib, fig, label) -> str:
     text = re.sub(r"\s*<metadata>.*?</metadata>", "", text, count=1, flags=re.S)
     text = re.sub(r'\s+xmlns(:xlink)?="[^"]*"', "", text)
     text = text.replace("xlink:href=", "href=")
-    prefix = f"nd{next(_ids)}-"
+    # Ids named after the picture itself: unique between different pictures on one page,
+    # and the same on every run (no counter to depend on what was drawn before).
+    prefix = "nd" + hashlib.sha1(text.encode("utf-8")).hexdigest()[:10] + "-"
     ids = set(re.findall(r'\bid="([^"]+)"', text))
 
     def rename(m):
@@ -99,13 +100,6 @@ def _svg(matplotlib, fig, label) -> str:
     text = re.sub(r'(\bid="|href="#|url\(#)([^")]+)([")])', rename, text)
     label = label.replace("&", "&amp;").replace('"', "&quot;").replace("<", "&lt;")
     return text.replace("<svg ", f'<svg role="img" aria-label="{label}" ', 1).strip()
-
-
-def reset_ids():
-    """Start the id prefixes again (a report calls this so its output does not depend on
-    the pictures drawn before it in the same process)."""
-    global _ids
-    _ids = itertools.count(1)
 
 
 # -- the network map -----------------------------------------------------------------------

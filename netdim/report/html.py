@@ -95,6 +95,12 @@ def _worst_first(verdict_sets, ratio_sets) -> np.ndarray:
     return np.lexsort((-ratio, rank))
 
 
+def _worse(*verdict_sets) -> np.ndarray:
+    """Per demand, the worse of the given verdicts (missed, then unclear, then met)."""
+    names = np.array(sorted(_RANK, key=_RANK.get))
+    return names[np.min([[_RANK[x] for x in v] for v in verdict_sets], axis=0)]
+
+
 def _ratio(blocking, target) -> np.ndarray:
     t = np.asarray(target, float)
     return np.asarray(blocking, float) / np.where(t > 0, t, np.inf)
@@ -127,8 +133,8 @@ def _demand_section(network, ev, decimals, sim=None, label=None) -> Section:
     n = len(ev.demand_ids)
     own_iv = ev.blocking_interval
     verdict = combined_verdicts(ev)
-    level = (f"{100 * (sim or ev).confidence:g}% interval"
-             if (sim or ev).confidence else "interval")
+    src = sim if sim is not None else ev
+    level = f"{100 * src.confidence:g}% interval" if src.confidence else "interval"
     v_sets, r_sets = [verdict], [_ratio(ev.blocking, ev.target)]
     headers = ["demand", "between", "offered (E)"]
     cols = [[text_cell(d) for d in ev.demand_ids], _between(network, n),
@@ -143,7 +149,8 @@ def _demand_section(network, ev, decimals, sim=None, label=None) -> Section:
                 "verdict" if label is None else f"verdict ({label})"]
     cols += [prob_cells(ev.target, decimals), fixed_cells(r_sets[0], 2), _verdict_cells(verdict)]
     legend = ["Worst first: missed, then unclear, then met; within each, by blocking over "
-              "target. E: erlangs of offered traffic (mean number of calls or stays at once)."]
+              "target. E: erlangs of offered traffic (the mean number of calls or stays in "
+              "progress if none were lost)."]
     if sim is not None:
         sv = sim.verdicts()
         v_sets.append(sv)
@@ -260,8 +267,7 @@ def _curve_section(network, ev, unit, count) -> Section | None:
 
 
 def _decimals(network, ev) -> int:
-    targets = [float(t) for t in ev.target] + ([network.default_target] if network else [])
-    return decimals_for(targets)
+    return decimals_for(ev.target)
 
 
 def evaluation_sections(network, ev, *, kind=None, seed=None, measure="utilisation",
@@ -310,6 +316,12 @@ def _cautions(network, kind, evs) -> Section:
                    + "</ul>")
 
 
+def _check_same(network, ev, what):
+    if tuple(ev.link_ids) != network.link_ids or tuple(ev.demand_ids) != network.demand_ids:
+        raise ValueError(f"report: the {what} is not of network '{network.name}' "
+                         "(its links or demands differ)")
+
+
 def evaluation_html(network, evaluation, *, title=None, kind=None, seed=None, source=None,
                     measure="utilisation", curves=4, sections=()) -> str:
     """The HTML report of an evaluation of ``network`` at its capacities.
@@ -347,11 +359,7 @@ def evaluation_html(network, evaluation, *, title=None, kind=None, seed=None, so
     NetdimError
         matplotlib is not installed.
     """
-    if tuple(evaluation.link_ids) != network.link_ids or \
-            tuple(evaluation.demand_ids) != network.demand_ids:
-        raise ValueError(f"report: the evaluation is not of network '{network.name}' "
-                         "(its links or demands differ)")
-    figures.reset_ids()
+    _check_same(network, evaluation, "evaluation")
     body = evaluation_sections(network, evaluation, kind=kind, seed=seed, measure=measure,
                                curves=curves)
     body += list(sections)
@@ -383,20 +391,24 @@ def plan_html(plan, *, network=None, title=None, kind=None, source=None,
     Raises
     ------
     ValueError
-        No network to draw, or an unknown ``kind`` or ``measure``.
+        No network to draw, a network the plan is not for, or an unknown ``kind`` or
+        ``measure``.
     NetdimError
         matplotlib is not installed.
     """
     net = network if network is not None else plan.network
     if net is None:
         raise ValueError("report: the plan carries no network; pass network=")
+    _check_same(net, plan.evaluation, "plan")
     check_kind(kind)
     ev = plan.evaluation
     ver = plan.verification
     unit = KINDS[kind]["unit"]
     dec = _decimals(net, ev)
-    figures.reset_ids()
-    verdict = combined_verdicts(ev) if ver is None else ver.verdicts()
+    # the summary promises only what both the model and the simulation support
+    verdict = combined_verdicts(ev)
+    if ver is not None:
+        verdict = _worse(verdict, ver.verdicts())
     built = int((plan.capacities > 0).sum())
     money = plan_costs(plan)
     facts = [("status", plan.status), ("result", verdict_counts_words(verdict)),
