@@ -168,6 +168,7 @@ def network_map(network, capacity, value, *, measure="utilisation", unit="units"
         An ``<svg>`` element.
     """
     matplotlib, fig = _figure(8.0, 6.0)
+    # optional heavy import (netdim[report]); _figure has said how to install it if missing
     from matplotlib import colormaps, colors, ticker
     from matplotlib.cm import ScalarMappable
     from matplotlib.lines import Line2D
@@ -334,7 +335,7 @@ def erlang_curves(link_ids, capacity, offered, blocking, *, blocking_alternate=N
 # -- charts for the studies -----------------------------------------------------------------
 def _log_axis(axis):
     """A logarithmic axis with labelled decades only (minor tick labels cost seconds)."""
-    from matplotlib import ticker
+    from matplotlib import ticker  # optional heavy import (netdim[report]), already loaded
 
     axis.set_major_locator(ticker.LogLocator(base=10, numticks=8))
     axis.set_minor_locator(ticker.NullLocator())
