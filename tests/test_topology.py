@@ -32,6 +32,7 @@ import networkx as nx
 import pytest
 import yaml
 
+from netdim import dimension
 from netdim.errors import NetworkFileError
 from netdim.netfile import read_network
 from netdim.topology import (
@@ -490,6 +491,20 @@ def test_table_problems_are_file_line_and_all_reported(tmp_path):
     ]
 
 
+def test_table_across_parts_and_too_many_problems(tmp_path):
+    path = write_graphml(tmp_path, messy_graph())
+    topo = read_topology(path, all_parts=True)
+    table = tmp_path / "t.csv"
+    table.write_text("origin,destination,erlangs\nIslet,d,1\n" + "d,Nowhere,1\n" * 60)
+    with pytest.raises(NetworkFileError) as err:
+        pair_traffic(topo, DemandTable(str(table)))
+    problems = err.value.problems
+    assert problems[0] == (f"{table}:2: sites 'Islet' and 'd' are in parts of the network "
+                           "that no link joins")
+    assert len(problems) == 51   # MAX_PROBLEMS shown, then a count of the rest
+    assert problems[-1] == f"{table}: and 11 more problems not shown"
+
+
 def test_table_header_and_empty_problems(tmp_path):
     topo = read_topology(zoo("Abilene"))
     bad = tmp_path / "h.csv"
@@ -570,8 +585,6 @@ def test_explicit_routes_are_shortest_paths(tmp_path):
 
 
 def test_sizing_an_imported_topology_meets_targets_by_erlang_b(erlang_b_ref):
-    from netdim import dimension
-
     result = import_topology(zoo("Abilene"), Gravity(120.0, pairs=12),
                              costs=LinkCosts(module=1, module_cost=1.0, cost_per_km=0.001),
                              target=0.01)
@@ -597,8 +610,6 @@ def test_sizing_an_imported_topology_meets_targets_by_erlang_b(erlang_b_ref):
 
 
 def test_sizing_sndlib_polska_with_its_demands(tmp_path, erlang_b_ref):
-    from netdim import dimension
-
     topo_path, table, _, demands = sndlib_files(tmp_path, "polska")
     # SNDlib's values (unit not stated) taken as erlangs, scaled down to keep the test quick
     scaled = tmp_path / "scaled.csv"
@@ -633,6 +644,12 @@ def test_import_option_errors():
         import_topology(zoo("Abilene"), Uniform(1.0), routes="all")
     with pytest.raises(ValueError, match=r"max_routes: must be a whole number in \[1, 10000\]"):
         import_topology(zoo("Abilene"), Uniform(1.0), max_routes=0)
+    with pytest.raises(ValueError, match=r"max_hops: must be a whole number in \[1, 20\]"):
+        import_topology(zoo("Abilene"), Uniform(1.0), max_hops=21)
+    with pytest.raises(ValueError, match=r"reservation: must be a whole number in \[0, "):
+        import_topology(zoo("Abilene"), Uniform(1.0), reservation=-1)
+    with pytest.raises(ValueError, match=r"capacity: must be a whole number in \[0, "):
+        LinkCosts(capacity=2.5)
     with pytest.raises(ValueError, match="traffic: expected Gravity, Uniform or DemandTable"):
         import_topology(zoo("Abilene"), 100.0)
     with pytest.raises(ValueError, match=r"module: must be a whole number in \[1, "):
@@ -694,6 +711,25 @@ def test_write_text_mode_0644_whatever_the_umask(tmp_path):
     finally:
         os.umask(old)
     assert (tmp_path / "a.yaml").stat().st_mode & 0o777 == 0o644
+
+
+def test_write_text_without_hard_links(tmp_path, monkeypatch):
+    def no_links(src, dst):
+        raise PermissionError(1, "Operation not permitted")
+
+    monkeypatch.setattr(os, "link", no_links)
+    write_text("x\n", tmp_path / "a.yaml")
+    assert (tmp_path / "a.yaml").read_text() == "x\n"
+
+    def raced(src, dst):   # someone else writes the file between the check and the link
+        pathlib.Path(dst).write_text("theirs\n")
+        raise PermissionError(1, "Operation not permitted")
+
+    monkeypatch.setattr(os, "link", raced)
+    with pytest.raises(FileExistsError, match="already exists"):
+        write_text("x\n", tmp_path / "b.yaml")
+    assert (tmp_path / "b.yaml").read_text() == "theirs\n"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["a.yaml", "b.yaml"]
 
 
 def test_write_text_error_names_the_file(tmp_path):

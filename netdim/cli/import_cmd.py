@@ -95,7 +95,7 @@ def register(subparsers):
                    help="gravity: damp traffic by exp(-distance / D km)")
     g.add_argument("--pairs", type=_POS_INT, default=None, metavar="K",
                    help="gravity: keep the K largest demands (scaled to the total)")
-    g.add_argument("--per-pair", type=_NONNEG, default=None, metavar="E",
+    g.add_argument("--per-pair", type=_POS, default=None, metavar="E",
                    help="uniform: erlangs between every pair of sites")
     g.add_argument("--demands", default=None, metavar="FILE.csv",
                    help="read the demands from a CSV file with columns origin, destination, "

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import pathlib
 import statistics
 from dataclasses import dataclass
@@ -94,6 +95,10 @@ class ImportReport:
         Erlangs written, in total.
     traffic : str
         What the traffic is (one sentence).
+    traffic_model : dict
+        The model and its parameters: ``model`` (``'gravity'``, ``'uniform'`` or
+        ``'table'``) and the fields of :class:`Gravity`, :class:`Uniform` or
+        :class:`DemandTable`.
     routing : dict
         ``policy``, ``max_hops``, ``max_routes``, ``reservation``, ``routes``
         (``'generated'`` or ``'explicit'``).
@@ -112,6 +117,7 @@ class ImportReport:
     parts: int
     offered_traffic: float
     traffic: str
+    traffic_model: dict
     routing: dict
     findings: tuple[Finding, ...]
 
@@ -121,7 +127,8 @@ class ImportReport:
             "name": self.name, "nodes": self.nodes, "edges": self.edges,
             "sites": self.sites, "links": self.links, "demands": self.demands,
             "parts": self.parts, "offered_traffic": self.offered_traffic,
-            "traffic": self.traffic, "routing": dict(self.routing),
+            "traffic": self.traffic, "traffic_model": dict(self.traffic_model),
+            "routing": dict(self.routing),
             "findings": [f.to_dict() for f in self.findings],
         }
 
@@ -191,6 +198,15 @@ def import_topology(path, traffic, *, format=None, costs=None, target=0.01, poli
     ----------
     .. [1] J. Y. Yen, "Finding the K shortest loopless paths in a network", Management
        Science 17(11):712-716, 1971.
+
+    Examples
+    --------
+    >>> from netdim.topology import Gravity, LinkCosts, import_topology, write_text
+    >>> result = import_topology("networks/topozoo-Abilene.graphml", Gravity(300.0),
+    ...                          costs=LinkCosts(module=30, cost_per_km=0.02))
+    >>> len(result.network.sites), len(result.network.links), len(result.network.demands)
+    (11, 14, 55)
+    >>> write_text(result.text, "abilene.yaml")  # doctest: +SKIP
     """
     costs = LinkCosts() if costs is None else costs
     _check_options(traffic, target, policy, max_hops, max_routes, reservation, routes)
@@ -240,11 +256,17 @@ def import_topology(path, traffic, *, format=None, costs=None, target=0.01, poli
         nodes=topo.nodes, edges=topo.edges, sites=len(net.sites), links=len(net.links),
         demands=len(net.demands), parts=topo.parts,
         offered_traffic=float(sum(d.traffic for d in net.demands)), traffic=traffic_text,
+        traffic_model=_model_dict(traffic),
         routing={"policy": policy, "max_hops": max_hops, "max_routes": max_routes,
                  "reservation": reservation, "routes": routes},
         findings=tuple(found),
     )
     return ImportResult(text=text, network=net, report=report)
+
+
+def _model_dict(traffic) -> dict:
+    kind = {Gravity: "gravity", Uniform: "uniform", DemandTable: "table"}[type(traffic)]
+    return {"model": kind, **dataclasses.asdict(traffic)}
 
 
 def _check_options(traffic, target, policy, max_hops, max_routes, reservation, routes):
