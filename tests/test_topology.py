@@ -231,6 +231,10 @@ def test_all_parts_keeps_both_parts_and_pairs_stay_within(tmp_path):
     path = write_graphml(tmp_path, messy_graph())
     topo = read_topology(path, all_parts=True)
     assert [s.id for s in topo.sites][-2:] == ["Islet", "Skerry"] and topo.parts == 2
+    f = {x.what: x for x in topo.findings}
+    assert "other_parts" not in f
+    assert f["several_parts"].message == ("kept 2 parts not joined to each other; demands only "
+                                          "within a part")
     demands, _, _ = pair_traffic(topo, Uniform(2.0))
     # 4 sites in the first part (6 pairs) and 2 in the second (1 pair)
     assert len(demands) == 7 and ("Islet", "Skerry") in [d.between for d in demands]

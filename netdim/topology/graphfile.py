@@ -271,59 +271,19 @@ def _find_attr(attrs, names):
 
 
 def _tidy(graph, source, fmt, digest, coordinates, site_ids, all_parts) -> Topology:
-    found = []
     nodes = [str(n) for n in graph.nodes]
     attrs = {str(n): dict(a) for n, a in graph.nodes(data=True)}
-    n_edges = graph.number_of_edges()
     if len(nodes) < 2:
         raise NetworkFileError(f"{source}: has {len(nodes)} node(s); a network needs at least "
                                "two sites joined by an edge")
-
-    # edges -> one link per pair of distinct nodes, in file order
-    loops, pairs = [], {}
-    for u, v in ((str(u), str(v)) for u, v, *_ in graph.edges):
-        if u == v:
-            loops.append(u)
-            continue
-        key = frozenset((u, v))
-        if key in pairs:
-            first = pairs[key]
-            first[2 if graph.is_directed() and first[0][0] == v else 1] += 1
-        else:
-            pairs[key] = [(u, v), 0, 0]  # ends, parallel edges, opposite-direction edges
-    if loops:
-        found.append(finding("dropped", "self_loops",
-                             [f"node {_show_node(n, attrs)}" for n in loops],
-                             f"dropped {len(loops)} self-loop(s) (edges from a node to itself)"))
+    pairs, found = _merge_edges(graph, attrs)
     if not pairs:
         raise NetworkFileError(f"{source}: has no edge between two different nodes; nothing "
                                "to link")
-
     simple = nx.Graph()
     simple.add_nodes_from(nodes)
     simple.add_edges_from(p[0] for p in pairs.values())
-    isolated = [n for n in nodes if simple.degree(n) == 0]
-    if isolated:
-        found.append(finding("dropped", "isolated_nodes", [_show_node(n, attrs) for n in isolated],
-                             f"dropped {len(isolated)} node(s) without edges"))
-        simple.remove_nodes_from(isolated)
-    order = {n: i for i, n in enumerate(nodes)}
-    parts = sorted((sorted(c, key=order.get) for c in nx.connected_components(simple)),
-                   key=lambda c: (-len(c), order[c[0]]))
-    part_of = {n: i for i, c in enumerate(parts) for n in c}
-    dropped = [(n, _label(attrs[n]), "no edges") for n in isolated]
-    if len(parts) > 1 and not all_parts:
-        gone = [n for c in parts[1:] for n in c]
-        dropped += [(n, _label(attrs[n]), "not joined to the largest part") for n in gone]
-        found.append(finding("dropped", "other_parts", [_show_node(n, attrs) for n in gone],
-                             f"dropped {len(parts) - 1} part(s) not joined to the largest "
-                             f"({len(gone)} node(s), "
-                             f"{sum(simple.degree(n) for n in gone) // 2} edge(s))"))
-        simple.remove_nodes_from(gone)
-    elif len(parts) > 1:
-        found.append(finding("guessed", "several_parts", [],
-                             f"kept {len(parts)} parts not joined to each other; demands only "
-                             "within a part"))
+    part_of, dropped = _keep_parts(simple, nodes, attrs, all_parts, found)
     kept = [n for n in nodes if n in simple]
 
     ids = _site_ids(kept, attrs, site_ids)
@@ -335,8 +295,8 @@ def _tidy(graph, source, fmt, digest, coordinates, site_ids, all_parts) -> Topol
             bad.append(n)
     missing = [ids[n] for n in kept if lon_lat[n][0] is None]
     if missing:
-        text = f"{len(missing)} site(s) without usable coordinates (kept without a position"
-        text += "; their links have no length)"
+        text = (f"{len(missing)} site(s) without usable coordinates (kept without a position; "
+                "their links have no length)")
         if bad:
             text += f"; {len(bad)} of them had values out of range or not numbers"
         found.append(finding("guessed", "no_coordinates", missing, text))
@@ -348,7 +308,7 @@ def _tidy(graph, source, fmt, digest, coordinates, site_ids, all_parts) -> Topol
         for n in kept
     )
     links, link_ids = [], set()
-    parallel, reverse = [], []
+    merged = {"parallel_edges": {}, "reverse_edges": {}}
     for (u, v), n_par, n_rev in pairs.values():
         if u in simple and v in simple:
             (lo1, la1), (lo2, la2) = lon_lat[u], lon_lat[v]
@@ -357,23 +317,72 @@ def _tidy(graph, source, fmt, digest, coordinates, site_ids, all_parts) -> Topol
             links.append(TopologyLink(lid, (ids[u], ids[v]), length, 1 + n_par + n_rev))
         else:
             lid = f"{u}-{v} (dropped)"
-        parallel += [lid] * n_par
-        reverse += [lid] * n_rev
-    for what, merged, text in (
-            ("parallel_edges", parallel, "merged {n} parallel edge(s) into the link they "
-             "duplicate"),
-            ("reverse_edges", reverse, "the file is directed: merged {n} edge(s) with the "
-             "opposite direction of the same pair (links are both-way)")):
-        if merged:
-            counts = {}
-            for lid in merged:
-                counts[lid] = counts.get(lid, 0) + 1
+        for what, n in (("parallel_edges", n_par), ("reverse_edges", n_rev)):
+            if n:
+                merged[what][lid] = n
+    for what, text in (
+            ("parallel_edges", "merged {n} parallel edge(s) into the link they duplicate"),
+            ("reverse_edges", "the file is directed: merged {n} edge(s) with the opposite "
+             "direction of the same pair (links are both-way)")):
+        counts = merged[what]
+        if counts:
             found.append(finding("merged", what, [f"{k} (+{c})" for k, c in counts.items()],
-                                 text.format(n=len(merged)) + f", on {len(counts)} link(s)"))
+                                 text.format(n=sum(counts.values()))
+                                 + f", on {len(counts)} link(s)"))
     return Topology(source=source, format=fmt, name=_graph_name(graph, source), digest=digest,
-                    nodes=len(nodes), edges=n_edges, directed=graph.is_directed(),
-                    sites=sites, links=tuple(links), findings=tuple(found),
-                    dropped_nodes=tuple(dropped))
+                    nodes=len(nodes), edges=graph.number_of_edges(),
+                    directed=graph.is_directed(), sites=sites, links=tuple(links),
+                    findings=tuple(found), dropped_nodes=tuple(dropped))
+
+
+def _merge_edges(graph, attrs):
+    """One entry per pair of distinct nodes, in file order: ``[ends, parallel edges,
+    opposite-direction edges]``; and the finding about self-loops."""
+    loops, pairs = [], {}
+    for u, v in ((str(u), str(v)) for u, v, *_ in graph.edges):
+        if u == v:
+            loops.append(u)
+            continue
+        key = frozenset((u, v))
+        if key in pairs:
+            first = pairs[key]
+            first[2 if graph.is_directed() and first[0][0] == v else 1] += 1
+        else:
+            pairs[key] = [(u, v), 0, 0]
+    found = []
+    if loops:
+        found.append(finding("dropped", "self_loops",
+                             [f"node {_show_node(n, attrs)}" for n in loops],
+                             f"dropped {len(loops)} self-loop(s) (edges from a node to itself)"))
+    return pairs, found
+
+
+def _keep_parts(simple, nodes, attrs, all_parts, found):
+    """Drop nodes without edges and (unless ``all_parts``) the parts not joined to the
+    largest, from ``simple`` in place; return each kept node's part and the dropped nodes."""
+    isolated = [n for n in nodes if simple.degree(n) == 0]
+    dropped = [(n, _label(attrs[n]), "no edges") for n in isolated]
+    if isolated:
+        found.append(finding("dropped", "isolated_nodes", [_show_node(n, attrs) for n in isolated],
+                             f"dropped {len(isolated)} node(s) without edges"))
+        simple.remove_nodes_from(isolated)
+    order = {n: i for i, n in enumerate(nodes)}
+    parts = sorted((sorted(c, key=order.get) for c in nx.connected_components(simple)),
+                   key=lambda c: (-len(c), order[c[0]]))
+    if len(parts) > 1 and not all_parts:
+        gone = [n for c in parts[1:] for n in c]
+        dropped += [(n, _label(attrs[n]), "not joined to the largest part") for n in gone]
+        found.append(finding("dropped", "other_parts", [_show_node(n, attrs) for n in gone],
+                             f"dropped {len(parts) - 1} part(s) not joined to the largest "
+                             f"({len(gone)} node(s), "
+                             f"{sum(simple.degree(n) for n in gone) // 2} edge(s))"))
+        simple.remove_nodes_from(gone)
+        parts = parts[:1]
+    elif len(parts) > 1:
+        found.append(finding("chosen", "several_parts", [],
+                             f"kept {len(parts)} parts not joined to each other; demands only "
+                             "within a part"))
+    return {n: i for i, c in enumerate(parts) for n in c}, dropped
 
 
 def _unique(base, taken):
