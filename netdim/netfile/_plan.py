@@ -20,7 +20,8 @@ import os
 import yaml
 
 from netdim.errors import NetworkFileError
-from netdim.netfile._write import write_atomic
+from netdim.netfile._read import loads_network, read_network_text
+from netdim.netfile._write import check_capacities, dumps_network, write_atomic
 from netdim.netfile._yaml import _Parser
 
 __all__ = ["dumps_plan", "write_plan", "check_plan_path", "ADDED"]
@@ -73,8 +74,6 @@ def write_plan(network, path, capacities, *, text=None, force=False) -> None:
     OSError
         The file cannot be written; an existing file is left as it was.
     """
-    from netdim.netfile import dumps_network, read_network_text  # the package's own API
-
     check_plan_path(network.source, path, force)
     if text is None and network.source and os.path.isfile(network.source):
         try:
@@ -109,10 +108,7 @@ def dumps_plan(text: str, network, capacities) -> str:
     ValueError
         Wrong capacities, or the text does not read back to the network with them.
     """
-    from netdim.netfile import loads_network  # the package's own reader
-    from netdim.netfile._write import _check_caps
-
-    caps = _check_caps(network, capacities)
+    caps = check_capacities(network, capacities)
     places = _link_places(text)
     if len(places) != len(network.links):
         raise ValueError(f"{_name(network)}: the text has {len(places)} links, the network "

@@ -17,7 +17,8 @@ import yaml
 from netdim.model import Demand, Link, Network, Route
 from netdim.routing import RouteFinder, link_graph
 
-__all__ = ["write_network", "write_atomic", "dumps_network", "network_to_dict", "plain_data"]
+__all__ = ["write_network", "write_atomic", "check_capacities", "dumps_network",
+           "network_to_dict", "plain_data"]
 
 
 def plain_data(value):
@@ -80,7 +81,7 @@ def network_to_dict(network: Network, capacities=None) -> dict:
         routes (such a network cannot be written as a valid file).
     """
     if capacities is not None:
-        network = network.with_capacities(_check_caps(network, capacities))
+        network = network.with_capacities(check_capacities(network, capacities))
     out = {"name": network.name}
     out.update(plain_data(network.extra))
     out["defaults"] = _FlowMap(target=_num(network.default_target),
@@ -109,7 +110,7 @@ def network_to_dict(network: Network, capacities=None) -> dict:
     return out
 
 
-def _check_caps(network, capacities):
+def check_capacities(network, capacities):
     caps = np.asarray(capacities)
     if caps.shape != (len(network.links),):
         raise ValueError(f"capacities: expected {len(network.links)} values (one per link), "
