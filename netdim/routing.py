@@ -192,6 +192,10 @@ class RouteFinder:
         self.max_candidates = max_candidates
         self.max_steps = max_steps
         self._dist = OrderedDict()
+        # length and cost per edge, by the identity of the edge's data dict (keys need not be
+        # unique across a multigraph)
+        self._attrs = {id(d): (_edge_attr(d, "length"), _edge_attr(d, "cost_per_module"))
+                       for _, _, d in graph.edges(data=True)}
 
     def routes(self, origin, dest):
         """Routes from ``origin`` to ``dest`` as tuples of link ids, preferred first."""
@@ -211,20 +215,38 @@ class RouteFinder:
             paths = self._paths(start, goal, dist, hops, budget)
             if k is not None and len(paths) >= k:
                 break
+        attrs = self._attrs
         keyed = []
         for steps in paths:
             if start != origin:
                 steps = steps[::-1]
             ids = tuple(key for key, _ in steps)
+            # summed from the origin on, as every caller compares them (float sums depend on
+            # the order)
             keyed.append((
                 len(steps),
-                sum(_edge_attr(d, "length") for _, d in steps),
-                sum(_edge_attr(d, "cost_per_module") for _, d in steps),
+                sum(attrs[id(d)][0] for _, d in steps),
+                sum(attrs[id(d)][1] for _, d in steps),
                 ids,
             ))
         keyed.sort()
         routes = [item[3] for item in keyed]
         return routes if k is None else routes[:k]
+
+    def routes_many(self, pairs):
+        """:meth:`routes` of every ``(origin, dest)`` pair, in the order given.
+
+        The pairs are worked through grouped by origin, so that each site's distances are
+        found once. A pair over a work limit gets its :class:`RouteLimitError` in place of
+        its routes.
+        """
+        out = [None] * len(pairs)
+        for i in sorted(range(len(pairs)), key=lambda i: pairs[i][0]):
+            try:
+                out[i] = self.routes(*pairs[i])
+            except RouteLimitError as exc:
+                out[i] = exc
+        return out
 
     # -- internals --------------------------------------------------------------------------
     def _oriented(self, origin, dest):

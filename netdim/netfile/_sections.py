@@ -260,13 +260,18 @@ def parse_demands(reader, data, site_ids, links, unreadable, defaults, routing):
     defaults : dict
         What :func:`parse_defaults` returned.
     routing : Routing
+
+    Notes
+    -----
+    Routes are generated after the whole section is read, all demands at once (grouped by
+    site, see :meth:`~netdim.routing.RouteFinder.routes_many`).
     """
     link_pos = {link.id: i for i, link in enumerate(links)}
     good = [link for link in links if link.id not in unreadable]
     finder = RouteFinder(link_graph(good, sites=site_ids or ()), routing.max_hops,
                          routing.max_routes)
     context = (links, link_pos, unreadable, finder)
-    demands, seen = [], {}
+    rows, pending, seen = [], [], {}
     for line, item, m, did in _items(reader, data, "demands", "demand", DEMAND_KEYS,
                                      id_required=False):
         if did is not None:
@@ -290,9 +295,24 @@ def parse_demands(reader, data, site_ids, links, unreadable, defaults, routing):
         if between is None or did is None:
             continue
         hold = 1.0 if holding is BAD else float(holding)
-        routes, generated = parse_routes(reader, m, item, between, hold, routing, context)
-        if routes and bandwidth is not BAD:
-            _check_bandwidth(reader, m, item, routes, links, bandwidth)
+        if m.get("routes") is None and between[0] in finder.graph and (
+                between[1] in finder.graph):
+            routes = None  # generated below
+            pending.append((len(rows), between))
+        else:
+            routes = parse_routes(reader, m, item, between, hold, routing, context)[0]
+        rows.append([line, item, m, did, between, hold, traffic, bandwidth, target, value,
+                     routes])
+    found = finder.routes_many([between for _, between in pending])
+    for (row, _between), ids in zip(pending, found, strict=True):
+        rows[row][10] = _generated(reader, rows[row], ids, routing, link_pos, unreadable)
+    limits = [_limit(link) for link in links]
+    smallest = min((x for x in limits if x is not None), default=None)
+    demands = []
+    for line, item, m, did, between, hold, traffic, bandwidth, target, value, routes in rows:
+        generated = m.get("routes") is None
+        if routes and bandwidth is not BAD and smallest is not None and bandwidth > smallest:
+            _check_bandwidth(reader, m, item, routes, links, limits, bandwidth)
         demands.append(Demand(
             id=did, between=between,
             traffic=0.0 if traffic is BAD else float(traffic),
@@ -305,6 +325,20 @@ def parse_demands(reader, data, site_ids, links, unreadable, defaults, routing):
             routes_generated=generated,
         ))
     return demands
+
+
+def _generated(reader, row, found, routing, link_pos, unreadable):
+    """The Route objects of a demand's generated routes (``found``: ids, or the error)."""
+    _line, item, m, _did, between, hold = row[:6]
+    if isinstance(found, RouteLimitError):
+        reader.add(m.line, item, str(found))
+        return []
+    if not found and not unreadable:  # else the unreadable link may be why
+        reader.add(m.line, item,
+                   f"no possible route: no path of at most {routing.max_hops} links "
+                   f"joins '{between[0]}' and '{between[1]}' (add a link, give routes, "
+                   "or raise routing.max_hops)")
+    return [Route(tuple(link_pos[k] for k in ids), (hold,) * len(ids)) for ids in found]
 
 
 def _traffic(reader, m, item, holding, defaults):
@@ -431,21 +465,21 @@ def _steps(reader, seq, ritem, holding, link_pos, unreadable):
     return steps if ok else None
 
 
-def _check_bandwidth(reader, m, item, routes, links, bandwidth):
-    def limit(link):
-        # the most the link could ever hold: its sizing bound, else its capacity; a
-        # capacity of 0 is a link out of service (blocks every call), not a size limit
-        if link.max_capacity is not None:
-            return link.max_capacity
-        return link.capacity if link.capacity else None
+def _limit(link):
+    """The most a link could ever hold: its sizing bound, else its capacity (a capacity of
+    0 is a link out of service, which blocks every call, not a size limit); None: no limit."""
+    if link.max_capacity is not None:
+        return link.max_capacity
+    return link.capacity if link.capacity else None
 
+
+def _check_bandwidth(reader, m, item, routes, links, limits, bandwidth):
     def usable(route):
-        return all(limit(links[j]) is None or bandwidth <= limit(links[j])
-                   for j in route.links)
+        return all(limits[j] is None or bandwidth <= limits[j] for j in route.links)
 
     if not any(usable(r) for r in routes):
-        worst = min((limit(links[j]), links[j].id) for r in routes for j in r.links
-                    if limit(links[j]) is not None)
+        worst = min((limits[j], links[j].id) for r in routes for j in r.links
+                    if limits[j] is not None)
         reader.add(line_of(m, "bandwidth"), item,
                    f"bandwidth {bandwidth} fits no route: every route has a link that "
                    f"cannot hold it (e.g. link '{worst[1]}' with at most {worst[0]} units)")

@@ -127,9 +127,10 @@ def _short(tag):
 
 
 def _int(text):
-    digits = sum(c.isdigit() for c in text)
-    if digits > MAX_DIGITS:
-        return BadNumber(text, f"a number of {digits} digits")
+    if len(text) > MAX_DIGITS:
+        digits = sum(c.isdigit() for c in text)
+        if digits > MAX_DIGITS:
+            return BadNumber(text, f"a number of {digits} digits")
     try:
         if text.isdigit() and (len(text) == 1 or text[0] != "0"):
             return int(text)
@@ -139,9 +140,14 @@ def _int(text):
 
 
 def _float(text):
-    digits = sum(c.isdigit() for c in text)
-    if digits > MAX_DIGITS:
-        return BadNumber(text, f"a number of {digits} digits")
+    if len(text) > MAX_DIGITS:
+        digits = sum(c.isdigit() for c in text)
+        if digits > MAX_DIGITS:
+            return BadNumber(text, f"a number of {digits} digits")
+    try:
+        return float(text)  # plain decimal notation (what the resolver matched, mostly)
+    except ValueError:
+        pass
     try:
         return _CONSTRUCTOR.construct_yaml_float(yaml.ScalarNode(_TAG + "float", text))
     except ValueError:
@@ -190,60 +196,89 @@ def load(text: str):
         The text is not YAML, has more than one document, or breaks a limit above.
     """
     parser = _Parser(text)
+    get_event = parser.get_event
     problems = []
     anchors = {}  # anchor -> (object, expanded size)
     stack = []
     written = 0  # items as written (aliases count 1)
     root = None
     docs = 0
+    cache = {}  # plain scalar text -> value: ids and keys repeat thousands of times
+    Scalar, Alias = yaml.ScalarEvent, yaml.AliasEvent
+    MapStart, SeqStart = yaml.MappingStartEvent, yaml.SequenceStartEvent
+    ends = (yaml.MappingEndEvent, yaml.SequenceEndEvent)
     try:
         while True:
-            event = parser.get_event()
-            if isinstance(event, yaml.StreamEndEvent):
-                break
+            event = get_event()
             cls = type(event)
-            if cls is yaml.DocumentStartEvent:
-                docs += 1
-                if docs > 1:
-                    raise YamlProblem(event.start_mark.line + 1, "but found another document "
-                                      "(expected a single document in the stream)")
-                continue
-            if cls in (yaml.DocumentEndEvent, yaml.StreamStartEvent):
-                continue
-            line = event.start_mark.line + 1
-            written += 1
-            if cls is yaml.ScalarEvent:
-                value, size = _scalar(event), 1
-                if event.anchor is not None:
-                    anchors[event.anchor] = (value, 1)
-            elif cls is yaml.AliasEvent:
-                if event.anchor not in anchors:
-                    raise YamlProblem(line, f"found undefined alias '{event.anchor}'")
-                value, size = anchors[event.anchor]
-            elif cls in (yaml.MappingStartEvent, yaml.SequenceStartEvent):
-                is_map = cls is yaml.MappingStartEvent
-                if event.tag not in (None, "!") and event.tag not in _PLAIN_TAGS:
-                    raise YamlProblem(line, f"tag {_short(event.tag)} is not used in network "
-                                            "files (plain YAML only)")
-                if len(stack) >= MAX_DEPTH:
-                    raise YamlProblem(line, f"nested more than {MAX_DEPTH} levels deep")
-                stack.append(_Frame(Map(line) if is_map else Seq(line), event.anchor, is_map))
-                continue
-            else:  # MappingEndEvent / SequenceEndEvent
-                written -= 1
+            if cls is Scalar:
+                written += 1
+                size = 1
+                if event.tag is None and event.implicit[0] and event.anchor is None:
+                    value = cache.get(event.value, _NOKEY)
+                    if value is _NOKEY:
+                        value = _scalar(event)
+                        if len(cache) > 100_000:
+                            cache.clear()
+                        cache[event.value] = value
+                else:
+                    value = _scalar(event)
+                    if event.anchor is not None:
+                        anchors[event.anchor] = (value, 1)
+                line = event.start_mark.line + 1
+            elif cls in ends:
                 frame = stack.pop()
                 value, size, line = frame.obj, frame.size, frame.obj.line
                 if frame.merges:
                     size += _merge(frame, problems)
                 if frame.anchor is not None:
                     anchors[frame.anchor] = (value, size)
-            if size > 1 and size > MAX_EXPANSION * written + 10_000:
-                raise YamlProblem(line, f"aliases expand to more than {MAX_EXPANSION} times "
-                                        "the items written (a file that grows as it is read)")
+                if size > MAX_EXPANSION * written + 10_000:
+                    raise YamlProblem(line, f"aliases expand to more than {MAX_EXPANSION} "
+                                      "times the items written (a file that grows as it is "
+                                      "read)")
+            elif cls is MapStart or cls is SeqStart:
+                written += 1
+                line = event.start_mark.line + 1
+                if event.tag is not None and event.tag != "!" and event.tag not in _PLAIN_TAGS:
+                    raise YamlProblem(line, f"tag {_short(event.tag)} is not used in network "
+                                            "files (plain YAML only)")
+                if len(stack) >= MAX_DEPTH:
+                    raise YamlProblem(line, f"nested more than {MAX_DEPTH} levels deep")
+                is_map = cls is MapStart
+                stack.append(_Frame(Map(line) if is_map else Seq(line), event.anchor, is_map))
+                continue
+            elif cls is Alias:
+                written += 1
+                line = event.start_mark.line + 1
+                if event.anchor not in anchors:
+                    raise YamlProblem(line, f"found undefined alias '{event.anchor}'")
+                value, size = anchors[event.anchor]
+            elif cls is yaml.DocumentStartEvent:
+                docs += 1
+                if docs > 1:
+                    raise YamlProblem(event.start_mark.line + 1, "but found another document "
+                                      "(expected a single document in the stream)")
+                continue
+            elif cls is yaml.StreamEndEvent:
+                break
+            else:  # stream start, document end
+                continue
             if not stack:
                 root = value
                 continue
-            _add(stack[-1], value, size, line, problems)
+            frame = stack[-1]
+            frame.size += size
+            obj = frame.obj
+            if frame.is_map:
+                _add_to_map(frame, obj, value, line, problems)
+            else:
+                obj.append(value)
+                obj.lines.append(line)
+    except yaml.reader.ReaderError as exc:
+        char = exc.character if isinstance(exc.character, int) else ord(exc.character)
+        line = text.count("\n", 0, exc.position) + 1
+        raise YamlProblem(line, f"unacceptable character #x{char:04x}: {exc.reason}") from None
     except yaml.MarkedYAMLError as exc:
         mark = exc.problem_mark or exc.context_mark
         what = " ".join(str(exc.problem or exc).split())
@@ -257,13 +292,7 @@ def load(text: str):
     return root, problems
 
 
-def _add(frame, value, size, line, problems):
-    frame.size += size
-    obj = frame.obj
-    if not frame.is_map:
-        obj.append(value)
-        obj.lines.append(line)
-        return
+def _add_to_map(frame, obj, value, line, problems):
     if frame.key is _NOKEY:  # a key
         if isinstance(value, (Map, Seq)):
             problems.append((line, "a key must be plain text"))
