@@ -190,6 +190,7 @@ def bench_plan(repeat):
     except ImportError:
         YAML = None
         print("(ruamel.yaml not installed: round-trip column left out)")
+    print("(lines: lines removed plus lines added, by difflib)")
     print(f"{'file':>24} {'patch ms':>9} {'lines':>6} {'ruamel ms':>10} {'lines':>6} "
           f"{'ratio':>6}")
     files = sorted((ROOT / "networks").glob("*.yaml"))
@@ -210,6 +211,7 @@ def bench_plan(repeat):
             y = YAML()
             y.preserve_quotes = True
             y.width = 4096
+            y.indent(mapping=2, sequence=4, offset=2)  # the bundled files' layout
             data = y.load(text)
             for link, c in zip(data["links"], caps, strict=True):
                 link["capacity"] = int(c)
@@ -237,7 +239,7 @@ demands: [{between: [A, C], traffic: 1.5, routes: [[A-C], [A-B, {link: B-C, hold
 
 def _changed(before, after):
     diff = difflib.unified_diff(before.splitlines(), after.splitlines(), lineterm="", n=0)
-    return sum(1 for line in diff if line.startswith("+") and not line.startswith("+++"))
+    return sum(1 for line in diff if line[:1] in "+-" and line[:3] not in ("+++", "---"))
 
 
 # -- memory ----------------------------------------------------------------------------------
