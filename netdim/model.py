@@ -485,7 +485,7 @@ class Incidence:
 
     def matrix(self, values=None):
         """Routes x links sparse matrix (CSR) with ``values`` per step (default 1)."""
-        from scipy import sparse
+        from scipy import sparse  # heavy, and only this method needs it
 
         vals = np.ones(len(self.step_link)) if values is None else values
         return sparse.csr_matrix(

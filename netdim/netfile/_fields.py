@@ -60,7 +60,7 @@ class FieldReader:
         for key in m:
             if key in valid or (isinstance(key, str) and key.startswith(keep or "\0")):
                 continue
-            self.add(m.lines[key], item, unknown(f"unknown key {show(key)}", key, valid))
+            self.add(line_of(m, key), item, unknown(f"unknown key {show(key)}", key, valid))
             count += 1
         return count
 

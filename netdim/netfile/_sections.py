@@ -64,7 +64,7 @@ def section(reader, data, key, shape):
     value = data[key]
     ok = isinstance(value, Map) if shape == "mapping" else isinstance(value, Seq)
     if not ok:
-        reader.add(data.lines[key], key, f"must be a {shape}, got {kind(value)}")
+        reader.add(line_of(data, key), key, f"must be a {shape}, got {kind(value)}")
         return None
     return value
 
@@ -83,7 +83,7 @@ def _items(reader, data, key, what, keys, *, bare_ids=False, id_required=True):
         return
     seen = {}
     for i, raw in enumerate(seq):
-        line = seq.lines[i]
+        line = line_of(seq, i)
         item = f"{key}[{i + 1}]"
         if bare_ids and isinstance(raw, (str, int)) and not isinstance(raw, bool):
             m, ident = None, str(raw)
@@ -145,7 +145,7 @@ def parse_routing(reader, data) -> Routing:
         else:
             close = difflib.get_close_matches(str(raw)[:100], POLICIES, n=1)
             hint = f" (did you mean '{close[0]}'?)" if close else ""
-            reader.add(m.lines["policy"], "routing",
+            reader.add(line_of(m, "policy"), "routing",
                        f"unknown policy {show(raw)}{hint}; valid policies: "
                        + ", ".join(POLICIES))
     max_hops = reader.number(m, "max_hops", "routing", Routing.max_hops, integer=True, low=1,
@@ -412,7 +412,7 @@ def parse_routes(reader, m, item, between, holding, routing, context):
         return [], False
     routes, seen = [], {}
     for r, route_raw in enumerate(raw):
-        rline = raw.lines[r]
+        rline = line_of(raw, r)
         ritem = f"{item}: route {r + 1}"
         if not isinstance(route_raw, Seq) or not route_raw:
             reader.add(rline, ritem, f"must be a list of link ids, got {kind(route_raw)} "
@@ -437,7 +437,7 @@ def parse_routes(reader, m, item, between, holding, routing, context):
 def _steps(reader, seq, ritem, holding, link_pos, unreadable):
     steps, ok = [], True
     for s, raw in enumerate(seq):
-        sline = seq.lines[s]
+        sline = line_of(seq, s)
         step_holding = holding
         if isinstance(raw, Map):
             misspelt = reader.keys(raw, STEP_KEYS, ritem)

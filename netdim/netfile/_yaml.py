@@ -35,25 +35,31 @@ MAX_DIGITS = 100
 
 
 class Map(dict):
-    """A mapping that remembers its line and the line of each key (1-based)."""
+    """A mapping that remembers its line and the line of each key (1-based).
+
+    ``lines`` maps keys to lines; it is None while every key is on the mapping's own line
+    (a one-line flow mapping), which saves a dict per entry of a large file. Read lines with
+    :func:`line_of`.
+    """
 
     __slots__ = ("line", "lines")
 
     def __init__(self, line=1):
         super().__init__()
         self.line = line
-        self.lines = {}
+        self.lines = None
 
 
 class Seq(list):
-    """A sequence that remembers its line and the line of each item (1-based)."""
+    """A sequence that remembers its line and the line of each item (1-based); ``lines`` is
+    None while every item is on the sequence's own line (see :class:`Map`)."""
 
     __slots__ = ("line", "lines")
 
     def __init__(self, line=1):
         super().__init__()
         self.line = line
-        self.lines = []
+        self.lines = None
 
 
 class BadNumber(str):
@@ -274,7 +280,10 @@ def load(text: str):
                 _add_to_map(frame, obj, value, line, problems)
             else:
                 obj.append(value)
-                obj.lines.append(line)
+                if obj.lines is not None:
+                    obj.lines.append(line)
+                elif line != obj.line:
+                    obj.lines = [obj.line] * (len(obj) - 1) + [line]
     except yaml.reader.ReaderError as exc:
         char = exc.character if isinstance(exc.character, int) else ord(exc.character)
         line = text.count("\n", 0, exc.position) + 1
@@ -309,10 +318,18 @@ def _add_to_map(frame, obj, value, line, problems):
         return
     if key in obj:
         problems.append((frame.key_line,
-                         f"duplicate key '{key}' (first on line {obj.lines[key]})"))
+                         f"duplicate key '{key}' (first on line {line_of(obj, key)})"))
         return
     obj[key] = value
-    obj.lines[key] = frame.key_line
+    _note_line(obj, key, frame.key_line)
+
+
+def _note_line(obj, key, line):
+    if obj.lines is not None:
+        obj.lines[key] = line
+    elif line != obj.line:
+        obj.lines = dict.fromkeys(obj, obj.line)
+        obj.lines[key] = line
 
 
 def _merge(frame, problems):
@@ -329,7 +346,7 @@ def _merge(frame, problems):
             for key, item in src.items():
                 if key not in obj:
                     obj[key] = item
-                    obj.lines[key] = line
+                    _note_line(obj, key, line)
                     added += 1
     return added
 
@@ -338,9 +355,11 @@ def line_of(container, key, default=1):
     """The line of ``key`` in a :class:`Map` (or index in a :class:`Seq`), else of the
     container itself."""
     if isinstance(container, Map):
-        return container.lines.get(key, container.line)
+        lines = container.lines
+        return container.line if lines is None else lines.get(key, container.line)
     if isinstance(container, Seq):
-        if isinstance(key, int) and 0 <= key < len(container.lines):
-            return container.lines[key]
+        lines = container.lines
+        if lines is not None and isinstance(key, int) and 0 <= key < len(lines):
+            return lines[key]
         return container.line
     return default
