@@ -7,8 +7,9 @@ commands are not run (they read the file with the same reader first) and count t
 Each (file, command) is judged, and each file counted by its worst outcome, worst first:
 
 - ``traceback``: an exception escaped ``netdim.cli.main``;
-- ``hang``: no answer within the time limit (10 s a command; the worker is killed and
-  replaced when it does not come back);
+- ``hang``: no answer within the time limit (10 s of processor time a command, or of
+  elapsed time with ``--clock wall``; the worker is killed and replaced when it does not
+  come back);
 - ``memory``: MemoryError under the address-space limit;
 - ``unnamed error``: exit 2 with a message naming neither the file nor an item in quotes;
 - ``bad output``: exit 0, 1 or 3 without valid JSON, or JSON holding NaN or Infinity; or an
@@ -91,13 +92,19 @@ def _on_alarm(signum, frame):
     raise _Alarm
 
 
-def run_in_process(argv, seconds):
-    """(status, stdout, stderr, outcome override or None) of ``netdim.cli.main(argv)``."""
+def run_in_process(argv, seconds, clock="cpu"):
+    """(status, stdout, stderr, outcome override or None) of ``netdim.cli.main(argv)``.
+
+    ``clock``: 'cpu' stops the command after ``seconds`` of processor time (a busy machine
+    does not turn a slow answer into a hang), 'wall' after ``seconds`` of elapsed time.
+    """
     from netdim.cli import main
 
     out, err = io.StringIO(), io.StringIO()
-    signal.signal(signal.SIGALRM, _on_alarm)
-    signal.alarm(int(seconds))
+    which, sig = ((signal.ITIMER_PROF, signal.SIGPROF) if clock == "cpu"
+                  else (signal.ITIMER_REAL, signal.SIGALRM))
+    signal.signal(sig, _on_alarm)
+    signal.setitimer(which, seconds)
     try:
         with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
             status = main(argv)
@@ -113,10 +120,10 @@ def run_in_process(argv, seconds):
         tb = traceback.format_exception(exc)
         return -1, out.getvalue(), err.getvalue() + "".join(tb[-3:]), "traceback"
     finally:
-        signal.alarm(0)
+        signal.setitimer(which, 0)
 
 
-def worker(seconds, memory_gb):
+def worker(seconds, memory_gb, clock):
     limit = int(memory_gb * 2**30)
     resource.setrlimit(resource.RLIMIT_AS, (limit, limit))
     for line in sys.stdin:
@@ -130,7 +137,7 @@ def worker(seconds, memory_gb):
                 continue
             argv = [a.replace("{f}", path) for a in argv]
             t = time.perf_counter()
-            status, out, err, forced = run_in_process(argv, seconds)
+            status, out, err, forced = run_in_process(argv, seconds, clock)
             outcome = forced or judge(path, status, out, err)
             results[name] = {"outcome": outcome, "status": status,
                              "seconds": round(time.perf_counter() - t, 3),
@@ -169,7 +176,7 @@ def make_files(n, directory):
 class Worker:
     def __init__(self, args):
         cmd = [sys.executable, __file__, "--worker", "--seconds", str(args.seconds),
-               "--memory-gb", str(args.memory_gb)]
+               "--memory-gb", str(args.memory_gb), "--clock", args.clock]
         self.proc = subprocess.Popen(cmd, stdin=subprocess.PIPE, stdout=subprocess.PIPE,
                                      stderr=subprocess.DEVNULL, text=True, bufsize=1)
 
@@ -194,23 +201,39 @@ def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--files", type=int, default=500)
     ap.add_argument("--seconds", type=float, default=10, help="per command (default 10)")
+    ap.add_argument("--clock", choices=("cpu", "wall"), default="cpu",
+                    help="what --seconds counts: processor time (default) or elapsed time")
     ap.add_argument("--memory-gb", type=float, default=3.0)
     ap.add_argument("--workers", type=int, default=2)
     ap.add_argument("--out", default=None, help="write every result as JSON here")
     ap.add_argument("--keep", default=None, help="copy the worst files into this folder")
+    ap.add_argument("--skip", type=int, default=0, help="leave out the first K files")
+    ap.add_argument("--jsonl", default=None, help="append each file's result here as it ends")
+    ap.add_argument("--summarize", nargs="+", default=None, metavar="FILE",
+                    help="only print the counts of earlier --jsonl / --out files")
     ap.add_argument("--worker", action="store_true", help=argparse.SUPPRESS)
     args = ap.parse_args(argv)
     if args.worker:
-        return worker(args.seconds, args.memory_gb)
+        return worker(args.seconds, args.memory_gb, args.clock)
+    if args.summarize:
+        records = []
+        for name in args.summarize:
+            text = pathlib.Path(name).read_text()
+            if text.lstrip().startswith("["):
+                records += json.loads(text)
+            else:
+                records += [json.loads(line) for line in text.splitlines() if line.strip()]
+        report(records, 0.0, None)
+        return 0
     import concurrent.futures as cf
     import threading
 
     tmp = tempfile.mkdtemp(prefix="netdim-fuzz-")
-    files = make_files(args.files, tmp)
+    files = make_files(args.files, tmp)[args.skip:]
     local = threading.local()
     records = []
     lock = threading.Lock()
-    deadline = args.seconds * len(COMMANDS) + 30
+    deadline = args.seconds * len(COMMANDS) * (6 if args.clock == "cpu" else 1) + 30
 
     def one(item):
         mutation, path = item
@@ -225,6 +248,9 @@ def main(argv=None):
         answer["mutation"] = mutation
         with lock:
             records.append(answer)
+            if args.jsonl:
+                with open(args.jsonl, "a") as fh:
+                    fh.write(json.dumps(answer) + "\n")
             if len(records) % 50 == 0:
                 print(f"  {len(records)} of {len(files)} files", file=sys.stderr, flush=True)
 
@@ -232,6 +258,14 @@ def main(argv=None):
     with cf.ThreadPoolExecutor(args.workers) as pool:
         list(pool.map(one, files))
     elapsed = time.perf_counter() - t0
+    report(records, elapsed, args.keep)
+    if args.out:
+        pathlib.Path(args.out).write_text(json.dumps(records, indent=1))
+    return 0
+
+
+def report(records, elapsed, keep_dir):
+    """Print the counts by worst outcome per file, per command, and the smallest examples."""
     by_file = collections.Counter()
     by_command = collections.defaultdict(collections.Counter)
     examples = {}
@@ -259,15 +293,12 @@ def main(argv=None):
         last = err.strip().splitlines()[-1] if err.strip() else ""
         print(f"  {outcome:<13} {name:<13} {mutation:<16} {size:>8} B  {path}\n"
               f"      {last[:160]}")
-        if args.keep:
-            keep = pathlib.Path(args.keep)
+        if keep_dir:
+            keep = pathlib.Path(keep_dir)
             keep.mkdir(parents=True, exist_ok=True)
             if os.path.isfile(path):
                 shutil.copy(path, keep / f"{outcome.replace(' ', '-')}.{name}."
                                          f"{pathlib.Path(path).name}")
-    if args.out:
-        pathlib.Path(args.out).write_text(json.dumps(records, indent=1))
-    return 0
 
 
 def _size(path):
