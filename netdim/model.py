@@ -10,10 +10,14 @@ Units: traffic in erlangs, times in hours, capacity in units (circuits, spaces, 
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field, replace
 from functools import cached_property
 
 import numpy as np
+
+from netdim.errors import NetworkFileError
+from netdim.routing import check_path, link_graph
 
 __all__ = [
     "Site",
@@ -297,24 +301,151 @@ class Network:
         """The sites and links as a :class:`networkx.MultiGraph`.
 
         Nodes carry the site attributes; edges are keyed by link id and carry ``index`` (the
-        link's position), ``capacity``, ``length`` and ``cost_per_module``.
+        link's position), ``capacity``, ``length`` and ``cost_per_module`` (built on
+        :func:`netdim.routing.link_graph`).
         """
-        import networkx as nx
-
-        g = nx.MultiGraph(name=self.name)
+        g = link_graph(self.links)
+        g.graph["name"] = self.name
         for s in self.sites:
             g.add_node(s.id, name=s.name, x=s.x, y=s.y)
-        for i, link in enumerate(self.links):
-            g.add_edge(
-                link.ends[0],
-                link.ends[1],
-                key=link.id,
-                index=i,
-                capacity=link.capacity,
-                length=link.length,
-                cost_per_module=link.cost_per_module,
-            )
+        for link in self.links:
+            g.edges[link.ends[0], link.ends[1], link.id]["capacity"] = link.capacity
         return g
+
+    # -- checks and summaries -----------------------------------------------------------------
+    def validate(self) -> None:
+        """Check what a network built in Python could get wrong and a file reader would not.
+
+        Checks: ids unique; links join two distinct known sites; every demand joins two
+        distinct known sites and has at least one route; every route is a loop-free path
+        between the demand's ends (:func:`netdim.routing.check_path`) with a positive,
+        finite holding time per link; traffic and targets in range.
+
+        Raises
+        ------
+        NetworkFileError
+            One line per problem, ``NAME: ITEM: problem`` (NAME is ``source`` when set).
+        """
+        where = self.source or f"network '{self.name}'"
+        problems = []
+
+        def add(item, text):
+            problems.append(f"{where}: {item}: {text}")
+
+        site_ids = set()
+        for s in self.sites:
+            if s.id in site_ids:
+                add(f"site '{s.id}'", "duplicate id")
+            site_ids.add(s.id)
+        link_ids = set()
+        for link in self.links:
+            item = f"link '{link.id}'"
+            if link.id in link_ids:
+                add(item, "duplicate id")
+            link_ids.add(link.id)
+            if len(link.ends) != 2 or link.ends[0] == link.ends[1]:
+                add(item, f"ends must be two distinct sites, got {link.ends!r}")
+            elif not set(link.ends) <= site_ids:
+                add(item, f"ends {list(link.ends)} name a site that is not defined")
+        seen = set()
+        n_links = len(self.links)
+        for d in self.demands:
+            item = f"demand '{d.id}'"
+            if d.id in seen:
+                add(item, "duplicate id")
+            seen.add(d.id)
+            if len(d.between) != 2 or d.between[0] == d.between[1] or not (
+                    set(d.between) <= site_ids):
+                add(item, f"between must be two distinct known sites, got {d.between!r}")
+                continue
+            if not (math.isfinite(d.traffic) and d.traffic >= 0):
+                add(item, f"traffic must be a finite number >= 0, got {d.traffic!r}")
+            if not 0 < d.target < 1:
+                add(item, f"target must be in (0, 1), got {d.target!r}")
+            if not d.routes:
+                add(item, "has no route")
+            for r, route in enumerate(d.routes, start=1):
+                if not route.links or not all(0 <= j < n_links for j in route.links):
+                    add(f"{item}: route {r}", "link indices must be in "
+                        f"0..{n_links - 1}, got {list(route.links)}")
+                    continue
+                problem = check_path(self.links, route.links, d.between)
+                if problem is not None:
+                    add(f"{item}: route {r}", problem)
+                if not all(math.isfinite(h) and h > 0 for h in route.holdings):
+                    add(f"{item}: route {r}", "holding times must be finite and > 0")
+        if problems:
+            raise NetworkFileError(problems)
+
+    def summary(self) -> dict:
+        """Counts and totals, as ``netdim check`` shows them.
+
+        Returns
+        -------
+        dict
+            ``name``, ``source``, ``sites``, ``links``, ``demands``, ``routes`` (all
+            candidate routes), ``routes_generated`` / ``routes_given`` (routes of demands
+            whose routes were generated / given in the file), ``demands_generated`` (demands
+            with generated routes), ``longest_route`` (links), ``longest_route_given`` and
+            ``longest_route_generated`` (links; 0 when there are none), ``offered_traffic``
+            (total erlangs), ``policy``, ``max_hops`` (the limit on generated routes),
+            ``reservation``, ``max_routes``, ``links_without_capacity`` (ids),
+            ``capacity_total``, ``multirate``, ``holding_overrides``, ``economic`` (demands
+            with a value).
+        """
+        gen = [d for d in self.demands if d.routes_generated]
+        routes_gen = sum(len(d.routes) for d in gen)
+        routes_all = sum(len(d.routes) for d in self.demands)
+
+        def longest(demands):
+            return max((rt.hops for d in demands for rt in d.routes), default=0)
+
+        r = self.routing
+        return {
+            "name": self.name,
+            "source": self.source,
+            "sites": len(self.sites),
+            "links": len(self.links),
+            "demands": len(self.demands),
+            "routes": routes_all,
+            "routes_generated": routes_gen,
+            "routes_given": routes_all - routes_gen,
+            "demands_generated": len(gen),
+            "longest_route": longest(self.demands),
+            "offered_traffic": float(sum(d.traffic for d in self.demands)),
+            "policy": r.policy,
+            "max_hops": r.max_hops,
+            "reservation": r.reservation,
+            "max_routes": r.max_routes,
+            "links_without_capacity": [k.id for k in self.links if k.capacity is None],
+            "capacity_total": int(sum(k.capacity or 0 for k in self.links)),
+            "multirate": self.is_multirate,
+            "holding_overrides": self.has_holding_overrides,
+            "economic": sum(1 for d in self.demands if d.value is not None),
+            "longest_route_given": longest(d for d in self.demands if not d.routes_generated),
+            "longest_route_generated": longest(gen),
+        }
+
+    def route_listing(self) -> list[dict]:
+        """Every demand's routes in preference order, by link id.
+
+        Returns
+        -------
+        list of dict
+            One per demand: ``demand``, ``between``, ``generated`` (bool), ``routes``: a
+            list of ``{"links": [ids], "holdings": [hours per link]}``.
+        """
+        ids = self.link_ids
+        return [
+            {
+                "demand": d.id,
+                "between": list(d.between),
+                "generated": bool(d.routes_generated),
+                "routes": [{"links": [ids[j] for j in rt.links],
+                            "holdings": [float(h) for h in rt.holdings]} for rt in d.routes],
+            }
+            for d in self.demands
+        ]
 
 
 @dataclass(frozen=True)
@@ -358,7 +489,7 @@ class Incidence:
 
     def matrix(self, values=None):
         """Routes x links sparse matrix (CSR) with ``values`` per step (default 1)."""
-        from scipy import sparse
+        from scipy import sparse  # heavy, and only this method needs it
 
         vals = np.ones(len(self.step_link)) if values is None else values
         return sparse.csr_matrix(

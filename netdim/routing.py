@@ -1,19 +1,41 @@
-"""Candidate routes generated from the topology.
+"""Candidate routes generated from the topology, and the rule a given route must follow.
 
 A demand without explicit routes gets the loop-free paths between its ends, in a fixed order:
-direct links first, then longer paths up to ``max_hops`` links; among paths of equal hop count
-the shorter total length first, then the lower total cost per module, then the link ids (so the
+fewest links first; among paths of equal hop count the shorter total length first (a link
+without a length counts 0), then the lower total cost per module, then the link ids (so the
 order never depends on dictionary or hash order). Parallel links between the same sites are
-separate links and so give separate routes.
+separate links and so give separate routes. With ``max_routes`` = k only the first k of that
+order are kept, and only the paths needed to know them are looked at (see
+:class:`RouteFinder`).
 
 Nothing here knows about demands' traffic, capacities or evaluation.
 """
 
 from __future__ import annotations
 
+import itertools
+from collections import OrderedDict
+
 import networkx as nx
 
-__all__ = ["candidate_routes", "link_graph"]
+__all__ = [
+    "candidate_routes",
+    "link_graph",
+    "check_path",
+    "RouteFinder",
+    "RouteLimitError",
+    "MAX_CANDIDATES",
+    "MAX_SEARCH_STEPS",
+]
+
+#: Most routes one demand may generate when ``max_routes`` is not set.
+MAX_CANDIDATES = 10_000
+#: Most search steps (sites tried) spent on one demand's routes.
+MAX_SEARCH_STEPS = 2_000_000
+
+
+class RouteLimitError(ValueError):
+    """Route generation for a demand would take more than a stated limit of work."""
 
 
 def link_graph(links, sites=()) -> nx.MultiGraph:
@@ -45,9 +67,46 @@ def link_graph(links, sites=()) -> nx.MultiGraph:
     return g
 
 
-def _edge_attr(data, name) -> float:
-    value = data.get(name)
-    return 0.0 if value is None else float(value)
+def check_path(links, route, between) -> str | None:
+    """Why a sequence of links is not a route of a demand, or None when it is one.
+
+    Parameters
+    ----------
+    links : sequence of Link
+        The network's links (anything with ``id`` and ``ends``).
+    route : sequence of int
+        Indices into ``links``, in the order a call crosses them (at least one).
+    between : tuple of str
+        The demand's two sites; the route may start at either.
+
+    Returns
+    -------
+    str or None
+        The problem (a sentence naming the link or site), None for a loop-free path that
+        joins the two sites.
+    """
+    a, b = between
+    first = links[route[0]].ends
+    if a in first:
+        here, goal = a, b
+    elif b in first:
+        here, goal = b, a
+    else:
+        return (f"first link '{links[route[0]].id}' does not touch '{a}' or '{b}' (a route "
+                "must join the demand's ends)")
+    visited = {here}
+    for j in route:
+        ends = links[j].ends
+        if here not in ends:
+            return (f"link '{links[j].id}' does not continue from site '{here}' (the links "
+                    "of a route must form a path)")
+        here = ends[1] if ends[0] == here else ends[0]
+        if here in visited:
+            return f"visits site '{here}' twice (a route must be loop-free)"
+        visited.add(here)
+    if here != goal:
+        return f"ends at '{here}', not at '{goal}'"
+    return None
 
 
 def candidate_routes(network_or_graph, origin, dest, max_hops: int, max_routes=None):
@@ -58,7 +117,7 @@ def candidate_routes(network_or_graph, origin, dest, max_hops: int, max_routes=N
     network_or_graph : Network or networkx.MultiGraph
         A network (its :meth:`~netdim.model.Network.to_graph` is used) or a multigraph whose
         edge keys are link ids (text, or at least mutually comparable), as :func:`link_graph`
-        builds. When generating routes for many demands, build the graph once and pass it.
+        builds. When generating routes for many demands, use one :class:`RouteFinder`.
     origin, dest : str
         Site ids (distinct).
     max_hops : int
@@ -77,73 +136,209 @@ def candidate_routes(network_or_graph, origin, dest, max_hops: int, max_routes=N
     ------
     ValueError
         Unknown site, ``origin == dest``, or ``max_hops`` / ``max_routes`` below 1.
-
-    Notes
-    -----
-    Paths are enumerated with :func:`networkx.all_simple_edge_paths` (simple paths: no site
-    visited twice); for ``max_hops <= 2`` the direct and two-link paths are read off the
-    adjacency directly, which gives the same set far faster on dense meshes.
+    RouteLimitError
+        More than :data:`MAX_CANDIDATES` routes, or more than :data:`MAX_SEARCH_STEPS` steps
+        of search, would be needed (lower ``max_hops`` or set ``max_routes``).
     """
     graph = network_or_graph
     if not isinstance(graph, nx.Graph):
         graph = network_or_graph.to_graph()
-    for name, site in (("origin", origin), ("dest", dest)):
-        if site not in graph:
-            raise ValueError(f"{name}: site '{site}' is not in the network")
-    if origin == dest:
-        raise ValueError(f"origin and dest are the same site '{origin}'")
-    if isinstance(max_hops, bool) or int(max_hops) != max_hops or max_hops < 1:
-        raise ValueError(f"max_hops: must be an integer >= 1, got {max_hops!r}")
-    if max_routes is not None and (
-        isinstance(max_routes, bool) or int(max_routes) != max_routes or max_routes < 1
-    ):
-        raise ValueError(f"max_routes: must be an integer >= 1 or None, got {max_routes!r}")
-
-    # the plain dict-of-dicts behind graph.adj: views cost a call per look-up, and dense
-    # meshes make millions of them
-    adj = getattr(graph, "_adj", None) or graph.adj
-    if max_hops <= 2:
-        keyed = _short_paths(adj, origin, dest, max_hops)
-    else:
-        keyed = [
-            _keyed([(k, adj[u][v][k]) for u, v, k in path])
-            for path in nx.all_simple_edge_paths(graph, origin, dest, cutoff=int(max_hops))
-        ]
-    keyed.sort()
-    routes = [item[3] for item in keyed]
-    if max_routes is not None:
-        routes = routes[: int(max_routes)]
-    return routes
+    return RouteFinder(graph, max_hops, max_routes).routes(origin, dest)
 
 
-def _keyed(steps):
-    """(hops, total length, total cost per module, ids): the sort key, ids last."""
-    ids = tuple(k for k, _ in steps)
-    return (
-        len(steps),
-        sum(_edge_attr(d, "length") for _, d in steps),
-        sum(_edge_attr(d, "cost_per_module") for _, d in steps),
-        ids,
-        ids,
-    )
+class RouteFinder:
+    """Candidate routes of many demands over one graph (see :func:`candidate_routes`).
 
+    Parameters
+    ----------
+    graph : networkx.MultiGraph
+        As :func:`link_graph` builds.
+    max_hops : int
+        Longest route, in links.
+    max_routes : int, optional
+        Routes kept per demand (None: every route of at most ``max_hops`` links).
+    max_candidates, max_steps : int
+        Work limits per demand (:data:`MAX_CANDIDATES`, :data:`MAX_SEARCH_STEPS`).
 
-def _short_paths(adj, origin, dest, max_hops):
-    """Sort keys of the direct and (when ``max_hops == 2``) two-link paths."""
-    out = []
-    for k, d in adj[origin].get(dest, {}).items():
-        out.append((1, _edge_attr(d, "length"), _edge_attr(d, "cost_per_module"), (k,), (k,)))
-    if max_hops >= 2:
-        for mid, keys in adj[origin].items():
-            if mid == dest or mid == origin:
+    Notes
+    -----
+    The search is a depth-first listing of simple paths (no site twice) pruned by hop
+    distance: a site is entered only when the links used so far plus its breadth-first
+    distance to the destination fit in the hop limit, and the last link is looked up
+    directly. With ``max_routes`` = k the hop limit grows from the shortest distance one
+    link at a time until k paths are found; since hop count is the first sort key, the paths
+    of at most that many links hold the first k of the full order, which is the same
+    answer as listing every path (as :func:`networkx.all_simple_edge_paths` would) and
+    sorting. Distances are kept for the last 64 destinations (files usually list demands
+    site by site). :func:`networkx.shortest_simple_paths` (Yen's algorithm) gives the same
+    paths but was measured slower here (docs/measurements/netfile.md).
+    """
+
+    _CACHE = 64
+
+    def __init__(self, graph, max_hops, max_routes=None, *, max_candidates=MAX_CANDIDATES,
+                 max_steps=MAX_SEARCH_STEPS):
+        if isinstance(max_hops, bool) or int(max_hops) != max_hops or max_hops < 1:
+            raise ValueError(f"max_hops: must be an integer >= 1, got {max_hops!r}")
+        if max_routes is not None and (
+            isinstance(max_routes, bool) or int(max_routes) != max_routes or max_routes < 1
+        ):
+            raise ValueError(f"max_routes: must be an integer >= 1 or None, got {max_routes!r}")
+        self.graph = graph
+        # the plain dict-of-dicts behind graph.adj: views cost a call per look-up
+        self._adj = getattr(graph, "_adj", None) or graph.adj
+        self.max_hops = int(max_hops)
+        self.max_routes = None if max_routes is None else int(max_routes)
+        self.max_candidates = max_candidates
+        self.max_steps = max_steps
+        self._dist = OrderedDict()
+        # length and cost per edge, by the identity of the edge's data dict (keys need not be
+        # unique across a multigraph)
+        self._attrs = {id(d): (_edge_attr(d, "length"), _edge_attr(d, "cost_per_module"))
+                       for _, _, d in graph.edges(data=True)}
+
+    def routes(self, origin, dest):
+        """Routes from ``origin`` to ``dest`` as tuples of link ids, preferred first."""
+        graph = self.graph
+        for name, site in (("origin", origin), ("dest", dest)):
+            if site not in graph:
+                raise ValueError(f"{name}: site '{site}' is not in the network")
+        if origin == dest:
+            raise ValueError(f"origin and dest are the same site '{origin}'")
+        start, goal, dist = self._oriented(origin, dest)
+        if dist is not None and start not in dist:
+            return []
+        low = 1 if dist is None else dist[start]
+        k = self.max_routes
+        budget = [self.max_steps]
+        for hops in (range(low, self.max_hops + 1) if k is not None else (self.max_hops,)):
+            paths = self._paths(start, goal, dist, hops, budget)
+            if k is not None and len(paths) >= k:
+                break
+        attrs = self._attrs
+        keyed = []
+        for steps in paths:
+            if start != origin:
+                steps = steps[::-1]
+            ids = tuple(key for key, _ in steps)
+            # summed from the origin on, as every caller compares them (float sums depend on
+            # the order)
+            keyed.append((
+                len(steps),
+                sum(attrs[id(d)][0] for _, d in steps),
+                sum(attrs[id(d)][1] for _, d in steps),
+                ids,
+            ))
+        keyed.sort()
+        routes = [item[3] for item in keyed]
+        return routes if k is None else routes[:k]
+
+    def routes_many(self, pairs):
+        """:meth:`routes` of every ``(origin, dest)`` pair, in the order given.
+
+        The pairs are worked through grouped by origin, so that each site's distances are
+        found once. A pair over a work limit gets its :class:`RouteLimitError` in place of
+        its routes.
+        """
+        out = [None] * len(pairs)
+        for i in sorted(range(len(pairs)), key=lambda i: pairs[i][0]):
+            try:
+                out[i] = self.routes(*pairs[i])
+            except RouteLimitError as exc:
+                out[i] = exc
+        return out
+
+    # -- internals --------------------------------------------------------------------------
+    def _oriented(self, origin, dest):
+        """(start, goal, hop distances to goal or None); searches from either end."""
+        if self.max_hops <= 2:
+            return origin, dest, None  # the last-link look-up prunes enough
+        for start, goal in ((origin, dest), (dest, origin)):
+            if goal in self._dist:
+                self._dist.move_to_end(goal)
+                return start, goal, self._dist[goal]
+        dist = _bfs(self._adj, origin, self.max_hops)
+        self._dist[origin] = dist
+        if len(self._dist) > self._CACHE:
+            self._dist.popitem(last=False)
+        return dest, origin, dist
+
+    def _paths(self, start, goal, dist, hops, budget):
+        """Every simple path of at most ``hops`` links, as lists of (link id, data)."""
+        adj = self._adj
+        found = []
+        chosen = []  # per step: the parallel links to the next site, {id: data}
+
+        def reached(keyed):
+            for combo in itertools.product(*(c.items() for c in chosen), keyed.items()):
+                found.append(list(combo))
+            if len(found) > self.max_candidates:
+                raise RouteLimitError(self._too_many("routes", self.max_candidates))
+
+        direct = adj[start].get(goal)
+        if direct:
+            reached(direct)
+        if hops < 2:
+            return found
+        path = [start]
+        on_path = {start}
+        stack = [iter(adj[start].items())]
+        steps = budget[0]
+        while stack:
+            depth = len(chosen)  # links used to reach path[-1]
+            for there, keyed in stack[-1]:  # noqa: B007 (used after the break)
+                steps -= 1
+                if there in on_path or there == goal:
+                    continue
+                if dist is not None:
+                    d = dist.get(there)
+                    if d is None or depth + 1 + d > hops:
+                        continue
+                break
+            else:  # every neighbour tried: step back
+                stack.pop()
+                on_path.discard(path.pop())
+                if chosen:
+                    chosen.pop()
                 continue
-            onward = adj[mid].get(dest)
-            if not onward:
-                continue
-            for k1, d1 in keys.items():
-                l1, c1 = _edge_attr(d1, "length"), _edge_attr(d1, "cost_per_module")
-                for k2, d2 in onward.items():
-                    ids = (k1, k2)
-                    out.append((2, l1 + _edge_attr(d2, "length"),
-                                c1 + _edge_attr(d2, "cost_per_module"), ids, ids))
-    return out
+            if steps < 0:
+                raise RouteLimitError(self._too_many("search steps", self.max_steps))
+            chosen.append(keyed)
+            onward = adj[there].get(goal)
+            if onward:
+                reached(onward)
+            if depth + 3 <= hops:  # room for another site before the goal
+                path.append(there)
+                on_path.add(there)
+                stack.append(iter(adj[there].items()))
+            else:
+                chosen.pop()
+        budget[0] = steps
+        return found
+
+    def _too_many(self, what, limit):
+        return (f"more than {limit} {what} for routes of at most {self.max_hops} links "
+                "(the limit on generated routes); set routing.max_routes, lower "
+                "routing.max_hops, or give this demand's routes")
+
+
+def _bfs(adj, root, limit):
+    """Hop distances from ``root``, up to ``limit`` links."""
+    dist = {root: 0}
+    frontier = [root]
+    level = 0
+    while frontier and level < limit:
+        level += 1
+        nxt = []
+        for u in frontier:
+            for v in adj[u]:
+                if v not in dist:
+                    dist[v] = level
+                    nxt.append(v)
+        frontier = nxt
+    return dist
+
+
+def _edge_attr(data, name) -> float:
+    value = data.get(name)
+    return 0.0 if value is None else float(value)

@@ -274,7 +274,7 @@ def test_bound_time_must_be_positive(tmp_path, capsys):
     with pytest.raises(ValueError, match=r"bound_time: must be > 0 seconds, got 0"):
         dimension(triangle(), bound_time=0)
     p = tmp_path / "tri.yaml"
-    from netdim.netwrite import write_network
+    from netdim.netfile import write_network
 
     write_network(triangle(), p)
     assert main(["size", str(p), "--bound-time", "-1", "--quiet"]) == 2

@@ -6,6 +6,7 @@ common practice, no source).
 """
 
 import dataclasses
+import re
 
 import networkx as nx
 import numpy as np
@@ -138,3 +139,52 @@ def test_evaluation_derived_fields_and_json():
 def test_evaluation_refuses_nan():
     with pytest.raises(ValueError, match="blocking of demand 'b' is not finite"):
         _evaluation([0.1, float("nan")])
+
+
+def test_validate_accepts_a_good_network():
+    line_network().validate()  # no error
+
+
+@pytest.mark.parametrize("change, message", [
+    (lambda n: dataclasses.replace(n, demands=(dataclasses.replace(
+        n.demands[0], routes=(Route((1, 0), (1.0, 1.0)),)),) + n.demands[1:]), None),
+    (lambda n: dataclasses.replace(n, demands=(dataclasses.replace(
+        n.demands[0], routes=(Route((0,), (1.0,)),)),)),
+     "network 'line': demand 'A-C': route 1: ends at 'B', not at 'C'"),
+    (lambda n: dataclasses.replace(n, demands=(dataclasses.replace(
+        n.demands[0], routes=(Route((0, 5), (1.0, 1.0)),)),)),
+     "network 'line': demand 'A-C': route 1: link indices must be in 0..1, got [0, 5]"),
+    (lambda n: dataclasses.replace(n, demands=(dataclasses.replace(
+        n.demands[0], routes=()),)), "network 'line': demand 'A-C': has no route"),
+    (lambda n: dataclasses.replace(n, demands=(dataclasses.replace(
+        n.demands[1], traffic=float("nan")),)),
+     "network 'line': demand 'A-B': traffic must be a finite number >= 0, got nan"),
+    (lambda n: dataclasses.replace(n, links=n.links + (Link("A-B", ("A", "Z")),)),
+     "network 'line': link 'A-B': duplicate id"),
+    (lambda n: dataclasses.replace(n, demands=(dataclasses.replace(
+        n.demands[0], routes=(Route((0, 1), (1.0, 0.0)),)),)),
+     "network 'line': demand 'A-C': route 1: holding times must be finite and > 0"),
+])
+def test_validate_names_what_is_wrong(change, message):
+    # the route rules are the file format's (README, "Network files"); a network built in
+    # Python gets the same check as one read from a file
+    from netdim.errors import NetworkFileError
+
+    net = change(line_network())
+    if message is None:
+        net.validate()
+        return
+    with pytest.raises(NetworkFileError, match=re.escape(message)):
+        net.validate()
+
+
+def test_summary_and_route_listing():
+    net = line_network()
+    s = net.summary()
+    # counted by hand from line_network(): 2 demands, one 2-link route and one 1-link route
+    assert (s["demands"], s["routes"], s["longest_route"], s["routes_given"]) == (2, 2, 2, 2)
+    assert s["holding_overrides"] is True and s["offered_traffic"] == pytest.approx(8.0)
+    assert net.route_listing()[0] == {"demand": "A-C", "between": ["A", "C"],
+                                      "generated": False,
+                                      "routes": [{"links": ["A-B", "B-C"],
+                                                  "holdings": [2.0, 0.5]}]}

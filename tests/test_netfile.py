@@ -431,3 +431,154 @@ def test_zero_capacity_link_is_not_a_bandwidth_limit():
     with pytest.raises(NetworkFileError, match="bandwidth 7 fits no route"):
         loads_network(roomy + "demands:\n  - {id: D1, between: [A, B], traffic: 1, "
                               "bandwidth: 7, routes: [[A-B], [A-C, {link: B-C}]]}\n")
+
+
+# -- values that must be refused, each with its one-line message (issues 12 and 19) --------
+LIMIT_CASES = [
+    # (text, line, item, problem regex)
+    (demand("rate: 20"), 8, "demand 'D1'",
+     r"rate needs holding \(mean hours per call\) to give the traffic: add holding here or "
+     r"defaults.holding, or give traffic in erlangs"),
+    (demand("traffic: 1").replace("capacity: 5}", "capacity: 2e400}", 1), 4, "link 'A-B'",
+     r"capacity must be a finite number, got '2e400'"),
+    (demand("traffic: 1").replace("capacity: 5}", "capacity: -.inf}", 1), 4, "link 'A-B'",
+     r"capacity must be a finite number, got -inf"),
+    (demand("traffic: " + "9" * 300), 8, "demand 'D1'",
+     r"traffic must be a number, got a number of 300 digits"),
+    (demand("traffic: 1").replace("capacity: 5}", "capacity: " + "7" * 5000 + "}", 1), 4,
+     "link 'A-B'", r"capacity must be a number, got a number of 5000 digits"),
+    (demand("traffic: 1").replace("capacity: 5}", "capacity: 2026-02-30}", 1), 4,
+     "link 'A-B'", r"capacity must be a number, got '2026-02-30'"),
+    (demand("traffic: ._"), 8, "demand 'D1'", r"traffic must be a number, got '._'"),
+    (demand("traffic: 1, bandwidth: 0x1F_FFFF_FFFF"), 8, "demand 'D1'",
+     r"bandwidth 137438953471 is too large"),
+    (demand("traffic: 1").replace("{id: C}", "{id: C, x: 1e300}"), 2, "site 'C'",
+     r"x '1e300' is too large"),
+    (demand("traffic: 1e-400, holding: 1"), 8, "demand 'D1'",
+     r"traffic must be a finite number|traffic"),  # underflows to 0: accepted, see below
+    (demand("traffic: " + "[" * 60 + "]" * 60), 8, "YAML", r"nested more than 40 levels deep"),
+    (demand("traffic: !!binary aGk="), 8, "YAML",
+     r"tag !!binary is not used in network files \(plain YAML only\)"),
+    (demand("traffic: !!python/object:os.system x"), 8, "YAML",
+     r"tag !!python/object:os.system is not used"),
+    ("x-a: &a [1, 2, 3, 4, 5, 6, 7, 8, 9, 10]\n"
+     + "".join(f"x-{c}: &{c} [{', '.join([f'*{p}'] * 10)}]\n"
+               for p, c in zip("abcdefg", "bcdefgh", strict=True)) + NODEMANDS, 4,
+     "YAML",
+     r"aliases expand to more than 10 times the items written"),
+    (demand("traffic: 1, <<: 3"), 8, "YAML", r"a merge key '<<' must name a mapping"),
+    (demand("traffic: *nowhere"), 8, "YAML", r"found undefined alias"),
+    ("sites: [A, B]\ndemands: [{between: [A, B], traffic: 1}]\n", 1, "links",
+     r"missing \(a list of links\)"),
+    ("sites: [A, B]\nlinks: {}\ndemands: [{between: [A, B], traffic: 1}]\n", 2, "links",
+     r"must be a list, got mapping"),
+    (demand("traffic: 1").replace("name: tiny", "name: " + "n" * 500), 1, "name",
+     r"^$|.*"),  # a long name is fine (checked below)
+]
+
+
+@pytest.mark.parametrize("text, line, item, problem",
+                         [c for c in LIMIT_CASES if c[3] not in (r"^$|.*",)
+                          and "1e-400" not in c[0]])
+def test_limits_one_line_each(text, line, item, problem):
+    pattern = re.escape(f"inline.yaml:{line}: {item}: ") + f"({problem})"
+    with pytest.raises(NetworkFileError, match=pattern) as info:
+        loads_network(text, source="inline.yaml")
+    assert len(info.value.problems) == 1, info.value.problems
+
+
+def test_rate_with_default_holding_and_tiny_numbers():
+    net = loads_network(demand("rate: 20").replace("demands:", "defaults: {holding: 0.05}\n"
+                                                                "demands:"))
+    assert net.demands[0].traffic == pytest.approx(1.0)  # Little's law: 20/h x 0.05 h
+    # a decimal below the smallest float reads as 0 (IEEE 754 underflow), which is in range
+    assert loads_network(demand("traffic: 1e-400")).demands[0].traffic == 0.0
+    assert loads_network(demand("traffic: 1").replace("name: tiny", "name: " + "n" * 500)
+                         ).name == "n" * 500
+
+
+def test_long_values_are_cut_in_messages():
+    with pytest.raises(NetworkFileError, match=r"traffic must be a number, got 'xxxxx"
+                                               r"[x]*\.\.\.xxxxx' \(300 characters\)"):
+        loads_network(demand("traffic: " + "x" * 300), source="inline.yaml")
+
+
+def test_yaml_merge_keys_read_as_yaml_says():
+    net = loads_network(BASE.replace("  - {id: A-C, ends: [A, C], capacity: 5}\n",
+                                     "  - {<<: &common {capacity: 9, module: 3}, id: A-C, "
+                                     "ends: [A, C], capacity: 6}\n  - {<<: *common, id: C-A,"
+                                     " ends: [C, A]}\n")
+                        + "demands: []\n")
+    # keys written in the mapping win over merged ones (YAML merge key spec, yaml.org/type/merge)
+    assert [(k.capacity, k.module) for k in net.links[2:]] == [(6, 3), (9, 3)]
+
+
+# -- files: kinds, sizes and encodings -----------------------------------------------------
+GOOD = demand("traffic: 1")
+
+
+def test_fifo_refused_at_once(tmp_path):
+    fifo = tmp_path / "pipe.yaml"
+    os.mkfifo(fifo)
+    with pytest.raises(NetworkFileError, match=re.escape(
+            f"{fifo}: cannot read: is a named pipe (FIFO), not a regular file")):
+        read_network(fifo)
+
+
+def test_directory_and_device_refused(tmp_path):
+    with pytest.raises(NetworkFileError, match="cannot read: is a directory, not a regular"):
+        read_network(tmp_path)
+    with pytest.raises(NetworkFileError, match="cannot read: is a device, not a regular"):
+        read_network("/dev/zero")
+
+
+def test_size_limit(tmp_path):
+    path = tmp_path / "n.yaml"
+    path.write_text(GOOD)
+    size = path.stat().st_size
+    with pytest.raises(NetworkFileError, match=re.escape(
+            f"{path}: cannot read: the file has {size} bytes, more than the limit of "
+            f"{size - 1} bytes (--max-file-size to raise it)")):
+        read_network(path, max_size=size - 1)
+    assert read_network(path, max_size=size).demands[0].traffic == 1.0
+    assert read_network(path, max_size=0).demands[0].traffic == 1.0  # 0: no limit
+
+
+def test_unreadable_file(tmp_path):
+    path = tmp_path / "n.yaml"
+    path.write_text(GOOD)
+    path.chmod(0)
+    try:
+        if os.access(path, os.R_OK):  # root reads anything
+            pytest.skip("running as a user who can read a file of mode 000")
+        with pytest.raises(NetworkFileError, match="cannot read: Permission denied"):
+            read_network(path)
+    finally:
+        path.chmod(0o644)
+
+
+@pytest.mark.parametrize("encoding", ["utf-8-sig", "utf-16", "utf-32"])
+def test_byte_order_marks(tmp_path, encoding):
+    path = tmp_path / "n.yaml"
+    path.write_bytes(GOOD.replace("tiny", "Café").encode(encoding))
+    assert read_network(path).name == "Café"
+
+
+@pytest.mark.parametrize("data, problem", [
+    (GOOD.replace("tiny", "Caf\xe9").encode("latin-1"),
+     r":1: file: is not UTF-8 text \(byte 0xe9; save the file as UTF-8\)"),
+    (GOOD.encode() + b"\n# \x00\x01\x02", r":10: file: holds a NUL character"),
+    (bytes(range(256)) * 4, r":2: file: is not UTF-8 text \(byte 0x80"),
+])
+def test_odd_bytes(tmp_path, data, problem):
+    path = tmp_path / "n.yaml"
+    path.write_bytes(data)
+    with pytest.raises(NetworkFileError, match=re.escape(str(path)) + problem) as info:
+        read_network(path)
+    assert len(info.value.problems) == 1
+
+
+def test_control_characters_are_a_yaml_error():
+    with pytest.raises(NetworkFileError, match=r"inline.yaml:8: YAML: unacceptable character "
+                                               r"#x0007: control characters are not allowed$"):
+        loads_network(GOOD.replace("traffic: 1", "traffic: 1\x07"), source="inline.yaml")

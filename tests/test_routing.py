@@ -15,7 +15,7 @@ import networkx as nx
 import pytest
 
 from netdim.model import Link, Network, Site
-from netdim.routing import candidate_routes, link_graph
+from netdim.routing import RouteFinder, RouteLimitError, candidate_routes, check_path, link_graph
 
 # The open datasets live in shared/ beside the checkout (CI lays a copy there).
 _CANDIDATES = [
@@ -174,3 +174,98 @@ def test_same_routes_as_brute_force_with_parallel_links(max_hops):
             expected = brute_force_routes(net.links, origin, dest, max_hops)
             assert sorted(got) == sorted(expected)
             assert len(set(got)) == len(got)
+
+
+def sorted_by_contract(graph, origin, dest, max_hops):
+    """Every simple path by networkx.all_simple_edge_paths (independent enumeration), sorted
+    by the documented order: hops, total length, total cost per module, link ids."""
+    adj = graph.adj
+    keyed = []
+    for path in nx.all_simple_edge_paths(graph, origin, dest, cutoff=max_hops):
+        data = [adj[u][v][k] for u, v, k in path]
+        keyed.append((len(path), sum(d["length"] or 0.0 for d in data),
+                      sum(d["cost_per_module"] for d in data), tuple(k for _, _, k in path)))
+    keyed.sort()
+    return [item[3] for item in keyed]
+
+
+@pytest.mark.parametrize("name", ["topozoo-Nsfnet", "sndlib-polska"])
+@pytest.mark.parametrize("max_routes", [1, 2, 3, 5, None])
+def test_stopped_at_k_equals_first_k_of_every_path(name, max_routes):
+    sites, links = real_links(name)
+    g = link_graph(links, sites)
+    finder = RouteFinder(g, 6, max_routes)
+    for origin in sites[:6]:
+        for dest in sites:
+            if dest == origin:
+                continue
+            every = sorted_by_contract(g, origin, dest, 6)
+            expected = every if max_routes is None else every[:max_routes]
+            assert finder.routes(origin, dest) == expected
+
+
+def test_parallel_links_stopped_at_k():
+    net = toy()
+    g = net.to_graph()
+    for k in range(1, 8):
+        assert candidate_routes(g, "A", "B", 3, max_routes=k) == sorted_by_contract(
+            g, "A", "B", 3)[:k]
+
+
+def ladder(n):
+    """A ladder of n rungs (2n sites): the number of simple paths grows fast with n."""
+    sites = [f"{side}{i}" for i in range(n) for side in "LR"]
+    links = [Link(f"R{i}", (f"L{i}", f"R{i}")) for i in range(n)]
+    links += [Link(f"{side}{i}-{i + 1}", (f"{side}{i}", f"{side}{i + 1}"))
+              for i in range(n - 1) for side in "LR"]
+    return sites, links
+
+
+def test_work_limits_refuse_with_the_way_round():
+    sites, links = ladder(12)
+    g = link_graph(links, sites)
+    finder = RouteFinder(g, 20, None, max_candidates=50)
+    with pytest.raises(RouteLimitError, match=r"more than 50 routes for routes of at most 20 "
+                       r"links \(the limit on generated routes\); set routing.max_routes, "
+                       r"lower routing.max_hops, or give this demand's routes"):
+        finder.routes("L0", "R11")
+    with pytest.raises(RouteLimitError, match=r"more than 100 search steps"):
+        RouteFinder(g, 20, None, max_steps=100).routes("L0", "R11")
+    # with max_routes the same demand is quick: only the shortest paths are looked at
+    assert RouteFinder(g, 20, 2, max_candidates=50).routes("L0", "R11") == [
+        ("L0-1", "L1-2", "L2-3", "L3-4", "L4-5", "L5-6", "L6-7", "L7-8", "L8-9", "L9-10",
+         "L10-11", "R11"),
+        ("L0-1", "L1-2", "L2-3", "L3-4", "L4-5", "L5-6", "L6-7", "L7-8", "L8-9", "L9-10",
+         "R10", "R10-11"),
+    ]
+
+
+def test_routes_many_keeps_the_order_and_the_errors():
+    sites, links = ladder(12)
+    g = link_graph(links, sites)
+    finder = RouteFinder(g, 20, None, max_candidates=50)
+    out = finder.routes_many([("L1", "L0"), ("L0", "R11"), ("R0", "L0")])
+    # 10 routes each (networkx's enumeration), in the documented order; 2036 for L0-R11
+    assert out[0] == sorted_by_contract(g, "L1", "L0", 20) and len(out[0]) == 10
+    assert isinstance(out[1], RouteLimitError)
+    assert out[2] == sorted_by_contract(g, "R0", "L0", 20) and out[2][0] == ("R0",)
+
+
+@pytest.mark.parametrize("route, problem", [
+    ((0, 1), None),
+    ((1, 0), None),  # may start at either end
+    ((4,), "first link 'B-D' does not touch 'A' or 'C'"),
+    ((1,), "ends at 'B', not at 'A'"),
+    ((0, 2), "link 'A-C' does not continue from site 'B'"),
+    ((0, 3, 2), "visits site 'A' twice"),
+    ((0,), "ends at 'B', not at 'C'"),
+])
+def test_check_path(route, problem):
+    # invented triangle with a parallel link (the rules are the documented contract)
+    links = [Link("A-B", ("A", "B")), Link("B-C", ("B", "C")), Link("A-C", ("A", "C")),
+             Link("B-A", ("B", "A")), Link("B-D", ("B", "D"))]
+    got = check_path(links, route, ("A", "C"))
+    if problem is None:
+        assert got is None
+    else:
+        assert got.startswith(problem)

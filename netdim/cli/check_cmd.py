@@ -4,6 +4,9 @@ from __future__ import annotations
 
 import json
 
+from netdim.cli._files import add_file_options, file_limits
+from netdim.netfile import read_network
+
 __all__ = ["register", "run"]
 
 
@@ -18,16 +21,25 @@ def register(subparsers):
     )
     p.add_argument("file", metavar="FILE", help="network file (YAML)")
     p.add_argument("--json", action="store_true", help="print the summary as JSON")
+    p.add_argument("--routes", action="store_true",
+                   help="also list every demand's routes in the order they are tried "
+                   "(with --json: under 'demand_routes')")
+    add_file_options(p)
     p.set_defaults(func=run)
 
 
-def run(args) -> int:
-    from netdim.netfile import network_summary, read_network
+def _n(count, word):
+    return f"{count} {word}" + ("" if count == 1 else "s")
 
-    net = read_network(args.file)
-    s = network_summary(net)
+
+def run(args) -> int:
+    net = read_network(args.file, **file_limits(args))
+    s = net.summary()
     if args.json:
-        print(json.dumps({"valid": True, **s}, indent=2))
+        out = {"valid": True, **s}
+        if args.routes:
+            out["demand_routes"] = net.route_listing()
+        print(json.dumps(out, indent=2))
         return 0
     print(f"{s['source']}: valid network file '{s['name']}'")
     print(f"  sites    {s['sites']}")
@@ -43,10 +55,37 @@ def run(args) -> int:
         extras.append(f"{s['economic']} with a value per erlang")
     more = f" ({', '.join(extras)})" if extras else ""
     print(f"  demands  {s['demands']}{more}")
-    print(f"  routes   {s['routes']}: {s['routes_given']} given, {s['routes_generated']} "
-          f"generated for {s['demands_generated']} demands; longest {s['longest_route']} links")
+    parts = []
+    if s["routes_given"] or not s["routes_generated"]:
+        parts.append(f"{s['routes_given']} given" + (
+            f" (longest {_n(s['longest_route_given'], 'link')})" if s["routes_given"] else ""))
+    if s["routes_generated"]:
+        parts.append(f"{s['routes_generated']} generated for "
+                     f"{_n(s['demands_generated'], 'demand')} (longest "
+                     f"{_n(s['longest_route_generated'], 'link')})")
+    print(f"  routes   {s['routes']}: {', '.join(parts)}")
     print(f"  offered  {s['offered_traffic']:.6g} erlangs in total")
-    limit = "" if s["max_routes"] is None else f", at most {s['max_routes']} routes per demand"
-    print(f"  routing  {s['policy']}, reservation {s['reservation']}, "
-          f"max_hops {s['max_hops']}{limit}")
+    routing = f"  routing  {s['policy']}, reservation {s['reservation']}"
+    if s["demands_generated"]:
+        limit = "" if s["max_routes"] is None else f", at most {s['max_routes']} per demand"
+        routing += f"; routes generated with at most {_n(s['max_hops'], 'link')}{limit}"
+    print(routing)
+    if args.routes:
+        print("routes, in the order they are tried:")
+        for d, entry in zip(net.demands, net.route_listing(), strict=True):
+            how = "generated" if entry["generated"] else "given"
+            print(f"  {entry['demand']} ({entry['between'][0]} - {entry['between'][1]}, "
+                  f"{how})")
+            if not entry["routes"]:
+                print("    (none)")
+            for k, route in enumerate(entry["routes"], start=1):
+                hold = _holdings(route, d.holding)
+                print(f"    {k}. {' > '.join(route['links'])}{hold}")
     return 0
+
+
+def _holdings(route, holding):
+    """' (SHUTTLE held 0.25 h)' for steps whose holding differs from the demand's."""
+    odd = [f"{lid} held {h:g} h" for lid, h in zip(route["links"], route["holdings"],
+                                                    strict=True) if h != holding]
+    return f" ({', '.join(odd)})" if odd else ""

@@ -24,7 +24,10 @@ def register(subparsers):
                    help="MILP solver (default highs)")
     p.add_argument("--json", action="store_true", help="print the plan as JSON")
     p.add_argument("--out", metavar="PLAN.yaml",
-                   help="write the network file with the chosen capacities")
+                   help="write the plan: the network file as written, with only the "
+                   "capacities changed (refused when PLAN.yaml is FILE itself, unless --force)")
+    p.add_argument("--force", action="store_true",
+                   help="let --out replace the input FILE with the plan")
     p.add_argument("--gap", type=float, default=1e-4, metavar="X",
                    help="relative MILP gap (default 1e-4)")
     p.add_argument("--time-limit", type=float, default=None, metavar="S",
@@ -50,7 +53,7 @@ def register(subparsers):
 
 def run(args) -> int:
     from netdim.dimension import dimension
-    from netdim.netfile import read_network, write_network
+    from netdim.netfile import check_plan_path, read_network, write_plan
     from netdim.report.plan import format_plan
 
     if not 0 <= args.gap < 1:
@@ -63,6 +66,8 @@ def run(args) -> int:
         raise ValueError(f"--bound-time: must be > 0 seconds, got {args.bound_time!r}")
     if args.verify_rounds < 0:
         raise ValueError(f"--verify-rounds: must be >= 0, got {args.verify_rounds}")
+    if args.out:  # before any work: a plan that cannot be written is not worth sizing
+        check_plan_path(args.file, args.out, args.force)
     network = read_network(args.file)
     if not args.verify and network.routing.policy == "alternate" and not args.quiet:
         print("netdim size: note: under alternate routing the fixed point is optimistic; "
@@ -78,7 +83,7 @@ def run(args) -> int:
                      verify_calls=args.verify_calls, verify_rounds=args.verify_rounds,
                      bound_time=args.bound_time)
     if args.out:
-        write_network(plan.network, args.out, capacities=plan.capacities)
+        write_plan(network, args.out, plan.capacities, force=args.force)
     if args.json:
         print(json.dumps(plan.to_dict(), indent=2))
     else:

@@ -1,4 +1,9 @@
-"""Writing a network back as a network file (see :mod:`netdim.netfile`)."""
+"""Writing a network as a fresh network file (see :mod:`netdim.netfile`).
+
+Private to :mod:`netdim.netfile`. This writer serves networks built in Python, which have no
+text of their own; a network read from a file is written back by :mod:`netdim.netfile._plan`,
+which keeps the file's text.
+"""
 
 from __future__ import annotations
 
@@ -6,12 +11,14 @@ import os
 import pathlib
 import tempfile
 
+import numpy as np
 import yaml
 
 from netdim.model import Demand, Link, Network, Route
-from netdim.routing import candidate_routes, link_graph
+from netdim.routing import RouteFinder, link_graph
 
-__all__ = ["write_network", "dumps_network", "network_to_dict", "plain_data"]
+__all__ = ["write_network", "write_atomic", "check_capacities", "dumps_network",
+           "network_to_dict", "plain_data"]
 
 
 def plain_data(value):
@@ -74,7 +81,7 @@ def network_to_dict(network: Network, capacities=None) -> dict:
         routes (such a network cannot be written as a valid file).
     """
     if capacities is not None:
-        network = network.with_capacities(_check_caps(network, capacities))
+        network = network.with_capacities(check_capacities(network, capacities))
     out = {"name": network.name}
     out.update(plain_data(network.extra))
     out["defaults"] = _FlowMap(target=_num(network.default_target),
@@ -97,14 +104,13 @@ def network_to_dict(network: Network, capacities=None) -> dict:
     out["links"] = [_link_dict(link) for link in network.links]
 
     graph = link_graph(network.links, sites=[s.id for s in network.sites])
+    finder = RouteFinder(graph, r.max_hops, r.max_routes)
     ids = network.link_ids
-    out["demands"] = [_demand_dict(network, d, graph, ids) for d in network.demands]
+    out["demands"] = [_demand_dict(network, d, finder, ids) for d in network.demands]
     return out
 
 
-def _check_caps(network, capacities):
-    import numpy as np
-
+def check_capacities(network, capacities):
     caps = np.asarray(capacities)
     if caps.shape != (len(network.links),):
         raise ValueError(f"capacities: expected {len(network.links)} values (one per link), "
@@ -135,7 +141,7 @@ def _link_dict(link: Link) -> dict:
     return entry
 
 
-def _demand_dict(network, d: Demand, graph, ids) -> dict:
+def _demand_dict(network, d: Demand, finder, ids) -> dict:
     if not d.routes:
         raise ValueError(f"demand '{d.id}' has no routes: a network file cannot say that")
     entry = {"id": d.id, "between": _FlowList(d.between), "traffic": _num(d.traffic)}
@@ -147,11 +153,9 @@ def _demand_dict(network, d: Demand, graph, ids) -> dict:
         entry["target"] = _num(d.target)
     if d.value is not None:
         entry["value"] = _num(d.value)
-    r = network.routing
-    generated = candidate_routes(graph, d.between[0], d.between[1], r.max_hops, r.max_routes)
     given = [tuple(ids[j] for j in route.links) for route in d.routes]
     plain = all(h == d.holding for route in d.routes for h in route.holdings)
-    if not (plain and given == generated):
+    if not (plain and given == finder.routes(d.between[0], d.between[1])):
         entry["routes"] = [_route_list(route, d, ids) for route in d.routes]
     return entry
 
@@ -197,7 +201,15 @@ def write_network(network: Network, path, capacities=None) -> None:
     replaces ``path`` in one :func:`os.replace` step, so readers see the old file or the new
     one, never a partial one.
     """
-    text = dumps_network(network, capacities)
+    write_atomic(path, dumps_network(network, capacities))
+
+
+def write_atomic(path, text: str) -> None:
+    """Write ``text`` to ``path`` whole or not at all (see :func:`write_network`, Notes).
+
+    A new file gets mode 0666 less the umask (0644 under the usual umask 022); a file
+    written over keeps its mode.
+    """
     target = pathlib.Path(path)
     directory = target.parent if str(target.parent) else pathlib.Path(".")
     tmp_name = None

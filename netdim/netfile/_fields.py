@@ -1,123 +1,51 @@
-"""YAML with line numbers, and the collector of problems found in a network file.
+"""Field readers that collect the problems of a network file instead of raising.
 
-Private helpers of :mod:`netdim.netfile`: a loader whose mappings and sequences remember the
-line of every key and item, and field readers that report a problem (``FILE:LINE: ITEM:
-problem``) instead of raising, so that one reading reports every problem in the file.
+Private to :mod:`netdim.netfile`. A :class:`FieldReader` reads one field at a time from a
+:class:`~netdim.netfile._yaml.Map`, checks its type, finiteness and range, and on a problem
+records one line ``FILE:LINE: ITEM: problem`` and returns :data:`BAD`, so that one reading
+reports every problem in the file.
 """
 
 from __future__ import annotations
 
 import difflib
 import math
-import re
-
-import yaml
 
 from netdim.errors import NetworkFileError
+from netdim.netfile._yaml import BadNumber, Map, line_of
+
+__all__ = ["FieldReader", "BAD", "MAX_PROBLEMS", "kind", "show", "unknown"]
 
 #: Most problems reported from one file (the rest are counted).
 MAX_PROBLEMS = 50
 
-BAD = object()  # a field that was present but wrong (already reported)
+#: A field that was present but wrong (already reported).
+BAD = object()
+
+_LONGEST_SHOWN = 40
 
 
-# --------------------------------------------------------------------------------------------
-# YAML with line numbers
-# --------------------------------------------------------------------------------------------
-class Map(dict):
-    """A mapping that remembers its line and the line of each key (1-based)."""
+class FieldReader:
+    """Reads fields and collects problems, each ``SOURCE:LINE: ITEM: problem``.
 
-    line = 1
-    lines: dict
+    Parameters
+    ----------
+    source : str
+        The file name used in every message.
+    """
 
-
-class Seq(list):
-    """A sequence that remembers its line and the line of each item (1-based)."""
-
-    line = 1
-    lines: list
-
-
-# libyaml's parser when PyYAML has it (same marks, several times faster on big files)
-_BaseLoader = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
-
-
-class Loader(_BaseLoader):
-    """SafeLoader that builds :class:`Map` / :class:`Seq` and notes duplicate keys."""
-
-    def __init__(self, stream):
-        super().__init__(stream)
-        self.key_problems = []  # (line, text)
-
-
-def _construct_map(loader, node):
-    loader.flatten_mapping(node)
-    out = Map()
-    out.line = node.start_mark.line + 1
-    out.lines = {}
-    for knode, vnode in node.value:
-        key = loader.construct_object(knode, deep=True)
-        kline = knode.start_mark.line + 1
-        try:
-            hash(key)
-        except TypeError:
-            loader.key_problems.append((kline, "a key must be plain text"))
-            continue
-        if key in out:
-            loader.key_problems.append(
-                (kline, f"duplicate key '{key}' (first on line {out.lines[key]})")
-            )
-            continue
-        out[key] = loader.construct_object(vnode, deep=True)
-        out.lines[key] = kline
-    return out
-
-
-def _construct_seq(loader, node):
-    out = Seq(loader.construct_object(child, deep=True) for child in node.value)
-    out.line = node.start_mark.line + 1
-    out.lines = [child.start_mark.line + 1 for child in node.value]
-    return out
-
-
-# Only true/false are yes/no values (as in YAML 1.2): ids such as NO or ON stay text.
-Loader.yaml_implicit_resolvers = {
-    first: [(tag, rx) for tag, rx in resolvers if tag != "tag:yaml.org,2002:bool"]
-    for first, resolvers in _BaseLoader.yaml_implicit_resolvers.items()
-}
-Loader.add_implicit_resolver(
-    "tag:yaml.org,2002:bool", re.compile(r"^(?:true|True|TRUE|false|False|FALSE)$"), list("tTfF")
-)
-Loader.add_constructor("tag:yaml.org,2002:map", _construct_map)
-Loader.add_constructor("tag:yaml.org,2002:seq", _construct_seq)
-
-
-def line_of(container, key, default=1):
-    if isinstance(container, Map):
-        return container.lines.get(key, container.line)
-    if isinstance(container, Seq):
-        if isinstance(key, int) and 0 <= key < len(container.lines):
-            return container.lines[key]
-        return container.line
-    return default
-
-
-# --------------------------------------------------------------------------------------------
-# Problem collection and field readers
-# --------------------------------------------------------------------------------------------
-class Checker:
     def __init__(self, source):
         self.source = source
         self.problems = []
 
     def add(self, line, item, text):
-        self.problems.append(f"{self.source}:{line}: {item}: {text}")
+        self.problems.append((line, f"{self.source}:{line}: {item}: {text}"))
 
     def raise_if_any(self):
+        """Raise one :class:`NetworkFileError` with every problem, in file order."""
         if self.problems:
-            # stable sort by line, so the list reads top to bottom like the file
-            self.problems.sort(key=lambda text: int(text[len(self.source) + 1:].split(":")[0]))
-            shown = self.problems[:MAX_PROBLEMS]
+            self.problems.sort(key=lambda p: p[0])  # stable: same line keeps its order
+            shown = [text for _, text in self.problems[:MAX_PROBLEMS]]
             if len(self.problems) > MAX_PROBLEMS:
                 shown.append(
                     f"{self.source}: and {len(self.problems) - MAX_PROBLEMS} more problems "
@@ -132,7 +60,7 @@ class Checker:
         for key in m:
             if key in valid or (isinstance(key, str) and key.startswith(keep or "\0")):
                 continue
-            self.add(m.lines[key], item, unknown(f"unknown key '{key}'", key, valid))
+            self.add(line_of(m, key), item, unknown(f"unknown key {show(key)}", key, valid))
             count += 1
         return count
 
@@ -145,7 +73,8 @@ class Checker:
     # -- scalars ------------------------------------------------------------------------------
     def number(self, m, key, item, default=None, *, integer=False, low=None, low_open=False,
                high=None, high_open=False, high_note="", required=False):
-        """Read a number; report and return ``BAD`` when it is wrong."""
+        """Read a finite number within ``[low, high]``; report and return ``BAD`` when it is
+        wrong."""
         line = line_of(m, key)
         if key not in m or m[key] is None:
             if required:
@@ -153,12 +82,18 @@ class Checker:
                 return BAD
             return default
         raw = m[key]
+        if isinstance(raw, BadNumber):
+            self.add(line, item, f"{key} must be a number, got {raw.why}")
+            return BAD
         value = _as_number(raw)
         if value is None:
             self.add(line, item, f"{key} must be a number, got {show(raw)}")
             return BAD
-        if integer:
-            if not float(value).is_integer():
+        if isinstance(value, float) and math.isinf(value):
+            self.add(line, item, f"{key} must be a finite number, got {show(raw)}")
+            return BAD
+        if integer and not isinstance(value, int):
+            if not value.is_integer():
                 self.add(line, item, f"{key} must be a whole number, got {show(raw)}")
                 return BAD
             value = int(value)
@@ -185,8 +120,7 @@ class Checker:
             if required:
                 self.add(line, item, f"'{key}' is missing")
             return None
-        raw = m[key]
-        return self.id_value(raw, line, item, key)
+        return self.id_value(m[key], line, item, key)
 
     def id_value(self, raw, line, item, what):
         if isinstance(raw, bool):
@@ -196,7 +130,7 @@ class Checker:
         if isinstance(raw, int):
             return str(raw)
         if isinstance(raw, str) and raw.strip():
-            return raw
+            return str(raw)
         self.add(line, item, f"{what} must be text, got {show(raw)}")
         return None
 
@@ -225,39 +159,51 @@ class Checker:
             if sid is None:
                 return None
             if site_ids is not None and sid not in site_ids:
-                self.add(line, item, unknown(f"site '{sid}' is not defined", sid, site_ids))
+                self.add(line, item, unknown(f"site {show(sid)} is not defined", sid,
+                                             site_ids))
                 return None
             ends.append(sid)
         if ends[0] == ends[1]:
-            self.add(line, item, f"{key} names the same site '{ends[0]}' twice")
+            self.add(line, item, f"{key} names the same site {show(ends[0])} twice")
             return None
         return tuple(ends)
 
 
 def _as_number(raw):
+    """An int or float, or None when ``raw`` is not a number (NaN is not a number)."""
     if isinstance(raw, bool):
         return None
-    if isinstance(raw, (int, float)):
+    if isinstance(raw, int):
+        # whole numbers beyond a float's range are kept as int (range checks compare ints)
+        return raw
+    if isinstance(raw, float):
         value = raw
     elif isinstance(raw, str):
         # PyYAML reads '1e5' (no dot) as text; accept any plain decimal notation
+        text = raw.strip()
+        if len(text) > _LONGEST_SHOWN or not text:
+            return None
         try:
-            value = float(raw.strip())
+            value = float(text)
         except ValueError:
             return None
     else:
         return None
-    if isinstance(value, float) and not math.isfinite(value):
+    if math.isnan(value):
         return None
     return value
 
 
 def show(raw) -> str:
-    if isinstance(raw, str):
-        return repr(raw)
+    """A value as a message quotes it (long ones cut)."""
     if isinstance(raw, (list, dict)):
         return f"a {kind(raw)}"
-    return repr(raw)
+    if isinstance(raw, int) and not isinstance(raw, bool) and abs(raw) > 10**30:
+        return f"a number of {len(str(abs(raw)))} digits"
+    text = repr(str(raw)) if isinstance(raw, str) else repr(raw)
+    if len(text) > _LONGEST_SHOWN:
+        return f"{text[:_LONGEST_SHOWN - 10]}...{text[-6:]} ({len(str(raw))} characters)"
+    return text
 
 
 def kind(raw) -> str:
@@ -270,15 +216,19 @@ def kind(raw) -> str:
     if isinstance(raw, bool):
         return "yes/no value"
     if isinstance(raw, str):
-        return f"text {raw!r}"
-    return f"{type(raw).__name__} {raw!r}"
+        return f"text {show(raw)}"
+    return f"{type(raw).__name__} {show(raw)}"
 
 
 def unknown(what, name, valid) -> str:
-    close = difflib.get_close_matches(str(name), [str(v) for v in valid], n=1, cutoff=0.6)
-    if close:
-        return f"{what} (did you mean '{close[0]}'?)"
-    names = sorted(map(str, valid)) if isinstance(valid, (set, dict)) else list(map(str, valid))
-    if 0 < len(names) <= 12:
+    """``what``, with the closest valid name or the list of valid names."""
+    name = str(name)
+    if len(name) <= 100:
+        close = difflib.get_close_matches(name, [str(v) for v in valid], n=1, cutoff=0.6)
+        if close:
+            return f"{what} (did you mean '{close[0]}'?)"
+    if 0 < len(valid) <= 12:
+        names = sorted(map(str, valid)) if isinstance(valid, (set, dict)) else list(
+            map(str, valid))
         return f"{what} (valid: {', '.join(names)})"
     return what
