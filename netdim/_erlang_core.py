@@ -45,7 +45,7 @@ import math
 #: The functions called from Python once compiled (the rest are helpers they inline).
 ENTRY_POINTS = ("point", "erlang_many", "servers_for_point", "servers_many",
                 "traffic_for_point", "traffic_many", "dtraffic_point", "dtraffic_many",
-                "table_many")
+                "table_many", "moe_point", "moe_many")
 #: Whole numbers of servers up to this take the recursion from E(A, 0) = 1.
 XREC = 30.0
 #: 1/E beyond this means E < 1e-300: only log E is kept accurate there.
@@ -719,4 +719,43 @@ def table_many(a, m, out):
             ae = ai * e
             e = ae / (n + ae)
             out[i, n] = e
+    return out
+
+
+# --------------------------------------------------------------------------------------------
+# Moe's principle
+
+
+def marginal_traffic(a, n):
+    """A [E(A, n) - E(A, n + 1)], the traffic a circuit n + 1 would carry, as
+    ``A E (s + 1) / (n + 1 + A E)`` with s = n - A (1 - E) kept free of cancellation."""
+    if n == 0.0:
+        return a / (1.0 + a)
+    e, t, le = point(a, n)
+    s = dlog_dlog_traffic(a, n, e, t)
+    return a * e * (s + 1.0) / (n + 1.0 + a * e)
+
+
+def moe_point(a, ratio):
+    """Fewest circuits n whose next circuit would carry no more than ``ratio`` erlangs:
+    bisection on n (the marginal traffic falls as n grows), O(log A) evaluations."""
+    if not marginal_traffic(a, 0.0) > ratio:
+        return 0.0
+    lo = 0.0
+    hi = math.ceil(a + 10.0 * math.sqrt(a) + 10.0)
+    while marginal_traffic(a, hi) > ratio:
+        lo = hi
+        hi *= 2.0
+    while hi - lo > 1.0:
+        mid = math.floor(0.5 * (lo + hi))
+        if marginal_traffic(a, mid) > ratio:
+            lo = mid
+        else:
+            hi = mid
+    return hi
+
+
+def moe_many(a, ratio, out):
+    for i in range(a.shape[0]):
+        out[i] = 0 if a[i] == 0.0 or not ratio[i] < _INF else int(moe_point(a[i], ratio[i]))
     return out

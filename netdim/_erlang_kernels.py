@@ -11,16 +11,21 @@ question never loads the compiler (importing numba alone takes about 0.3 s).
 
 from __future__ import annotations
 
+import sys
 import types
 
 import numpy as np
 
 from netdim import _erlang_core
 
-#: Largest traffic and number of servers the loss formulas accept: beyond it the work of
-#: the continued fraction and of the series grows like sqrt(n) past a few milliseconds, and
-#: accuracy is checked against mpmath only up to here (tests/test_erlang_extremes.py).
+#: Largest number of servers the loss formulas accept (and largest traffic for the
+#: functions that return a number of servers): beyond it the work of the continued
+#: fraction and of the series grows like sqrt(n) past a few milliseconds, and accuracy is
+#: checked against mpmath only up to here (tests/test_erlang_extremes.py). Traffic is
+#: otherwise any finite number.
 MAX_ARG = 1e10
+#: The largest finite double: the bound of "finite".
+FINITE = sys.float_info.max
 
 _SCALARS = (int, float)
 
@@ -43,7 +48,8 @@ def _describe(name, value, upper):
         return f"{name}: must be >= 0, got {value!r}"
     if value == np.inf:
         return f"{name}: must be finite, got {value!r}"
-    return (f"{name}: must be at most {upper:g} (the range the loss formulas are checked "
+    shown = f"{upper:.0e}".replace("e+", "e")
+    return (f"{name}: must be at most {shown} (the range the loss formulas are checked "
             f"over), got {value!r}")
 
 

@@ -8,9 +8,10 @@ out, no compiler loaded for a single answer) or arrays (numpy broadcasting; one 
 pass over the elements, whatever the n, whole or real).
 
 Accuracy (against mpmath at 50 digits, tests/test_erlang*.py): relative error below 1e-13
-wherever ``E >= 1e-300`` for traffic and servers up to 1e10 (worst seen about 5e-14);
-``log E`` to 1e-13 relative also where E underflows. Arguments must be finite, >= 0 and at
-most 1e10 (:data:`MAX_ARG`); anything else raises ValueError naming the argument. The
+wherever ``E >= 1e-300``, for any finite traffic and up to 1e10 servers (worst seen about
+5e-14); ``log E`` to 1e-13 relative also where E underflows. Arguments must be finite and
+>= 0, servers at most 1e10 (:data:`MAX_ARG`, also the most traffic :func:`servers_for` and
+:func:`moe_servers` take); anything else raises ValueError naming the argument. The
 numerical plan (recursion, continued fraction, Poisson series in double-double) is in
 :mod:`netdim._erlang_core` and docs/theory/erlang-b.md.
 
@@ -32,6 +33,7 @@ import numpy as np
 
 from netdim import _erlang_core as _core
 from netdim._erlang_kernels import (
+    FINITE,
     MAX_ARG,
     _check_arg,
     _check_nonneg,
@@ -61,20 +63,28 @@ __all__ = [
 _SCALARS = (int, float)
 #: Servers 1..30 as floats, for the scalar recursion (a float loop variable is faster).
 _KS = tuple(float(k) for k in range(1, 31))
-#: Single answers with at most this many servers (or erlangs, for servers_for) run as plain
-#: Python until something has loaded the compiled kernels; beyond, those are loaded.
-_PY_LIMIT = 1000.0
+#: Scalar calls beyond the plain recursion (more than 30 servers, or real ones) run as plain
+#: Python until this many have been made (or until something else has loaded the compiled
+#: kernels): a single answer never waits for the compiler, many answers pay for it once.
+_PY_CALLS = 100
+_calls = [0]
 #: Most values erlang_b_table builds at once.
 _MAX_TABLE = 10**8
 
 
 def _kernels(size):
-    """The compiled kernels if loaded (or if the work of one answer is large), else the
-    plain-Python numerics: a command line answering one question never loads numba."""
+    """The compiled kernels if loaded (or once many scalar calls beyond 30 servers or
+    erlangs have been made), else the plain-Python numerics: a command line answering one
+    question never loads numba."""
     k = loaded()
-    if k is None and size > _PY_LIMIT:
+    if k is None:
+        if size <= 30:
+            return _core
+        _calls[0] += 1
+        if _calls[0] <= _PY_CALLS:
+            return _core
         k = compiled()
-    return k if k is not None else _core
+    return k
 
 
 def _scalar(a, x, want):
@@ -95,7 +105,7 @@ def erlang_b(traffic, servers):
     Parameters
     ----------
     traffic : float or array_like
-        Offered traffic A in erlangs, 0 <= A <= 1e10.
+        Offered traffic A in erlangs, finite, >= 0.
     servers : float or array_like
         Number of servers n, 0 <= n <= 1e10; real values use the continuation
         ``E(A, n) = A^n e^-A / Gamma(n + 1, A)`` [2]_.
@@ -109,7 +119,8 @@ def erlang_b(traffic, servers):
     Raises
     ------
     ValueError
-        An argument negative, NaN, infinite or above 1e10 (the message names it).
+        An argument negative, NaN or infinite, or servers above 1e10 (the message names
+        the argument).
 
     Notes
     -----
@@ -131,8 +142,8 @@ def erlang_b(traffic, servers):
     array([0.018385, 0.214582])
     """
     if type(traffic) in _SCALARS and type(servers) in _SCALARS:
-        if not (0 <= traffic <= MAX_ARG and 0 <= servers <= MAX_ARG):
-            _check_arg("traffic", traffic)
+        if not (0 <= traffic <= FINITE and 0 <= servers <= MAX_ARG):
+            _check_arg("traffic", traffic, FINITE)
             _check_arg("servers", servers)
         if servers <= 30 and (type(servers) is int or servers.is_integer()):
             if traffic == 0:
@@ -144,7 +155,7 @@ def erlang_b(traffic, servers):
                 return 1.0 / inv
             return _core.tiny(float(traffic), float(servers))[0]
         return _scalar(traffic, servers, 0)
-    _check_arg("traffic", traffic)
+    _check_arg("traffic", traffic, FINITE)
     _check_arg("servers", servers)
     return _array(traffic, servers, 0)
 
@@ -181,10 +192,10 @@ def log_erlang_b(traffic, servers):
     -864.232
     """
     if type(traffic) in _SCALARS and type(servers) in _SCALARS:
-        _check_arg("traffic", traffic)
+        _check_arg("traffic", traffic, FINITE)
         _check_arg("servers", servers)
         return _scalar(traffic, servers, 1)
-    _check_arg("traffic", traffic)
+    _check_arg("traffic", traffic, FINITE)
     _check_arg("servers", servers)
     return _array(traffic, servers, 1)
 
@@ -220,10 +231,10 @@ def log1m_erlang_b(traffic, servers):
     -13.8155
     """
     if type(traffic) in _SCALARS and type(servers) in _SCALARS:
-        _check_arg("traffic", traffic)
+        _check_arg("traffic", traffic, FINITE)
         _check_arg("servers", servers)
         return _scalar(traffic, servers, 2)
-    _check_arg("traffic", traffic)
+    _check_arg("traffic", traffic, FINITE)
     _check_arg("servers", servers)
     return _array(traffic, servers, 2)
 
@@ -234,7 +245,7 @@ def erlang_b_table(traffic, max_servers):
     Parameters
     ----------
     traffic : float or array_like
-        Offered traffic in erlangs, 0 <= A <= 1e10, any shape.
+        Offered traffic in erlangs, finite, >= 0, any shape.
     max_servers : int
         Largest number of servers in the table, a whole number >= 0.
 
@@ -266,7 +277,7 @@ def erlang_b_table(traffic, max_servers):
     >>> erlang_b_table([1.0, 2.0], 2).shape
     (2, 3)
     """
-    _check_arg("traffic", traffic)
+    _check_arg("traffic", traffic, FINITE)
     if isinstance(max_servers, bool) or not (
         isinstance(max_servers, (int, np.integer))
         or (isinstance(max_servers, float) and max_servers.is_integer())
@@ -423,7 +434,7 @@ def erlang_b_dtraffic(traffic, servers):
     >>> round(erlang_b_dtraffic(10.0, 12), 6)
     0.038285
     """
-    _check_arg("traffic", traffic)
+    _check_arg("traffic", traffic, FINITE)
     _check_arg("servers", servers)
     if type(traffic) in _SCALARS and type(servers) in _SCALARS:
         a = float(traffic)
@@ -504,7 +515,7 @@ def erlang_b_dservers(traffic, servers):
     >>> round(erlang_b_dservers(10.0, 12), 5)
     -0.03945
     """
-    _check_arg("traffic", traffic)
+    _check_arg("traffic", traffic, FINITE)
     _check_arg("servers", servers)
     return _elementwise(_dservers_scalar, traffic, servers)
 
@@ -513,28 +524,13 @@ def erlang_b_dservers(traffic, servers):
 # economic sizing
 
 
-def _moe_scalar(a, cost, value):
-    a = float(a)
-    if a == 0.0 or value == 0.0:
-        return 0
-    ratio = cost / value
-    n = 0
-    e = 1.0
-    while True:
-        # marginal carried traffic of circuit n + 1: A (E_n - E_{n+1}), without cancellation
-        marginal = a * e * (n + 1 - a * (1.0 - e)) / (n + 1 + a * e)
-        if not marginal > ratio:
-            return n
-        e = a * e / (n + 1 + a * e)
-        n += 1
-
-
 def moe_servers(traffic, cost_per_circuit, value_per_erlang):
     """Circuits by Moe's principle: add one while the traffic it carries is worth its cost.
 
     Circuit n + 1 is added while ``A [E(A, n) - E(A, n + 1)] * value_per_erlang >
     cost_per_circuit`` [1]_. The marginal carried traffic falls as n grows, so the answer
-    also maximises ``value * A (1 - E(A, n)) - cost * n``.
+    also maximises ``value * A (1 - E(A, n)) - cost * n``; it is found by bisection on n,
+    a few dozen evaluations of E whatever the traffic.
 
     Parameters
     ----------
@@ -569,5 +565,13 @@ def moe_servers(traffic, cost_per_circuit, value_per_erlang):
     _check_arg("traffic", traffic)
     _check_positive("cost_per_circuit", cost_per_circuit)
     _check_nonneg("value_per_erlang", value_per_erlang)
-    return _elementwise(_moe_scalar, traffic, cost_per_circuit, value_per_erlang,
-                        dtype=np.int64)
+    if type(traffic) in _SCALARS and type(cost_per_circuit) in _SCALARS and \
+            type(value_per_erlang) in _SCALARS:
+        if traffic == 0 or value_per_erlang == 0:
+            return 0
+        ratio = cost_per_circuit / value_per_erlang
+        return int(_kernels(traffic).moe_point(float(traffic), float(ratio)))
+    (a, c, v), shape = _flat(traffic, cost_per_circuit, value_per_erlang)
+    with np.errstate(divide="ignore"):
+        ratio = c / v
+    return _finish(_many("moe_many", a, ratio, out_dtype=np.int64).reshape(shape))
