@@ -251,11 +251,45 @@ def steps(inv, t, k, m, rh, rl):
         p = inv * k
         t = p * rh + p * rl
         inv = 1.0 + t
-        if inv > HUGE:
+        if not inv <= HUGE:  # also NaN: inf * rh + inf * rl once p overflows
             return _INF, _INF
         k += 1.0
         j += 1.0
     return inv, t
+
+
+def steps_dd(inv, t, k, m, rh, rl):
+    """:func:`steps` in double-double, for runs over 500 steps: the roundings of a slowly
+    varying product are correlated, so they add up (1e-13 after 3000 steps near A = 2e6,
+    1e-12 after 1e5 near 1e10); these keep the error near 1e-16, at about twice the time a
+    step."""
+    ih = inv
+    il = 0.0
+    j = 0.0
+    while j < m:
+        ph, pe = two_prod(ih, k)
+        pl = pe + il * k
+        th, te = two_prod(ph, rh)
+        tl = te + (ph * rl + pl * rh)
+        sh, se = two_sum(1.0, th)
+        se += tl
+        ih = sh + se
+        il = se - (ih - sh)
+        t = th + tl
+        if not ih <= HUGE:
+            return _INF, _INF
+        k += 1.0
+        j += 1.0
+    return ih, t
+
+
+def recursion(inv, t, k, m, a):
+    """m steps of the recursion from 1/E_{k-1} = inv (t = inv - 1) at k: in double-double
+    beyond 500 steps (see :func:`steps_dd`)."""
+    rh, rl = recip(a)
+    if m > 500.0:
+        return steps_dd(inv, t, k, m, rh, rl)
+    return steps(inv, t, k, m, rh, rl)
 
 
 # --------------------------------------------------------------------------------------------
@@ -286,8 +320,7 @@ def from_below(a, x):
         t = s / cf_gamma(a, s)[0]
         inv = 1.0 + t
         k = s + 1.0
-    rh, rl = recip(a)
-    return steps(inv, t, k, m, rh, rl)
+    return recursion(inv, t, k, m, a)
 
 
 def series_above(a, x):
@@ -303,6 +336,11 @@ def series_above(a, x):
     s = 0.0
     term = 1.0
     b0 = x + 1.0
+    # a^3 in double-double: rounded once and used in every block, its error would act like
+    # a change of A, growing with the number of blocks (1e5 of them near A = 1e10)
+    a2h, a2l = two_prod(a, a)
+    a3h, a3e = two_prod(a2h, a)
+    a3l = a3e + a2l * a
     while b0 < x + 1e8:
         b1 = b0 + 1.0
         b2 = b0 + 2.0
@@ -312,7 +350,7 @@ def series_above(a, x):
         r = a / (b0 * b123)
         block = term * (b123 + a * (b23 + a * (b3 + a))) * r
         s += block
-        term *= a * a * a * r
+        term *= a3h * r + a3l * r
         # what is left is below term q / (1 - q), q = a / (b3 + 1): stop once it cannot
         # change 1 - pmf S in double precision
         if term * pmf * a < _TAIL * (b3 + 1.0 - a):
@@ -343,7 +381,9 @@ def point(a, x):
     elif x <= a:
         t = x / cf_gamma(a, x)[0]
         inv = 1.0 + t
-    elif x <= XREC:
+    elif x <= XREC or (x > 1e6 and x - a < 2.0 * math.sqrt(x)):
+        # above a million, close above A: the series would take 1e5 blocks whose roundings
+        # add up to 1e-12 where P(X > n) is near 1/2; the fraction and the steps do not
         inv, t = from_below(a, x)
     elif x <= 3.0 * a:
         return series_above(a, x)
@@ -355,8 +395,7 @@ def point(a, x):
         e, t, le = series_above(a, x - m)
         if le < -690.0:
             return tiny(a, x)
-        rh, rl = recip(a)
-        inv, t = steps(1.0 + t, t, x - m + 1.0, m, rh, rl)
+        inv, t = recursion(1.0 + t, t, x - m + 1.0, m, a)
     else:
         inv, t = from_below(a, x)
     if inv > HUGE:
@@ -478,19 +517,21 @@ def _walk_up(a, n, e, t, le, target, logt, limit):
     while j < limit:
         k += 1.0
         j += 1.0
-        if inv < HUGE:
-            p = inv * k
-            t = p * rh + p * rl
+        p = inv * k
+        tn = p * rh + p * rl
+        if tn <= HUGE:
+            t = tn
             inv = 1.0 + t
             e = 1.0 / inv
             le = _NAN
         else:
-            # E below 1e-300: log E_k = log E_{k-1} - log(k/A + E_{k-1}), E_{k-1} negligible
+            # E below 1e-300: log E_k = log E_{k-1} - log(k/A + E_{k-1})
             if le != le:
                 le = -math.log(inv)
-            le -= math.log(k / a)
+            le -= math.log(k / a + e)
             e = math.exp(le)
             t = _INF
+            inv = _INF
         if _meets(e, t, le, target, logt):
             return k, True, near or _near(e, t, le, target, logt), e, t, le
         near = _near(e, t, le, target, logt)
@@ -661,11 +702,14 @@ def traffic_for_point(x, target):
                 return 0.0, iters
             new = 5e-324
         a = new
-    for _ in range(64):
+    # steps growing from one ulp: where A is tiny, E moves only once log A does (|log A| ulps)
+    step = 2.0**-52
+    for _ in range(48):
         e, t, le = point(a, x)
         if _meets(e, t, le, target, logt):
             break
-        a *= 1.0 - 2.0**-52
+        a *= 1.0 - step
+        step *= 2.0
     return a, iters
 
 

@@ -18,12 +18,14 @@ import numpy as np
 
 from netdim import _erlang_core
 
-#: Largest number of servers the loss formulas accept (and largest traffic for the
-#: functions that return a number of servers): beyond it the work of the continued
+#: Largest number of servers the loss formulas accept: beyond it the work of the continued
 #: fraction and of the series grows like sqrt(n) past a few milliseconds, and accuracy is
 #: checked against mpmath only up to here (tests/test_erlang_extremes.py). Traffic is
-#: otherwise any finite number.
+#: any finite number, except for the functions that return a number of servers.
 MAX_ARG = 1e10
+#: Largest traffic for servers_for and moe_servers: their answers (at most A + 4e6 servers
+#: at this traffic, for any target down to 5e-324) stay within MAX_ARG.
+MAX_TRAFFIC_SIZED = 9.9e9
 #: The largest finite double: the bound of "finite".
 FINITE = sys.float_info.max
 
@@ -42,15 +44,23 @@ def _bad_scalar(name, x, what):
     raise ValueError(f"{name}: must be {what}, got {x!r}")
 
 
+def short_number(x):
+    """1e10 as '1e10', 9.9e9 as '9.9e9', 250.0 as '250' (for messages)."""
+    text = f"{x:.6g}"
+    if "e" not in text:
+        return text
+    mantissa, exponent = text.split("e")
+    return f"{mantissa}e{int(exponent)}"
+
+
 def _describe(name, value, upper):
     """The message for one bad value of a traffic- or server-like argument."""
     if value != value or value < 0:
         return f"{name}: must be >= 0, got {value!r}"
     if value == np.inf:
         return f"{name}: must be finite, got {value!r}"
-    shown = f"{upper:.0e}".replace("e+", "e")
-    return (f"{name}: must be at most {shown} (the range the loss formulas are checked "
-            f"over), got {value!r}")
+    return (f"{name}: must be at most {short_number(upper)} (the range the loss formulas "
+            f"are checked over), got {value!r}")
 
 
 def _check_arg(name, x, upper=MAX_ARG):
@@ -108,10 +118,16 @@ def _finish(out):
 
 
 def _flat(*args):
-    """Broadcast float arrays, contiguous and flat, with their common shape."""
-    arrs = np.broadcast_arrays(*[np.asarray(x, dtype=float) for x in args])
-    shape = arrs[0].shape
-    return [np.ascontiguousarray(x).ravel() for x in arrs], shape
+    """Float arrays broadcast to their common shape, flat, contiguous and writeable (what
+    the compiled loops take), with that shape."""
+    arrs = [np.asarray(x, dtype=float) for x in args]
+    shape = np.broadcast_shapes(*(a.shape for a in arrs))
+    flat = []
+    for a in arrs:
+        if a.shape != shape:
+            a = np.broadcast_to(a, shape).copy()
+        flat.append(np.ascontiguousarray(a).ravel())
+    return flat, shape
 
 
 def _elementwise(scalar_fn, *args, dtype=float, nout=1):

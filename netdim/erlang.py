@@ -10,8 +10,9 @@ pass over the elements, whatever the n, whole or real).
 Accuracy (against mpmath at 50 digits, tests/test_erlang*.py): relative error below 1e-13
 wherever ``E >= 1e-300``, for any finite traffic and up to 1e10 servers (worst seen about
 5e-14); ``log E`` to 1e-13 relative also where E underflows. Arguments must be finite and
->= 0, servers at most 1e10 (:data:`MAX_ARG`, also the most traffic :func:`servers_for` and
-:func:`moe_servers` take); anything else raises ValueError naming the argument. The
+>= 0, servers at most 1e10 (:data:`MAX_ARG`); :func:`servers_for` and :func:`moe_servers`
+take traffic up to 9.9e9 (:data:`MAX_TRAFFIC_SIZED`, so that their answers stay within
+range); anything else raises ValueError naming the argument. The
 numerical plan (recursion, continued fraction, Poisson series in double-double) is in
 :mod:`netdim._erlang_core` and docs/theory/erlang-b.md.
 
@@ -28,6 +29,7 @@ References
 from __future__ import annotations
 
 import math
+import time
 
 import numpy as np
 
@@ -35,6 +37,7 @@ from netdim import _erlang_core as _core
 from netdim._erlang_kernels import (
     FINITE,
     MAX_ARG,
+    MAX_TRAFFIC_SIZED,
     _check_arg,
     _check_nonneg,
     _check_positive,
@@ -49,6 +52,7 @@ from netdim._erlang_kernels import (
 
 __all__ = [
     "MAX_ARG",
+    "MAX_TRAFFIC_SIZED",
     "erlang_b",
     "log_erlang_b",
     "log1m_erlang_b",
@@ -63,34 +67,34 @@ __all__ = [
 _SCALARS = (int, float)
 #: Servers 1..30 as floats, for the scalar recursion (a float loop variable is faster).
 _KS = tuple(float(k) for k in range(1, 31))
-#: Scalar calls beyond the plain recursion (more than 30 servers, or real ones) run as plain
-#: Python until this many have been made (or until something else has loaded the compiled
-#: kernels): a single answer never waits for the compiler, many answers pay for it once.
-_PY_CALLS = 100
-_calls = [0]
+#: Scalar calls beyond the plain recursion (more than 30 servers or erlangs, or real servers)
+#: run as plain Python until they have taken this many seconds in all, about what loading
+#: the compiled kernels takes (unless something else has loaded them): a single answer
+#: never waits for the compiler, and many answers pay for it once.
+_PY_SECONDS = 0.5
+_spent = [0.0]
 #: Most values erlang_b_table builds at once.
 _MAX_TABLE = 10**8
 
 
-def _kernels(size):
-    """The compiled kernels if loaded (or once many scalar calls beyond 30 servers or
-    erlangs have been made), else the plain-Python numerics: a command line answering one
-    question never loads numba."""
+def _call(name, size, *args):
+    """``_erlang_core.name(*args)``, compiled once loaded (see :data:`_PY_SECONDS`)."""
     k = loaded()
-    if k is None:
-        if size <= 30:
-            return _core
-        _calls[0] += 1
-        if _calls[0] <= _PY_CALLS:
-            return _core
-        k = compiled()
-    return k
+    if k is None and size > 30:
+        if _spent[0] > _PY_SECONDS:
+            k = compiled()
+        else:
+            t0 = time.perf_counter()
+            out = getattr(_core, name)(*args)
+            _spent[0] += time.perf_counter() - t0
+            return out
+    return getattr(k if k is not None else _core, name)(*args)
 
 
 def _scalar(a, x, want):
     if x == 0 or a == 0:
         return _core.special_point(a, x, want)
-    e, t, le = _kernels(x).point(float(a), float(x))
+    e, t, le = _call("point", x, float(a), float(x))
     return _core.pick(e, t, le, want)
 
 
@@ -307,7 +311,7 @@ def servers_for(traffic, target):
     Parameters
     ----------
     traffic : float or array_like
-        Offered traffic in erlangs, 0 <= A <= 1e10; no traffic needs no servers (0).
+        Offered traffic in erlangs, 0 <= A <= 9.9e9; no traffic needs no servers (0).
     target : float or array_like
         Blocking target in (0, 1). Below 1e-300 the comparison is made on log E.
 
@@ -318,7 +322,7 @@ def servers_for(traffic, target):
     Raises
     ------
     ValueError
-        Traffic negative, NaN, infinite or above 1e10; target outside (0, 1).
+        Traffic negative, NaN, infinite or above 9.9e9; target outside (0, 1).
 
     Notes
     -----
@@ -339,12 +343,12 @@ def servers_for(traffic, target):
     >>> servers_for([10.0, 100.0], 0.01)
     array([ 18, 117])
     """
-    _check_arg("traffic", traffic)
+    _check_arg("traffic", traffic, MAX_TRAFFIC_SIZED)
     _check_target("target", target)
     if type(traffic) in _SCALARS and type(target) in _SCALARS:
         if traffic == 0:
             return 0
-        return int(_kernels(traffic).servers_for_point(float(traffic), float(target)))
+        return int(_call("servers_for_point", traffic, float(traffic), float(target)))
     (a, t), shape = _flat(traffic, target)
     return _finish(_many("servers_many", a, t, out_dtype=np.int64).reshape(shape))
 
@@ -391,7 +395,7 @@ def traffic_for(servers, target):
     if type(servers) in _SCALARS and type(target) in _SCALARS:
         if servers == 0:
             return 0.0
-        return _kernels(servers).traffic_for_point(float(servers), float(target))[0]
+        return _call("traffic_for_point", servers, float(servers), float(target))[0]
     (x, t), shape = _flat(servers, target)
     return _finish(_many("traffic_many", x, t).reshape(shape))
 
@@ -443,7 +447,7 @@ def erlang_b_dtraffic(traffic, servers):
             return 0.0
         if a == 0.0:
             return 1.0 if x == 1.0 else (math.inf if x < 1.0 else 0.0)
-        return _kernels(x).dtraffic_point(a, x)
+        return _call("dtraffic_point", x, a, x)
     (a, x), shape = _flat(traffic, servers)
     return _finish(_many("dtraffic_many", a, x).reshape(shape))
 
@@ -535,7 +539,7 @@ def moe_servers(traffic, cost_per_circuit, value_per_erlang):
     Parameters
     ----------
     traffic : float or array_like
-        Offered traffic, erlangs, 0 <= A <= 1e10.
+        Offered traffic, erlangs, 0 <= A <= 9.9e9.
     cost_per_circuit : float or array_like
         Cost of one circuit for the period, > 0.
     value_per_erlang : float or array_like
@@ -562,7 +566,7 @@ def moe_servers(traffic, cost_per_circuit, value_per_erlang):
     >>> moe_servers(10.0, 1.0, 5.0)
     15
     """
-    _check_arg("traffic", traffic)
+    _check_arg("traffic", traffic, MAX_TRAFFIC_SIZED)
     _check_positive("cost_per_circuit", cost_per_circuit)
     _check_nonneg("value_per_erlang", value_per_erlang)
     if type(traffic) in _SCALARS and type(cost_per_circuit) in _SCALARS and \
@@ -570,7 +574,7 @@ def moe_servers(traffic, cost_per_circuit, value_per_erlang):
         if traffic == 0 or value_per_erlang == 0:
             return 0
         ratio = cost_per_circuit / value_per_erlang
-        return int(_kernels(traffic).moe_point(float(traffic), float(ratio)))
+        return int(_call("moe_point", traffic, float(traffic), float(ratio)))
     (a, c, v), shape = _flat(traffic, cost_per_circuit, value_per_erlang)
     with np.errstate(divide="ignore"):
         ratio = c / v

@@ -2,10 +2,11 @@
 
 ``E(A, n) = A^n e^-A / Gamma(n + 1, A)`` with mpmath's upper incomplete gamma function
 (real n by the same formula). Where mpmath's hypergeometric series give up
-(``NoConvergence``, or a ValueError from ``hypercomb``, seen at A well above n), two other exact forms are used: for whole n the
-finite sum ``1/E = sum_{j=0..n} n! / ((n - j)! A^j)`` (Erlang's formula written out), for
-real n the integral ``1/E = int_0^inf e^-u (1 + u/A)^n du`` (D. L. Jagerman, Bell System
-Technical Journal 53 (1974) 525-551) by mpmath's quadrature.
+(``NoConvergence``, or a ValueError from ``hypercomb``, seen at A well above n), two other
+exact forms are used: for whole n the finite sum ``1/E = sum_{j=0..n} n! / ((n - j)! A^j)``
+(Erlang's formula written out), for real n the integral
+``1/E = int_0^inf e^-u (1 + u/A)^n du`` (D. L. Jagerman, Bell System Technical Journal 53
+(1974) 525-551) by mpmath's quadrature.
 """
 
 from __future__ import annotations

@@ -69,6 +69,8 @@ def _modules_for(argv):
         words = [w for w in argv if not w.startswith("-")]
         if words and f"{words[0]}_cmd" in COMMAND_MODULES:
             return (f"{words[0]}_cmd",)
+        if not words and "--version" in argv and not {"-h", "--help"} & set(argv):
+            return ()
     return COMMAND_MODULES
 
 

@@ -130,6 +130,9 @@ def bench_scalar(rng, repeats, quick):
     t_ref = median_time(ref, repeats)
     row(f"erlang_b(A, n), n < 30, {size} calls", t_ours, t_ref,
         f"goal <= 1; {size / t_ours:,.0f} calls/s against {size / t_ref:,.0f}")
+    # scalar calls in a process that has used the array API (the compiled kernels loaded;
+    # a first scalar call alone runs as plain Python)
+    erlang_b(np.array([50.0]), np.array([60.5]))
     for whole in (True, False):
         count = 2000 if quick else 20000
         ga, gn = wide_grid(rng, count, whole)
