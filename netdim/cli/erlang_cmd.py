@@ -7,7 +7,7 @@ import math
 import sys
 
 from netdim.erlang import MAX_ARG, erlang_b, servers_for, traffic_for
-from netdim.report.text import fmt_prob, format_table
+from netdim.report.text import fmt_prob, fmt_short, format_table
 
 __all__ = ["register", "run", "parse_values"]
 
@@ -61,7 +61,12 @@ def parse_values(option, text):
         raise ValueError(f"{option}: range stop {stop!r} is below its start {start!r}")
     span = (stop - start) / step  # may be inf (1e308 / 1e-308): compare before rounding
     if not span < _MAX_ROWS:
-        shown = f"{math.floor(span) + 1:,}" if math.isfinite(span) else "too many"
+        if not math.isfinite(span):
+            shown = "too many"
+        elif span < 1e9:
+            shown = f"{math.floor(span + 1e-9) + 1:,}"
+        else:
+            shown = f"about {fmt_short(span)}"
         raise ValueError(
             f"{option}: range has {shown} values, at most {_MAX_ROWS} allowed "
             f"(range too long)"
@@ -90,8 +95,8 @@ def _traffic_values(args):
         for r, a in zip(rates, traffic, strict=True):
             if not a <= MAX_ARG:
                 raise ValueError(
-                    f"--rate: {r!r} calls per hour held {args.holding!r} hours is {a!r} "
-                    f"erlangs; at most {MAX_ARG:.0e} allowed".replace("e+", "e")
+                    f"--rate: {fmt_short(r)} calls per hour held {args.holding!r} hours is "
+                    f"{a!r} erlangs; at most {fmt_short(MAX_ARG)} allowed"
                 )
         return traffic, is_range, "--rate"
     if args.holding is not None:
@@ -107,9 +112,7 @@ def _check_range(option, values, upper):
         if v < 0:
             raise ValueError(f"{option}: must be >= 0, got {v!r}")
         if v > upper:
-            raise ValueError(
-                f"{option}: must be at most {upper:.0e}, got {v!r}".replace("e+", "e")
-            )
+            raise ValueError(f"{option}: must be at most {fmt_short(upper)}, got {v!r}")
 
 
 def _json_number(x):
