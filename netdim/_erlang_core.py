@@ -1,10 +1,10 @@
 """Scalar numerics of Erlang's loss formula: one point E(A, n), and the two inverse problems.
 
-Plain Python on floats with the ``math`` module only, so that the same source runs as
-Python (the command line's single answers, with no compiler loaded) and compiled by numba
-(:mod:`netdim._erlang_kernels` compiles copies of these functions for arrays and long
-scalar work). Nothing here checks its arguments: callers pass ``0 < a``, ``0 < x``, both
-finite, and targets in (0, 1).
+Plain Python on floats with the ``math`` module (numpy only for the loops over arrays),
+so that the same source runs as Python (the command line's single answers, with no
+compiler loaded) and compiled by numba (:mod:`netdim._erlang_kernels` compiles copies of
+these functions for arrays and long scalar work). Nothing here checks its arguments:
+callers pass ``0 < a``, ``0 < x``, both finite, and targets in (0, 1).
 
 Every path returns ``(e, t, loge)``: ``e = E(A, n)``, ``t = 1/E - 1`` computed without
 cancellation (so ``1 - E = t E`` keeps its digits when E is near 1), and ``loge = log E``
@@ -41,6 +41,8 @@ References
 from __future__ import annotations
 
 import math
+
+import numpy as np
 
 #: The functions called from Python once compiled (the rest are helpers they inline).
 ENTRY_POINTS = ("point", "erlang_many", "servers_for_point", "servers_many",
@@ -433,16 +435,73 @@ def special_point(a, x, want):
 # loops over arrays (compiled by netdim._erlang_kernels; flat float64 arrays, one pass each)
 
 
+#: Whole n up to this (with A >= n/4) run the recursion from E_0 = 1 over arrays in blocks
+#: of elements sorted by n, the steps of a block vectorised across its elements: about 1 ns
+#: a step, against 0.1-0.4 us for one point by the other paths at these n.
+NBATCH = 256
+_LANES = 256
+
+
 def erlang_many(a, x, want, out):
     """out[i] = E, log E or log(1 - E) at (a[i], x[i]) (want 0, 1, 2)."""
-    for i in range(a.shape[0]):
+    size = a.shape[0]
+    n_of = np.full(size, -1, np.int64)
+    counts = np.zeros(NBATCH + 1, np.int64)
+    for i in range(size):
         ai = a[i]
         xi = x[i]
         if xi == 0.0 or ai == 0.0:
             out[i] = special_point(ai, xi, want)
+        elif xi <= NBATCH and xi == math.floor(xi) and ai >= 0.25 * xi and ai > 1e-280:
+            k = int(xi)
+            n_of[i] = k
+            counts[k] += 1
         else:
             e, t, le = point(ai, xi)
             out[i] = pick(e, t, le, want)
+    # counting sort of the batch by n, largest first
+    starts = np.zeros(NBATCH + 1, np.int64)
+    total = 0
+    for k in range(NBATCH, 0, -1):
+        starts[k] = total
+        total += counts[k]
+    perm = np.empty(total, np.int64)
+    for i in range(size):
+        k = n_of[i]
+        if k > 0:
+            perm[starts[k]] = i
+            starts[k] += 1
+    w_inv = np.empty(_LANES)
+    w_rh = np.empty(_LANES)
+    w_rl = np.empty(_LANES)
+    for b0 in range(0, total, _LANES):
+        w = min(_LANES, total - b0)
+        for j in range(w):
+            w_inv[j] = 1.0
+            rh, rl = recip(a[perm[b0 + j]])
+            w_rh[j] = rh
+            w_rl[j] = rl
+        n_lo = n_of[perm[b0 + w - 1]]
+        # the steps every element of the block takes: a plain loop the compiler vectorises
+        for k in range(1, n_lo):
+            fk = float(k)
+            for j in range(w):
+                p = w_inv[j] * fk
+                w_inv[j] = 1.0 + (p * w_rh[j] + p * w_rl[j])
+        # the last steps, element by element (the last product is t = 1/E - 1)
+        for j in range(w):
+            i = perm[b0 + j]
+            inv = w_inv[j]
+            t = inv - 1.0
+            for k in range(n_lo, n_of[i] + 1):
+                p = inv * float(k)
+                t = p * w_rh[j] + p * w_rl[j]
+                inv = 1.0 + t
+            if inv <= HUGE:
+                out[i] = pick(1.0 / inv, t, _NAN, want)
+            else:
+                e, t, le = point(a[i], x[i])
+                out[i] = pick(e, t, le, want)
     return out
 
 
