@@ -65,8 +65,22 @@ __all__ = [
 ]
 
 _SCALARS = (int, float)
-#: Servers 1..30 as floats, for the scalar recursion (a float loop variable is faster).
-_KS = tuple(float(k) for k in range(1, 31))
+_HUGE = _core.HUGE
+
+
+def _recursion_written_out(n):
+    """``lambda a: 1/E(a, n)``: Erlang's recursion ``inv = 1 + inv * k / a`` for k = 1..n
+    written out as one expression, the same operations in the same order as the loop. For
+    a few servers the interpreter's loop costs more than the arithmetic; without it a
+    scalar call is faster than the plain loop, which is the floor issue 17 sets."""
+    expr = "1.0"
+    for k in range(1, n + 1):
+        expr = f"(1.0 + {expr} * {float(k)!r} / a)"
+    return eval(f"lambda a: {expr}")  # a fixed expression of floats built here, no input
+
+
+#: 1/E(a, n) for n = 0..30.
+_INV = tuple(_recursion_written_out(n) for n in range(31))
 #: Scalar calls beyond the plain recursion (more than 30 servers or erlangs, or real servers)
 #: run as plain Python until they have taken this many seconds in all, about what loading
 #: the compiled kernels takes (unless something else has loaded them): a single answer
@@ -145,6 +159,13 @@ def erlang_b(traffic, servers):
     >>> erlang_b([5.0, 10.0], 10).round(6)
     array([0.018385, 0.214582])
     """
+    # the commonest call first, in as few operations as possible (a float load, a few
+    # whole servers): the scalar recursion, written out
+    if type(servers) is int and 0 <= servers <= 30 and type(traffic) is float and \
+            0.0 < traffic <= FINITE:
+        inv = _INV[servers](traffic)
+        if inv <= _HUGE:
+            return 1.0 / inv
     if type(traffic) in _SCALARS and type(servers) in _SCALARS:
         if not (0 <= traffic <= FINITE and 0 <= servers <= MAX_ARG):
             _check_arg("traffic", traffic, FINITE)
@@ -152,10 +173,8 @@ def erlang_b(traffic, servers):
         if servers <= 30 and (type(servers) is int or servers.is_integer()):
             if traffic == 0:
                 return 1.0 if servers == 0 else 0.0
-            inv = 1.0
-            for k in _KS[: int(servers)]:
-                inv = 1.0 + inv * k / traffic
-            if inv <= _core.HUGE:
+            inv = _INV[int(servers)](traffic)
+            if inv <= _HUGE:
                 return 1.0 / inv
             return _core.tiny(float(traffic), float(servers))[0]
         return _scalar(traffic, servers, 0)

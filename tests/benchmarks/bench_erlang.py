@@ -2,7 +2,8 @@
 
     python tests/benchmarks/bench_erlang.py [--points 1000000] [--repeats 3] [--quick]
 
-Rows (medians of ``--repeats`` rounds; ratios are netdim's time over the reference's):
+Rows (medians of ``--repeats`` rounds, netdim's and the reference's interleaved; ratios are
+netdim's time over the reference's):
 
 * wide grid: ``--points`` pairs, A log-uniform in [1e-3, 1e5], n log-uniform in [0, 1e5]
   (whole numbers; then the same with real n), against the closed form
@@ -43,12 +44,19 @@ from netdim.erlang import erlang_b, log_erlang_b, servers_for, traffic_for  # no
 
 
 def median_time(fn, repeats=3):
-    times = []
+    return median_times([fn], repeats)[0]
+
+
+def median_times(fns, repeats=3):
+    """Median time of each function, the rounds interleaved (A B A B ...) so that a change
+    in the machine's load falls on both sides of a ratio."""
+    times = [[] for _ in fns]
     for _ in range(repeats):
-        t0 = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times)
+        for fn, out in zip(fns, times, strict=True):
+            t0 = time.perf_counter()
+            fn()
+            out.append(time.perf_counter() - t0)
+    return [statistics.median(t) for t in times]
 
 
 def closed_form(a, n):
@@ -90,9 +98,9 @@ def bench_wide(rng, points, repeats, quick, sample):
         a, n = wide_grid(rng, points, whole)
         erlang_b(a[:10], n[:10])  # compile or load the kernels outside the timing
         sub = points // 10 if quick else points
-        t_ours = median_time(lambda a=a, n=n, sub=sub: erlang_b(a[:sub], n[:sub]),
-                             repeats) * points / sub
-        t_ref = median_time(lambda a=a, n=n: closed_form(a, n), repeats)
+        t_ours, t_ref = median_times([lambda a=a, n=n, sub=sub: erlang_b(a[:sub], n[:sub]),
+                                      lambda a=a, n=n: closed_form(a, n)], repeats)
+        t_ours *= points / sub
         kind = "whole n" if whole else "real n"
         note = " (timed on a tenth, scaled)" if quick else ""
         row(f"erlang_b, {kind}{note}", t_ours, t_ref, "goal <= 3")
@@ -126,8 +134,7 @@ def bench_scalar(rng, repeats, quick):
         for x, k in pairs:
             plain_loop(x, k)
 
-    t_ours = median_time(ours, repeats)
-    t_ref = median_time(ref, repeats)
+    t_ours, t_ref = median_times([ours, ref], repeats)
     row(f"erlang_b(A, n), n < 30, {size} calls", t_ours, t_ref,
         f"goal <= 1; {size / t_ours:,.0f} calls/s against {size / t_ref:,.0f}")
     # scalar calls in a process that has used the array API (the compiled kernels loaded;
@@ -165,10 +172,10 @@ def bench_inverse(rng, repeats, quick):
     print("inverse problems")
     ns = np.unique(np.round(np.logspace(0, 5, 200)))
     traffic_for(ns[:3], 0.01)
-    t_vec = median_time(lambda: traffic_for(ns, 0.01), repeats)
     nl = ns.tolist()
-    t_sca = median_time(lambda: [traffic_for(k, 0.01) for k in nl], repeats)
-    t_ref = median_time(lambda: ref_traffic_for(ns, 0.01), repeats)
+    t_vec, t_sca, t_ref = median_times([lambda: traffic_for(ns, 0.01),
+                                        lambda: [traffic_for(k, 0.01) for k in nl],
+                                        lambda: ref_traffic_for(ns, 0.01)], repeats)
     row(f"traffic_for, {ns.size} n up to 1e5, vectorised", t_vec, t_ref, "goal <= 2")
     row(f"traffic_for, {ns.size} n up to 1e5, scalar calls", t_sca, t_ref, "goal <= 2")
     count = 2000 if quick else 10000
@@ -188,8 +195,8 @@ def bench_small_n(rng, repeats):
     n = rng.integers(0, 201, size).astype(float)
     a = rng.uniform(0.1, 250.0, size)
     erlang_b(a[:10], n[:10])
-    t_vec = median_time(lambda: erlang_b(a, n), repeats)
-    t_gam = median_time(lambda: special.gammaincc(n + 1.0, a), repeats)
+    t_vec, t_gam = median_times([lambda: erlang_b(a, n),
+                                 lambda: special.gammaincc(n + 1.0, a)], repeats)
     row("erlang_b, 1e6 pairs, n <= 200, A <= 250", t_vec, t_gam, "gammaincc alone")
 
 
