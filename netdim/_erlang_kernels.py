@@ -70,9 +70,11 @@ def _check_arg(name, x, upper=MAX_ARG):
             raise ValueError(_describe(name, float(x), upper))
         return
     arr = np.asarray(x, dtype=float)
+    # two reductions and no temporaries in the usual case (NaN makes min and max NaN)
+    if arr.size == 0 or (arr.min() >= 0 and arr.max() <= upper):
+        return
     bad = ~((arr >= 0) & (arr <= upper))
-    if bad.any():
-        raise ValueError(_describe(name, float(arr[bad].flat[0]), upper))
+    raise ValueError(_describe(name, float(arr[bad].flat[0]), upper))
 
 
 def _check_nonneg(name, x):
@@ -190,6 +192,5 @@ def compiled():
 def _many(fn_name, *arrays, out_dtype=float, extra=()):
     """Run a compiled loop of :mod:`netdim._erlang_core` over flat float64 arrays."""
     out = np.empty(arrays[0].shape, dtype=out_dtype)
-    with np.errstate(all="ignore"):
-        getattr(compiled(), fn_name)(*arrays, *extra, out)
+    getattr(compiled(), fn_name)(*arrays, *extra, out)
     return out

@@ -17,7 +17,9 @@ netdim's time over the reference's):
   form run for 8 iterations (goal: ratio <= 2).
 * servers_for on 1e4 traffics uniform in [0, 1e5] and log-uniform in [1e-3, 1e5] (target
   1 %). Goal: >= 2e5 per second.
-* the older rows: n <= 200 on 1e6 pairs against gammaincc alone, and the accuracy grid.
+* the older rows: n <= 200 on 1e6 pairs against gammaincc alone, and the accuracy grid;
+  and one call on arrays of a network's size (10, 200, 5000 links), as the fixed point
+  makes it.
 
 ``--quick`` times the slow rows on a sub-sample (a tenth of the points) and says so; the
 per-point figures are then scaled, so compare them as rates.
@@ -200,6 +202,21 @@ def bench_small_n(rng, repeats):
     row("erlang_b, 1e6 pairs, n <= 200, A <= 250", t_vec, t_gam, "gammaincc alone")
 
 
+def bench_network_sized(rng, repeats):
+    print("arrays of a network's size (A 5..100, n A..1.5A, whole): one call")
+    for size in (10, 200, 5000):
+        a = rng.uniform(5.0, 100.0, size)
+        n = np.round(a * rng.uniform(1.0, 1.5, size))
+        erlang_b(a, n)
+
+        def calls(a=a, n=n):
+            for _ in range(200):
+                erlang_b(a, n)
+
+        t = median_time(calls, max(repeats, 5)) / 200
+        print(f"  {size:5d} elements: {t * 1e6:8.1f} us per call")
+
+
 def accuracy_grid():
     mp.mp.dps = 50
     worst = 0.0
@@ -229,7 +246,8 @@ def main(argv=None):
     p.add_argument("--repeats", type=int, default=3)
     p.add_argument("--sample", type=int, default=2000, help="points checked against mpmath")
     p.add_argument("--quick", action="store_true", help="time slow rows on a tenth")
-    p.add_argument("--only", choices=("wide", "scalar", "inverse", "small", "accuracy"))
+    p.add_argument("--only", choices=("wide", "scalar", "inverse", "small", "network",
+                                      "accuracy"))
     args = p.parse_args(argv)
     rng = np.random.default_rng(12345)
     rows = {
@@ -237,6 +255,7 @@ def main(argv=None):
         "scalar": lambda: bench_scalar(rng, args.repeats, args.quick),
         "inverse": lambda: bench_inverse(rng, args.repeats, args.quick),
         "small": lambda: bench_small_n(rng, args.repeats),
+        "network": lambda: bench_network_sized(rng, args.repeats),
         "accuracy": accuracy_grid,
     }
     for name, fn in rows.items():
