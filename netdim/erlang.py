@@ -79,8 +79,8 @@ def _recursion_written_out(n):
     return eval(f"lambda a: {expr}")  # a fixed expression of floats built here, no input
 
 
-#: 1/E(a, n) for n = 0..30.
-_INV = tuple(_recursion_written_out(n) for n in range(31))
+#: 1/E(a, n) for n = 0..30, each built on first use (building all takes a few ms).
+_INV = [None] * 31
 #: Scalar calls beyond the plain recursion (more than 30 servers or erlangs, or real servers)
 #: run as plain Python until they have taken this many seconds in all, about what loading
 #: the compiled kernels takes (unless something else has loaded them): a single answer
@@ -163,7 +163,10 @@ def erlang_b(traffic, servers):
     # whole servers): the scalar recursion, written out
     if type(servers) is int and 0 <= servers <= 30 and type(traffic) is float and \
             0.0 < traffic <= FINITE:
-        inv = _INV[servers](traffic)
+        f = _INV[servers]
+        if f is None:
+            f = _INV[servers] = _recursion_written_out(servers)
+        inv = f(traffic)
         if inv <= _HUGE:
             return 1.0 / inv
     if type(traffic) in _SCALARS and type(servers) in _SCALARS:
@@ -173,7 +176,11 @@ def erlang_b(traffic, servers):
         if servers <= 30 and (type(servers) is int or servers.is_integer()):
             if traffic == 0:
                 return 1.0 if servers == 0 else 0.0
-            inv = _INV[int(servers)](traffic)
+            n = int(servers)
+            f = _INV[n]
+            if f is None:
+                f = _INV[n] = _recursion_written_out(n)
+            inv = f(traffic)
             if inv <= _HUGE:
                 return 1.0 / inv
             return _core.tiny(float(traffic), float(servers))[0]
