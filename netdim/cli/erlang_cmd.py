@@ -6,7 +6,7 @@ import json
 import math
 import sys
 
-from netdim.erlang import MAX_ARG, erlang_b, servers_for, traffic_for
+from netdim.erlang import MAX_ARG, MAX_TRAFFIC_SIZED, erlang_b, servers_for, traffic_for
 from netdim.report.text import fmt_prob, fmt_short, format_table
 
 __all__ = ["register", "run", "parse_values"]
@@ -22,7 +22,8 @@ def register(subparsers):
         "servers give the blocking; traffic and target the fewest servers meeting it; servers "
         "and target the most traffic they carry within it. One option may be a range "
         "START:STOP:STEP (both ends included, at most 10000 values), which prints a table. "
-        "Traffic and servers are at most 1e10. No traffic needs no servers and loses "
+        "Traffic and servers are at most 1e10 (traffic 9.9e9 when servers are asked "
+        "for). No traffic needs no servers and loses "
         "nothing: its blocking is reported as 0. Servers that are not a whole number use the "
         "continuous extension of Erlang's formula, and a note says so.",
     )
@@ -139,7 +140,8 @@ def run(args) -> int:
     if t_range + s_range + p_range > 1:
         raise ValueError("erlang: only one of the options may be a range")
     # validate every value before any work (the library would name its argument, not ours)
-    _check_range(t_option, traffic, MAX_ARG)
+    # asked for servers, the traffic must leave the answer within the servers' range
+    _check_range(t_option, traffic, MAX_TRAFFIC_SIZED if servers is None else MAX_ARG)
     _check_range("--servers", servers, MAX_ARG)
     for v in target or ():
         if not 0 < v < 1:
