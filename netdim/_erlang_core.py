@@ -24,6 +24,10 @@ is short and accurate (see docs/theory/erlang-b.md):
   lower incomplete gamma function, then the recursion; and where E is below 1e-300 only
   its logarithm, from the saddle-point form of the Poisson probability.
 
+One file on purpose (it is longer than the guide's 600 lines): numba's disk cache is keyed
+on the source file of each compiled entry point, so an entry point here that used helpers
+from another file would keep a stale compiled copy of them after that file changed.
+
 References
 ----------
 .. [1] A. K. Erlang, "Solution of some problems in the theory of probabilities of

@@ -16,6 +16,7 @@ import argparse
 import importlib
 import sys
 
+import netdim  # lazy (PEP 562): nothing is loaded until a name is used
 from netdim.errors import ConvergenceError, NetdimError, NetworkFileError
 
 __all__ = ["main", "build_parser", "EXIT"]
@@ -35,8 +36,6 @@ class _Version(argparse.Action):
         super().__init__(option_strings, dest=dest, default=default, nargs=0, help=help)
 
     def __call__(self, parser, namespace, values, option_string=None):
-        import netdim
-
         parser.exit(0, f"netdim {netdim.__version__}\n")
 
 
