@@ -1,41 +1,119 @@
 """netdim: end-to-end blocking and least-cost sizing of networks of shared, blocking resources.
 
-The public API: read a network (:func:`read_network`), evaluate it (:func:`evaluate`), size it
-(:func:`dimension`), and the single-resource loss formulas in :mod:`netdim.erlang`.
+Every public name is reachable as ``netdim.NAME`` and is loaded on first use, so that
+``import netdim`` (and the command line) pays only for what it touches.
+
+Loss formulas (one resource)
+    erlang_b            E(A, n): probability that all n servers offered A erlangs are busy
+    log_erlang_b        log E(A, n), also where E underflows
+    log1m_erlang_b      log(1 - E(A, n)), also where E is near 1
+    erlang_b_table      every E(A, 0..n) for each load
+    servers_for         fewest servers with E(A, n) <= target
+    traffic_for         most traffic with E(A, n) <= target
+    erlang_b_dtraffic   dE/dA
+    erlang_b_dservers   dE/dn (continuous extension)
+    moe_servers         circuits by Moe's principle (value of carried traffic against cost)
+    engset_time         Engset's time congestion (finite sources)
+    engset_call         Engset's call congestion
+    overflow_moments    mean and variance of a group's overflow (Riordan)
+    equivalent_random   Wilkinson's equivalent random group of a peaked stream
+    overflow_blocking   blocking of a final group offered overflow streams
+    kaufman_roberts     blocking of each class on a multi-rate link
+    reservation_link    blocking of each stream on a link with trunk reservation
+
+Model and files
+    Site, Link, Route, Demand, Routing, Network    the immutable network model
+    read_network        read and validate a network file
+    write_network       write a network file
+
+Evaluation
+    evaluate            blocking of every demand: fixed point, conservative, exact, simulate
+    Evaluation          its result
+    METHODS             the evaluation methods
+    compare_methods     two methods side by side on one network
+    Comparison          its result
+
+Sizing
+    dimension           least-cost capacities meeting every demand's target
+    Plan                its result
+    MODELS, SOLVERS, STATUSES                      the sizing models, MILP solvers, plan statuses
+
+Errors
+    NetdimError, NetworkFileError, ConvergenceError, InfeasibleError, ModelTooLargeError
+
+Version
+    __version__         the installed package's version
+
+Examples
+--------
+>>> import netdim
+>>> netdim.servers_for(10.0, 0.01)
+18
+>>> round(netdim.erlang_b(10.0, 18), 5)
+0.00714
 """
 
-from netdim.dimension import Plan, dimension
-from netdim.errors import (
-    ConvergenceError,
-    InfeasibleError,
-    ModelTooLargeError,
-    NetdimError,
-    NetworkFileError,
-)
-from netdim.evaluate import METHODS, Evaluation, evaluate
-from netdim.model import Demand, Link, Network, Route, Routing, Site
-from netdim.netfile import read_network, write_network
+from __future__ import annotations
 
-__version__ = "0.1.0"
+import importlib
+import sys
+import types
 
-__all__ = [
-    "__version__",
-    "NetdimError",
-    "NetworkFileError",
-    "ConvergenceError",
-    "InfeasibleError",
-    "ModelTooLargeError",
-    "Site",
-    "Link",
-    "Route",
-    "Demand",
-    "Routing",
-    "Network",
-    "evaluate",
-    "dimension",
-    "Plan",
-    "Evaluation",
-    "METHODS",
-    "read_network",
-    "write_network",
-]
+#: Public name -> the module that defines it.
+_EXPORTS = {
+    **dict.fromkeys(
+        ("erlang_b", "log_erlang_b", "log1m_erlang_b", "erlang_b_table", "servers_for",
+         "traffic_for", "erlang_b_dtraffic", "erlang_b_dservers", "moe_servers"),
+        "netdim.erlang"),
+    **dict.fromkeys(("engset_time", "engset_call"), "netdim.engset"),
+    **dict.fromkeys(("overflow_moments", "equivalent_random", "overflow_blocking"),
+                    "netdim.overflow"),
+    **dict.fromkeys(("kaufman_roberts", "reservation_link"), "netdim.linkmodels"),
+    **dict.fromkeys(("Site", "Link", "Route", "Demand", "Routing", "Network"), "netdim.model"),
+    **dict.fromkeys(("read_network", "write_network"), "netdim.netfile"),
+    **dict.fromkeys(("evaluate", "Evaluation", "METHODS"), "netdim.evaluate"),
+    **dict.fromkeys(("compare_methods", "Comparison"), "netdim.evaluate.compare"),
+    **dict.fromkeys(("dimension", "Plan", "MODELS", "SOLVERS", "STATUSES"), "netdim.dimension"),
+    **dict.fromkeys(("NetdimError", "NetworkFileError", "ConvergenceError", "InfeasibleError",
+                     "ModelTooLargeError"), "netdim.errors"),
+}
+
+__all__ = ["__version__", *_EXPORTS]
+
+#: Public functions named like the subpackage that holds them.
+_SHADOWED = ("evaluate", "dimension")
+
+
+def __getattr__(name):
+    """Load a public name on first use (PEP 562)."""
+    if name == "__version__":
+        from importlib import metadata  # the installed distribution is the one source
+
+        try:
+            value = metadata.version("netdim")
+        except metadata.PackageNotFoundError:
+            value = "0+unknown"
+    elif name in _EXPORTS:
+        value = getattr(importlib.import_module(_EXPORTS[name]), name)
+    else:
+        raise AttributeError(f"module 'netdim' has no attribute {name!r}")
+    globals()[name] = value
+    return value
+
+
+def __dir__():
+    return sorted(set(globals()) | set(__all__))
+
+
+class _Package(types.ModuleType):
+    """Keeps ``netdim.evaluate`` and ``netdim.dimension`` the functions: importing the
+    subpackage of the same name would otherwise bind it over them (the import system sets
+    the parent's attribute), and ``netdim.evaluate(network)`` would call a module."""
+
+    def __setattr__(self, name, value):
+        if name in _SHADOWED and isinstance(value, types.ModuleType):
+            value = getattr(value, name)
+        super().__setattr__(name, value)
+
+
+sys.modules[__name__].__class__ = _Package

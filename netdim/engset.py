@@ -6,8 +6,8 @@ conventions as :mod:`netdim.erlang`: Python numbers in, float out; arrays broadc
 
 References
 ----------
-T. O. Engset, "Die Wahrscheinlichkeitsrechnung zur Bestimmung der Wählerzahl in
-automatischen Fernsprechämtern", Elektrotechnische Zeitschrift 39 (1918) 304-306.
+.. [1] T. O. Engset, "Die Wahrscheinlichkeitsrechnung zur Bestimmung der Wählerzahl in
+   automatischen Fernsprechämtern", Elektrotechnische Zeitschrift 39 (1918) 304-306.
 """
 
 from __future__ import annotations
@@ -16,16 +16,24 @@ import math
 
 import numpy as np
 
-from netdim._erlang_kernels import _check_nonneg, _finish, _is_scalar
+from netdim._erlang_kernels import MAX_ARG, _check_arg, _elementwise
 
 __all__ = ["engset_time", "engset_call"]
+
+#: Most sources and servers accepted: the recursion takes one step per server.
+MAX_WHOLE = 10**6
 
 
 def _check_whole(name, x):
     arr = np.asarray(x, dtype=float)
-    bad = ~(arr >= 0) | (arr != np.floor(arr))
+    bad = ~(arr >= 0) | (arr != np.floor(arr)) | ~np.isfinite(arr)
     if bad.any():
         raise ValueError(f"{name}: must be a whole number >= 0, got {float(arr[bad].flat[0])!r}")
+    if (arr > MAX_WHOLE).any():
+        raise ValueError(
+            f"{name}: must be at most {MAX_WHOLE:,} (one recursion step per server), got "
+            f"{float(arr[arr > MAX_WHOLE].flat[0])!r}"
+        )
 
 
 def _engset_time_scalar(sources, alpha, servers):
@@ -35,8 +43,6 @@ def _engset_time_scalar(sources, alpha, servers):
         return 1.0
     if n > n_src or alpha == 0.0:
         return 0.0
-    if alpha == math.inf:
-        return 1.0 if n == n_src else 0.0
     inv = 1.0
     for k in range(1, n + 1):
         inv = 1.0 + inv * k / ((n_src - k + 1) * alpha)
@@ -47,26 +53,17 @@ def _engset_time_scalar(sources, alpha, servers):
 
 def _engset(sources, alpha, servers, call):
     _check_whole("sources", sources)
-    _check_nonneg("alpha", alpha)
+    _check_arg("alpha", alpha, MAX_ARG)
     _check_whole("servers", servers)
     shift = 1 if call else 0
 
     def one(s, al, n):
+        s = int(s)
         if call and s == 0:
             return 0.0
-        return _engset_time_scalar(s - shift, al, n)
+        return _engset_time_scalar(s - shift, float(al), int(n))
 
-    if _is_scalar(sources, alpha, servers):
-        return one(int(sources), float(alpha), int(servers))
-    s, al, n = np.broadcast_arrays(
-        np.asarray(sources, dtype=float), np.asarray(alpha, dtype=float),
-        np.asarray(servers, dtype=float),
-    )
-    out = np.array(
-        [one(int(si), float(ai), int(ni)) for si, ai, ni in zip(s.ravel(), al.ravel(),
-                                                                n.ravel(), strict=True)]
-    )
-    return _finish(out.reshape(s.shape))
+    return _elementwise(one, sources, alpha, servers)
 
 
 def engset_time(sources, alpha, servers):
@@ -75,12 +72,12 @@ def engset_time(sources, alpha, servers):
     Parameters
     ----------
     sources : int or array_like
-        Number of traffic sources N (whole number >= 0).
+        Number of traffic sources N, a whole number, 0 <= N <= 1e6.
     alpha : float or array_like
         Offered traffic per idle source (arrival rate of an idle source times the mean
-        holding time), >= 0.
+        holding time), finite, 0 <= alpha <= 1e10.
     servers : int or array_like
-        Number of servers n (whole number >= 0).
+        Number of servers n, a whole number, 0 <= n <= 1e6.
 
     Returns
     -------
@@ -90,14 +87,23 @@ def engset_time(sources, alpha, servers):
     Raises
     ------
     ValueError
-        Sources or servers not whole numbers >= 0; negative or NaN alpha.
+        Sources or servers not whole numbers in [0, 1e6]; alpha negative, NaN, infinite
+        or above 1e10 (the message names the argument).
 
     Notes
     -----
     Stable inverse recursion ``1/E_k = 1 + k / ((N - k + 1) alpha E_{k-1})``, ``E_0 = 1``
-    (as Erlang's). Reference: T. O. Engset, "Die Wahrscheinlichkeitsrechnung zur Bestimmung
-    der Wählerzahl in automatischen Fernsprechämtern", Elektrotechnische Zeitschrift 39
-    (1918) 304-306.
+    (as Erlang's) [1]_.
+
+    References
+    ----------
+    .. [1] T. O. Engset, Elektrotechnische Zeitschrift 39 (1918) 304-306.
+
+    Examples
+    --------
+    >>> from netdim.engset import engset_time
+    >>> round(engset_time(10, 0.5, 3), 6)
+    0.465116
     """
     return _engset(sources, alpha, servers, call=False)
 
@@ -105,8 +111,30 @@ def engset_time(sources, alpha, servers):
 def engset_call(sources, alpha, servers):
     """Engset call congestion: probability that an arriving call is blocked.
 
-    Parameters as :func:`engset_time`. Equal to the time congestion of a system with one
-    source fewer (an arriving call sees the other N - 1 sources in equilibrium): the Engset
-    formula proper. 0 when n >= N.
+    Parameters
+    ----------
+    sources, alpha, servers : int, float, int or array_like
+        As :func:`engset_time`.
+
+    Returns
+    -------
+    float or ndarray
+        The time congestion of a system with one source fewer (an arriving call sees the
+        other N - 1 sources in equilibrium): Engset's formula proper [1]_. 0 when n >= N.
+
+    Raises
+    ------
+    ValueError
+        As :func:`engset_time`.
+
+    References
+    ----------
+    .. [1] T. O. Engset, Elektrotechnische Zeitschrift 39 (1918) 304-306.
+
+    Examples
+    --------
+    >>> from netdim.engset import engset_call
+    >>> round(engset_call(10, 0.5, 3), 6)
+    0.42
     """
     return _engset(sources, alpha, servers, call=True)

@@ -7,10 +7,10 @@ final group offered several overflow streams. Same calling conventions as
 
 References
 ----------
-R. I. Wilkinson, "Theories for toll traffic engineering in the U.S.A.", Bell System
-Technical Journal 35 (1956) 421-514 (with J. Riordan's moments in the appendix).
-Y. Rapp, "Planning of junction network in a multi-exchange area", Ericsson Technics 20
-(1964) 77-130.
+.. [1] R. I. Wilkinson, "Theories for toll traffic engineering in the U.S.A.", Bell System
+   Technical Journal 35 (1956) 421-514 (with J. Riordan's moments in the appendix).
+.. [2] Y. Rapp, "Planning of junction network in a multi-exchange area", Ericsson Technics
+   20 (1964) 77-130.
 """
 
 from __future__ import annotations
@@ -20,14 +20,12 @@ import math
 import numpy as np
 
 from netdim._erlang_kernels import (
-    _check_nonneg,
-    _check_positive,
-    _erlang_b_scalar,
-    _finish,
+    MAX_ARG,
+    _check_arg,
+    _elementwise,
     _is_scalar,
-    _log_erlang_b_scalar,
 )
-from netdim.erlang import erlang_b
+from netdim.erlang import erlang_b, log_erlang_b
 
 __all__ = [
     "overflow_moments",
@@ -41,49 +39,93 @@ __all__ = [
 def overflow_moments(traffic, servers):
     """Mean and variance of the traffic a group of ``servers`` overflows (Riordan).
 
-    Parameters and rules as :func:`erlang_b`.
+    Parameters
+    ----------
+    traffic, servers : float or array_like
+        Offered traffic (erlangs) and servers of the group, as
+        :func:`netdim.erlang.erlang_b`.
 
     Returns
     -------
     mean, variance : float or ndarray
         ``M = A E(A, n)``, ``V = M (1 - M + A / (n + 1 - A + M))``.
 
+    Raises
+    ------
+    ValueError
+        An argument negative, NaN, infinite or above 1e10.
+
     References
     ----------
-    J. Riordan, in R. I. Wilkinson, "Theories for toll traffic engineering in the U.S.A.",
-    Bell System Technical Journal 35 (1956) 421-514 (appendix).
+    .. [1] J. Riordan, in R. I. Wilkinson, "Theories for toll traffic engineering in the
+       U.S.A.", Bell System Technical Journal 35 (1956) 421-514 (appendix).
+
+    Examples
+    --------
+    >>> from netdim.overflow import overflow_moments
+    >>> m, v = overflow_moments(10.0, 8)
+    >>> round(m, 4), round(v, 4)
+    (3.3832, 6.1333)
     """
-    _check_nonneg("traffic", traffic)
-    _check_nonneg("servers", servers)
-    scalar = _is_scalar(traffic, servers)
-    a = np.asarray(traffic, dtype=float)
-    x = np.asarray(servers, dtype=float)
-    m = np.asarray(erlang_b(a, x), dtype=float) * a
+    a, x, m = _overflow_mean(traffic, servers)
     v = m * (1.0 - m + a / (x + 1.0 - a + m))
-    if scalar or np.ndim(m) == 0:
+    if np.ndim(m) == 0:
         return float(m), float(v)
     return m, v
+
+
+def _overflow_mean(traffic, servers):
+    """(A, n, A E(A, n)): Python floats for Python numbers, else broadcast arrays."""
+    _check_arg("traffic", traffic)
+    _check_arg("servers", servers)
+    if _is_scalar(traffic, servers):
+        a, x = float(traffic), float(servers)
+        return a, x, a * erlang_b(a, x)
+    a = np.asarray(traffic, dtype=float)
+    x = np.asarray(servers, dtype=float)
+    return a, x, np.asarray(erlang_b(a, x), dtype=float) * a
 
 
 def peakedness(traffic, servers):
     """Peakedness Z = variance / mean of the overflow of a group (Riordan's formula).
 
-    Computed as ``1 - M + A / (n + 1 - A + M)`` (no division by M, so it stays defined when
-    the overflow is tiny). Parameters and rules as :func:`erlang_b`.
+    Parameters
+    ----------
+    traffic, servers : float or array_like
+        As :func:`overflow_moments`.
+
+    Returns
+    -------
+    float or ndarray
+        ``1 - M + A / (n + 1 - A + M)`` with ``M = A E(A, n)`` [1]_ (no division by M, so
+        it stays defined when the overflow is tiny).
+
+    Raises
+    ------
+    ValueError
+        As :func:`overflow_moments`.
+
+    References
+    ----------
+    .. [1] R. I. Wilkinson, Bell System Technical Journal 35 (1956) 421-514.
+
+    Examples
+    --------
+    >>> from netdim.overflow import peakedness
+    >>> round(peakedness(10.0, 8), 4)
+    1.8129
     """
-    _check_nonneg("traffic", traffic)
-    _check_nonneg("servers", servers)
-    scalar = _is_scalar(traffic, servers)
-    a = np.asarray(traffic, dtype=float)
-    x = np.asarray(servers, dtype=float)
-    m = np.asarray(erlang_b(a, x), dtype=float) * a
+    a, x, m = _overflow_mean(traffic, servers)
     z = 1.0 - m + a / (x + 1.0 - a + m)
-    return float(z) if scalar or np.ndim(z) == 0 else z
+    return float(z) if np.ndim(z) == 0 else z
 
 
 def _check_mean_var(mean, variance):
-    _check_positive("mean", mean)
-    _check_nonneg("variance", variance)
+    _check_arg("mean", mean)
+    _check_arg("variance", variance)
+    if not (np.asarray(mean, dtype=float) > 0).all():
+        m = np.asarray(mean, dtype=float)
+        raise ValueError(f"mean: must be > 0, got {float(m[~(m > 0)].flat[0])!r}")
     m = np.asarray(mean, dtype=float)
     v = np.asarray(variance, dtype=float)
     bad = v < m * (1.0 - 1e-12)
@@ -107,12 +149,25 @@ def rapp(mean, variance):
     Returns
     -------
     traffic, servers : float or ndarray
-        ``A* = V + 3 Z (Z - 1)``, ``N* = A* (M + Z) / (M + Z - 1) - M - 1`` with Z = V/M.
+        ``A* = V + 3 Z (Z - 1)``, ``N* = A* (M + Z) / (M + Z - 1) - M - 1`` with Z = V/M
+        [1]_.
+
+    Raises
+    ------
+    ValueError
+        Mean not in (0, 1e10], variance not in [mean, 1e10] (or not finite).
 
     References
     ----------
-    Y. Rapp, "Planning of junction network in a multi-exchange area", Ericsson Technics 20
-    (1964) 77-130.
+    .. [1] Y. Rapp, "Planning of junction network in a multi-exchange area", Ericsson
+       Technics 20 (1964) 77-130.
+
+    Examples
+    --------
+    >>> from netdim.overflow import overflow_moments, rapp
+    >>> a, n = rapp(*overflow_moments(10.0, 8))
+    >>> round(a, 2), round(n, 2)
+    (10.55, 8.69)
     """
     _check_mean_var(mean, variance)
     m = np.asarray(mean, dtype=float)
@@ -127,20 +182,29 @@ def rapp(mean, variance):
 
 def _servers_for_mean(a, mean):
     """Real N >= 0 with A E(A, N) = mean (A > mean): E decreases in N."""
+    # scipy.optimize is a heavy import (about 0.2 s) that only the equivalent random group needs
     from scipy import optimize
 
     target = math.log(mean / a)
     lo, hi = 0.0, max(1.0, a)
-    while _log_erlang_b_scalar(a, hi) > target:
+    while log_erlang_b(a, hi) > target:
         lo, hi = hi, 2.0 * hi
+        if hi > MAX_ARG:
+            raise ValueError(
+                f"mean: the equivalent random group of mean {mean!r} lies beyond "
+                f"{MAX_ARG:g} servers"
+            )
     return optimize.brentq(
-        lambda n: _log_erlang_b_scalar(a, n) - target, lo, hi, xtol=1e-13, rtol=1e-15
+        lambda n: log_erlang_b(a, n) - target, lo, hi, xtol=1e-13, rtol=1e-15
     )
 
 
 def _ert_scalar(m, v):
+    # scipy.optimize: as above
     from scipy import optimize
 
+    m = float(m)
+    v = float(v)
     z = v / m
     if z - 1.0 < 1e-12:
         return m, 0.0
@@ -154,6 +218,11 @@ def _ert_scalar(m, v):
     hi = max(a0, lo * 1.5)
     while zgap(hi) < 0:
         lo, hi = hi, 2.0 * hi
+        if hi > MAX_ARG:
+            raise ValueError(
+                f"variance: the equivalent random group of mean {m!r} and variance {v!r} "
+                f"lies beyond {MAX_ARG:g} erlangs"
+            )
     a = optimize.brentq(zgap, lo, hi, xtol=1e-12 * hi, rtol=1e-14)
     return a, _servers_for_mean(a, m)
 
@@ -177,21 +246,22 @@ def equivalent_random(mean, variance):
     Raises
     ------
     ValueError
-        Non-positive mean, or variance below the mean (smooth traffic has no equivalent
-        random group).
+        Mean not in (0, 1e10], variance below the mean (smooth traffic has no equivalent
+        random group), not finite or above 1e10.
 
     References
     ----------
-    R. I. Wilkinson, Bell System Technical Journal 35 (1956) 421-514.
+    .. [1] R. I. Wilkinson, Bell System Technical Journal 35 (1956) 421-514.
+
+    Examples
+    --------
+    >>> from netdim.overflow import equivalent_random, overflow_moments
+    >>> a, n = equivalent_random(*overflow_moments(10.0, 8))
+    >>> round(a, 6), round(n, 6)
+    (10.0, 8.0)
     """
     _check_mean_var(mean, variance)
-    if _is_scalar(mean, variance):
-        return _ert_scalar(float(mean), float(variance))
-    m, v = np.broadcast_arrays(np.asarray(mean, dtype=float), np.asarray(variance, dtype=float))
-    res = [_ert_scalar(float(mi), float(vi)) for mi, vi in zip(m.ravel(), v.ravel(), strict=True)]
-    a = np.array([r[0] for r in res]).reshape(m.shape)
-    n = np.array([r[1] for r in res]).reshape(m.shape)
-    return (_finish(a), _finish(n))
+    return _elementwise(_ert_scalar, mean, variance, nout=2)
 
 
 def overflow_blocking(means, variances, servers):
@@ -218,19 +288,27 @@ def overflow_blocking(means, variances, servers):
     Raises
     ------
     ValueError
-        Negative means, variances or servers, or total variance below the total mean.
+        Negative, NaN, infinite or too large (1e10) means, variances or servers, or total
+        variance below the total mean.
 
     References
     ----------
-    R. I. Wilkinson, Bell System Technical Journal 35 (1956) 421-514.
+    .. [1] R. I. Wilkinson, Bell System Technical Journal 35 (1956) 421-514.
+
+    Examples
+    --------
+    >>> from netdim.overflow import overflow_blocking, overflow_moments
+    >>> m, v = overflow_moments(10.0, 8)
+    >>> round(overflow_blocking([m], [v], 5), 6)
+    0.249288
     """
-    _check_nonneg("means", means)
-    _check_nonneg("variances", variances)
-    _check_nonneg("servers", servers)
+    _check_arg("means", means)
+    _check_arg("variances", variances)
+    _check_arg("servers", servers)
     m = float(np.sum(np.asarray(means, dtype=float)))
     v = float(np.sum(np.asarray(variances, dtype=float)))
     if m == 0.0:
         return 0.0
     _check_mean_var(m, v)
     a, n = _ert_scalar(m, max(v, m))
-    return min(1.0, a * _erlang_b_scalar(a, n + float(servers)) / m)
+    return min(1.0, a * erlang_b(float(a), float(n) + float(servers)) / m)

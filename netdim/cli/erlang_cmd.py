@@ -4,8 +4,10 @@ from __future__ import annotations
 
 import json
 import math
+import sys
 
-from netdim.report.text import fmt_prob, format_table
+from netdim.erlang import MAX_ARG, MAX_TRAFFIC_SIZED, erlang_b, servers_for, traffic_for
+from netdim.report.text import fmt_prob, fmt_short, format_table
 
 __all__ = ["register", "run", "parse_values"]
 
@@ -19,7 +21,11 @@ def register(subparsers):
         description="Give any two of traffic, servers and target to get the third: traffic and "
         "servers give the blocking; traffic and target the fewest servers meeting it; servers "
         "and target the most traffic they carry within it. One option may be a range "
-        "START:STOP:STEP (both ends included), which prints a table.",
+        "START:STOP:STEP (both ends included, at most 10000 values), which prints a table. "
+        "Traffic and servers are at most 1e10 (traffic 9.9e9 when servers are asked "
+        "for). No traffic needs no servers and loses "
+        "nothing: its blocking is reported as 0. Servers that are not a whole number use the "
+        "continuous extension of Erlang's formula, and a note says so.",
     )
     p.add_argument("--traffic", metavar="E", help="offered traffic in erlangs (or a range)")
     p.add_argument("--rate", metavar="R",
@@ -54,9 +60,19 @@ def parse_values(option, text):
         raise ValueError(f"{option}: range step must be > 0, got {step!r}")
     if stop < start:
         raise ValueError(f"{option}: range stop {stop!r} is below its start {start!r}")
-    count = math.floor((stop - start) / step + 1e-9) + 1
-    if count > _MAX_ROWS:
-        raise ValueError(f"{option}: range has {count} values, at most {_MAX_ROWS} allowed")
+    span = (stop - start) / step  # may be inf (1e308 / 1e-308): compare before rounding
+    if not span < _MAX_ROWS:
+        if not math.isfinite(span):
+            shown = "too many"
+        elif span < 1e9:
+            shown = f"{math.floor(span + 1e-9) + 1:,}"
+        else:
+            shown = f"about {fmt_short(span)}"
+        raise ValueError(
+            f"{option}: range has {shown} values, at most {_MAX_ROWS} allowed "
+            f"(range too long)"
+        )
+    count = math.floor(span + 1e-9) + 1
     return [start + i * step for i in range(count)], True
 
 
@@ -65,6 +81,7 @@ def _fmt(x):
 
 
 def _traffic_values(args):
+    """(traffic values, is a range, the option they came from)."""
     if args.traffic is not None and args.rate is not None:
         raise ValueError("--traffic and --rate: give one or the other")
     if args.rate is not None:
@@ -75,18 +92,39 @@ def _traffic_values(args):
         rates, is_range = parse_values("--rate", args.rate)
         if any(r < 0 for r in rates):
             raise ValueError(f"--rate: must be >= 0, got {min(rates)!r}")
-        return [r * args.holding for r in rates], is_range
+        traffic = [r * args.holding for r in rates]
+        for r, a in zip(rates, traffic, strict=True):
+            if not a <= MAX_ARG:
+                raise ValueError(
+                    f"--rate: {fmt_short(r)} calls per hour held {args.holding!r} hours is "
+                    f"{a!r} erlangs; at most {fmt_short(MAX_ARG)} allowed"
+                )
+        return traffic, is_range, "--rate"
     if args.holding is not None:
         raise ValueError("--holding: only used with --rate")
     if args.traffic is None:
-        return None, False
-    return parse_values("--traffic", args.traffic)
+        return None, False, "--traffic"
+    values, is_range = parse_values("--traffic", args.traffic)
+    return values, is_range, "--traffic"
+
+
+def _check_range(option, values, upper):
+    for v in values or ():
+        if v < 0:
+            raise ValueError(f"{option}: must be >= 0, got {v!r}")
+        if v > upper:
+            raise ValueError(f"{option}: must be at most {fmt_short(upper)}, got {v!r}")
+
+
+def _json_number(x):
+    """A finite number for JSON (a check: the values are validated before any work)."""
+    if not math.isfinite(x):
+        raise ValueError(f"erlang: result {x!r} is not a finite number")
+    return x
 
 
 def run(args) -> int:
-    from netdim.erlang import erlang_b, servers_for, traffic_for
-
-    traffic, t_range = _traffic_values(args)
+    traffic, t_range, t_option = _traffic_values(args)
     servers, s_range = (
         parse_values("--servers", args.servers) if args.servers is not None else (None, False)
     )
@@ -101,41 +139,50 @@ def run(args) -> int:
         )
     if t_range + s_range + p_range > 1:
         raise ValueError("erlang: only one of the options may be a range")
-    # validate every value before any work (the library names the argument and the value)
-    for name, vals in (("traffic", traffic), ("servers", servers)):
-        for v in vals or ():
-            if v < 0:
-                raise ValueError(f"--{name}: must be >= 0, got {v!r}")
+    # validate every value before any work (the library would name its argument, not ours)
+    # asked for servers, the traffic must leave the answer within the servers' range
+    _check_range(t_option, traffic, MAX_TRAFFIC_SIZED if servers is None else MAX_ARG)
+    _check_range("--servers", servers, MAX_ARG)
     for v in target or ():
         if not 0 < v < 1:
             raise ValueError(f"--target: must be in (0, 1), got {v!r}")
+
+    def blocking(a, n):
+        # no traffic offered: no call is lost, whatever the servers (the convention here)
+        return 0.0 if a == 0 else erlang_b(a, n)
 
     rows = []
     if target is None:
         for a in traffic:
             for n in servers:
-                rows.append({"traffic": a, "servers": n, "blocking": erlang_b(a, n)})
+                rows.append({"traffic": a, "servers": n, "blocking": blocking(a, n)})
     elif servers is None:
         for a in traffic:
             for p in target:
                 n = servers_for(a, p)
-                rows.append(
-                    {"traffic": a, "servers": n, "blocking": erlang_b(a, n), "target": p}
-                )
+                rows.append({"traffic": a, "servers": n, "blocking": blocking(a, n), "target": p})
     else:
         for n in servers:
             for p in target:
                 a = traffic_for(n, p)
-                rows.append(
-                    {"traffic": a, "servers": n, "blocking": erlang_b(a, n), "target": p}
-                )
+                rows.append({"traffic": a, "servers": n, "blocking": blocking(a, n), "target": p})
     for r in rows:
         if isinstance(r["servers"], float) and r["servers"].is_integer():
             r["servers"] = int(r["servers"])
+    real = sorted({r["servers"] for r in rows if isinstance(r["servers"], float)})
+    if real:
+        shown = ", ".join(_fmt(n) for n in real[:3]) + (", ..." if len(real) > 3 else "")
+        verb = "is not a whole number" if len(real) == 1 else "are not whole numbers"
+        print(f"netdim: note: --servers {shown} {verb}: the blocking is that of "
+              f"the continuous extension E(A, n) = A^n e^-A / Gamma(n + 1, A)",
+              file=sys.stderr)
 
     table = t_range or s_range or p_range
     if args.json:
-        print(json.dumps(rows if table else rows[0]))
+        for r in rows:
+            for key, value in r.items():
+                r[key] = _json_number(value)
+        print(json.dumps(rows if table else rows[0], allow_nan=False))
         return 0
     headers = ["traffic (E)", "servers", "blocking"]
     solving = target is not None

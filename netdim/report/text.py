@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-__all__ = ["format_table", "fmt_prob", "fmt_num", "CAUTION"]
+__all__ = ["format_table", "fmt_prob", "fmt_num", "fmt_short", "CAUTION"]
 
 #: The caution every report carries.
 CAUTION = (
@@ -27,6 +27,15 @@ def fmt_num(x: float, digits: int = 2) -> str:
     if isinstance(x, (int,)) or float(x).is_integer() and abs(x) < 1e15:
         return f"{int(x)}" if float(x).is_integer() else f"{x:.{digits}f}"
     return f"{x:.{digits}f}"
+
+
+def fmt_short(x: float) -> str:
+    """A number as short as it reads: 1e10 as '1e10', 9.9e9 as '9.9e9', 250.0 as '250'."""
+    text = f"{x:.6g}"
+    if "e" not in text:
+        return text
+    mantissa, exponent = text.split("e")
+    return f"{mantissa}e{int(exponent)}"
 
 
 def format_table(headers, rows, align=None) -> str:

@@ -4,7 +4,7 @@ E(A, n) = A^n e^-A / Gamma(n + 1, A) (upper incomplete gamma, valid for real n >
 evaluated by mpmath at 60 digits of working precision and written with 50 digits, together
 with log E and log(1 - E). Run from the repository root:
 
-    /work/venv/bin/python tests/data/make_erlang_reference.py
+    python tests/data/make_erlang_reference.py
 """
 
 from __future__ import annotations
