@@ -29,14 +29,10 @@ SND = "{http://sndlib.zib.de/network}"
 
 
 @pytest.fixture
-def main(monkeypatch):
-    """netdim's main(), with the import sub-command registered while the command list in
-    netdim/cli/__init__.py does not name it yet."""
+def main():
+    """netdim's main()."""
     from netdim import cli
 
-    modules = getattr(cli, "COMMAND_MODULES", None)
-    if modules is not None and "import_cmd" not in modules:
-        monkeypatch.setattr(cli, "COMMAND_MODULES", (*modules, "import_cmd"))
     return cli.main
 
 
