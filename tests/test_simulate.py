@@ -242,3 +242,13 @@ def test_departure_heap_grows_on_demand(triangle, monkeypatch):
     b = simulate(net2, seed=9, calls=20_000)
     np.testing.assert_array_equal(a.blocking, b.blocking)
     np.testing.assert_array_equal(a.link_carried, b.link_carried)
+
+
+def test_a_demand_that_offers_nothing_is_met(one_link):
+    # Source: common practice, no source (no traffic offered, none lost: blocking 0 by the
+    # same convention as the loss formulas), beside a busy demand whose blocking is known
+    # from Erlang B: the idle demand must not turn the run into "unclear".
+    sim = simulate(one_link(10, [(5.0, 1), (0.0, 1)]), seed=3, calls=20_000)
+    assert sim.blocking[1] == 0.0
+    assert list(sim.blocking_interval[1]) == [0.0, 0.0]
+    assert sim.verdicts()[1] == "met"

@@ -485,6 +485,12 @@ def _result(network, caps, s, per_batch, opts, warns, warmup, cv, seed) -> Evalu
         offered, carried, hours, calls = np.zeros(n_l), np.zeros(n_l), 0.0, 0
     if network.routing.policy == "fixed":
         la = lb
+    # A demand that offers nothing loses nothing: its blocking is 0 by convention, as in
+    # the loss formulas (no traffic needs no servers), not unknown.
+    idle = np.array([d.traffic <= 0 for d in network.demands], dtype=bool)
+    if idle.any():
+        iv = np.array(iv, dtype=float)
+        iv[idle] = 0.0
     seed_note = f", seed {seed}" if seed is not None else ""
     return Evaluation.from_link_state(
         network, caps,
