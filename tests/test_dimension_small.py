@@ -162,7 +162,7 @@ def test_alternate_routing_plan_meets_targets_and_is_least_cost_under_exact():
         cost = caps[0] + caps[1] + 2 * caps[2]
         if cost < best and evaluate(net, np.array(caps), method="exact").all_met:
             best = cost
-    plan = dimension(net, model="exact", bound_time=600)
+    plan = dimension(net, model="exact")
     assert plan.evaluation.all_met
     assert plan.cost == pytest.approx(best)
     # every cheaper plan listed and evaluated: the bound is the least cost itself

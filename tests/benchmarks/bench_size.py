@@ -17,7 +17,7 @@ import time
 
 import numpy as np
 
-from netdim.dimension import dimension
+from netdim.dimension import VerifyOptions, dimension
 from netdim.model import Demand, Link, Network, Route, Routing, Site
 
 
@@ -75,7 +75,10 @@ def main():
     ap.add_argument("--verify", action="store_true",
                     help="also the demos with verify='simulate' (cost and simulated "
                     "worst blocking/target before and after calibration)")
+    ap.add_argument("--margins", default="0.05",
+                    help="verification margins to compare, e.g. 0,0.05,0.1")
     args = ap.parse_args()
+    margins = [float(m) for m in args.margins.split(",") if m]
     sizes = [int(s) for s in args.sizes.split(",") if s]
     if args.big:
         sizes.append(100)
@@ -86,9 +89,10 @@ def main():
             run(f"mesh {n} alternate", mesh(n, policy="alternate"), solver=args.solver)
         if args.verify:
             for n in (n for n in sizes if n <= 20):
-                p = run(f"mesh {n} alternate verify", mesh(n, policy="alternate"),
-                        solver=args.solver, verify="simulate")
-                _verify_line(p)
+                for m in margins:
+                    p = run(f"mesh {n} alternate verify m={m:g}", mesh(n, policy="alternate"),
+                            solver=args.solver, verify=VerifyOptions(margin=m))
+                    _verify_line(p)
     if not args.no_demo:
         from netdim.netfile import read_network
 
@@ -98,9 +102,10 @@ def main():
                 run(path, net, model=model, solver=args.solver)
             if args.verify:
                 for restart in ("warm", "full"):
-                    p = run(f"{path} verify/{restart}", net, solver=args.solver,
-                            verify="simulate", verify_restart=restart)
-                    _verify_line(p)
+                    for m in margins:
+                        p = run(f"{path} verify/{restart} m={m:g}", net, solver=args.solver,
+                                verify=VerifyOptions(restart=restart, margin=m))
+                        _verify_line(p)
 
 
 def _verify_line(p):
@@ -110,8 +115,9 @@ def _verify_line(p):
           f"(+{100 * (p.cost / d['unverified_cost'] - 1):.2f}%) "
           f"simulated worst blocking/target {hist[0][1]:.3f} -> {hist[-1][1]:.3f} "
           f"rounds={d['verify_rounds']} calls(last)={d['verify_calls_last']} "
-          f"missed={len(d['verify_missed'])} unclear={len(d['verify_unclear'])} "
-          f"verify time={d['verify_seconds']:.1f}s", flush=True)
+          f"met={len(d['verify_met'])} missed={len(d['verify_missed'])} "
+          f"unclear={len(d['verify_unclear'])} verify time={d['verify_seconds']:.1f}s",
+          flush=True)
 
 
 if __name__ == "__main__":
