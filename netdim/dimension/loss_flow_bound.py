@@ -40,6 +40,8 @@ MILP_NODES = 500
 _LP_SLACK = 1e-6
 #: MILP rounds go on while each raises the bound by at least this (relative).
 _MILP_GAIN = 1e-3
+#: A stage of LP rounds ends when a round raises the bound by less than this (relative).
+_ROUND_GAIN = 1e-5
 #: Overflow weights w of the cuts on first-choice loss + w x overflow loss (second stage).
 _WEIGHTS = (0.1, 0.25, 0.5, 2.0, 4.0, 10.0)
 #: A cut is added where the relaxation's point violates the loss function by more than this.
@@ -480,11 +482,13 @@ def loss_flow_bound(network, choices: SizingChoices | None = None, *, solver="hi
         if out.status is not SolveStatus.OPTIMAL or not np.isfinite(b):
             stopped = stopped or out.status is SolveStatus.TIME_LIMIT
             break
+        # a stage ends when its cuts are exhausted or no longer raise the bound
+        stalled = b - best < _ROUND_GAIN * abs(b)
         best = max(best, b)
         if time_limit is not None and elapsed() > time_limit:
             stopped = True
             break
-        if rel.separate() == 0:
+        if stalled or rel.separate() == 0:
             if rel.weights or not rel.use_res:
                 break
             # the plain cuts are done: cut weighted sums of the two streams' losses too

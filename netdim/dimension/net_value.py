@@ -172,8 +172,10 @@ def size_for_net_value(network, choices: SizingChoices, *, model="fixed-point",
     if len(used):
         v = vsum[used] / wsum[used]
         per_circuit = space.cost_per_module[used] / space.module[used]
-        n = np.asarray(moe_servers(loads[used], per_circuit, v), dtype=np.int64)
-        k[used] = np.minimum(space.modules_for(n), space.max_modules[used])
+        n = np.zeros(nl, np.int64)
+        n[used] = np.asarray(moe_servers(loads[used], per_circuit, v), dtype=np.int64)
+        k = np.where(np.isin(np.arange(nl), used),
+                     np.minimum(space.modules_for(n), space.max_modules), 0)
     evaluator = CachedEvaluator(network, space, evaluation_method(model))
     best = objective(network, space, evaluator(k), k)
     say(None, f"net value: Moe start, {best:g}")
