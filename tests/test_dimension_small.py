@@ -175,9 +175,9 @@ def test_alternate_routing_plan_meets_targets_and_is_least_cost_under_exact():
 @pytest.mark.slow
 def test_multirate_least_cost_by_enumeration():
     # Slow: the sizer certifies its plan by evaluating the 1180 plans above the weak
-    # multi-rate bound. A-C calls take 2 circuits on both links. Reference: every plan in range enumerated and
-    # evaluated by netdim's fixed point (Kaufman-Roberts links, checked in its own tests);
-    # this checks the search.
+    # multi-rate bound. A-C calls take 2 circuits on both links. Reference: every plan in
+    # range enumerated and evaluated by netdim's fixed point (Kaufman-Roberts links, checked
+    # in its own tests); this checks the search.
     links = [Link("AB", ("A", "B")), Link("BC", ("B", "C"), cost_per_module=2.0)]
     demands = [Demand("AB", ("A", "B"), 8.0, routes=(R(0),)),
                Demand("BC", ("B", "C"), 6.0, routes=(R(1),)),

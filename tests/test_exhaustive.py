@@ -23,9 +23,8 @@ from test_dimension_small import (  # tests/ is on sys.path under pytest
     triangle,
 )
 
-from netdim.dimension import dimension
+from netdim.dimension import SizingChoices, dimension
 from netdim.dimension import exhaustive as ex
-from netdim.dimension import SizingChoices
 from netdim.evaluate import evaluate
 from netdim.model import Demand, Link, Network, Route, Routing, Site
 
@@ -110,7 +109,8 @@ def test_stopped_early_the_bound_is_the_next_plan_and_never_above_the_least_cost
 def test_not_applicable_on_many_links(monkeypatch):
     net = triangle()
     monkeypatch.setattr(ex, "MAX_LINKS", 2)
-    found = ex.least_cost_by_enumeration(net, SizingChoices.from_network(net), "fixed-point", 1.0, 50.0)
+    found = ex.least_cost_by_enumeration(net, SizingChoices.from_network(net), "fixed-point",
+                                         1.0, 50.0)
     assert found.status == "not-applicable" and "more than 2 links" in found.message
     assert found.bound == 1.0
 
@@ -135,7 +135,8 @@ def test_a_link_left_unbuilt_takes_its_routes_away():
         if c < best and any(evaluate(v, np.array([x, y])).all_met for v in variants):
             best = c
     assert best == 18.0
-    found = ex.least_cost_by_enumeration(net, SizingChoices.from_network(net), "fixed-point", 0.0, 25.0)
+    found = ex.least_cost_by_enumeration(net, SizingChoices.from_network(net), "fixed-point",
+                                         0.0, 25.0)
     assert found.status == "improved" and found.cost == pytest.approx(best)
     assert found.dropped == (0,)
     plan = dimension(net)
@@ -161,7 +162,8 @@ def test_not_applicable_with_many_links_that_may_be_left_unbuilt(monkeypatch):
                   (Demand("d", ("A", "B"), 5.0, routes=(R(0), R(1))),),
                   routing=Routing(policy="alternate", reservation=3))
     monkeypatch.setattr(ex, "MAX_DROPPABLE", 1)
-    found = ex.least_cost_by_enumeration(net, SizingChoices.from_network(net), "fixed-point", 5.0, 30.0)
+    found = ex.least_cost_by_enumeration(net, SizingChoices.from_network(net), "fixed-point",
+                                         5.0, 30.0)
     assert found.status == "not-applicable"
     assert "more than 1 links may be left unbuilt" in found.message
 

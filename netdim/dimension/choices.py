@@ -219,18 +219,12 @@ class LossTable:
         count = np.where(n1 >= inst, (n1 - inst) // mod + 1, 0)
         start = np.concatenate([[0], np.cumsum(count)]).astype(np.int64)
         values = np.zeros(int(start[-1]))
-        top = int(n1.max()) if nl else 0
-        e = np.ones(nl)
+        # The recursion runs on the links whose window reaches n only, so that one heavy
+        # link among many light ones costs its own window, not the window times the links.
         if nl:
-            at0 = (inst == 0) & (count > 0)
-            values[start[:-1][at0]] = np.inf  # capacity 0 loses every call
-        for n in range(1, top + 1):
-            ae = a * e
-            e = ae / (n + ae)
-            on = (n >= inst) & (n <= n1) & ((n - inst) % mod == 0)
-            if on.any():
-                cols = np.flatnonzero(on)
-                values[start[cols] + (n - inst[cols]) // mod[cols]] = -np.log1p(-e[cols])
+            _table_kernel()(a, inst, mod, n1, start, values)  # Erlang B at the module counts
+            with np.errstate(divide="ignore"):  # capacity 0: E = 1, g = inf
+                values = -np.log1p(-values)
         self.loads = a
         self.installed = inst
         self.module = mod
@@ -262,6 +256,35 @@ class LossTable:
         if odd.any():  # not a module count of the link: Erlang B itself
             out[odd] = _g_direct(self.loads[links[odd]], n[odd])
         return out
+
+
+_KERNEL = None
+
+
+def _table_kernel():
+    """The Erlang B recursion per link, storing E at its module counts (numba, compiled on
+    first use and cached on disk: numba takes half a second to import)."""
+    global _KERNEL
+    if _KERNEL is None:
+        import numba
+
+        @numba.njit(cache=True)
+        def kernel(a, inst, mod, n1, start, values):  # pragma: no cover - compiled
+            for j in range(a.shape[0]):
+                pos = start[j]
+                if inst[j] == 0 and n1[j] >= 0:
+                    values[pos] = 1.0  # capacity 0 loses every call
+                    pos += 1
+                e = 1.0
+                for n in range(1, n1[j] + 1):
+                    ae = a[j] * e
+                    e = ae / (n + ae)
+                    if n >= inst[j] and (n - inst[j]) % mod[j] == 0:
+                        values[pos] = e
+                        pos += 1
+
+        _KERNEL = kernel
+    return _KERNEL
 
 
 def _g_direct(loads, n):

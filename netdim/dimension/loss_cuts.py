@@ -39,16 +39,33 @@ _ENV_GRID = 32
 _ENV_LEVELS = 128
 
 
-def erlang_table(nu, smax):
-    """E(nu, s) for s = 0..smax (rows) and every load in ``nu`` (last axis): the recursion."""
+def erlang_table(nu, smax, rows=None):
+    """E(nu, s) for s = 0..smax (rows) and every load in ``nu`` (last axis): the recursion.
+
+    With ``rows`` (server counts, each at most ``smax``), only those rows, in that order:
+    the memory is then ``len(rows)`` rows, not ``smax + 1``.
+    """
     nu = np.asarray(nu, dtype=float)
-    out = np.empty((smax + 1,) + nu.shape)
+    if rows is None:
+        out = np.empty((smax + 1,) + nu.shape)
+        e = np.ones_like(nu)
+        out[0] = e
+        for s in range(1, smax + 1):
+            ae = nu * e
+            e = ae / (s + ae)
+            out[s] = e
+        return out
+    rows = np.asarray(rows, np.int64)
+    out = np.empty((len(rows),) + nu.shape)
+    order = np.argsort(rows, kind="stable")
     e = np.ones_like(nu)
-    out[0] = e
-    for s in range(1, smax + 1):
-        ae = nu * e
-        e = ae / (s + ae)
-        out[s] = e
+    s = 0
+    for i in order:
+        while s < rows[i]:
+            s += 1
+            ae = nu * e
+            e = ae / (s + ae)
+        out[i] = e
     return out
 
 
@@ -268,16 +285,17 @@ def reservation_table(first, reservation, o, cs):
     res = int(reservation)
     cs = np.asarray(cs, np.int64)
     o = np.asarray(o, float)
-    e = erlang_table(first + o, int(max(cs.max() - res, 0)))
+    ms = np.maximum(cs - res, 0)
+    e = erlang_table(first + o, int(ms.max()), rows=ms)
     fl, ov = np.empty((len(cs), len(o))), np.empty((len(cs), len(o)))
     with np.errstate(divide="ignore", over="ignore", under="ignore", invalid="ignore"):
         for i, c in enumerate(cs):
-            m = max(int(c) - res, 0)
+            m = int(ms[i])
             tau, tsum = 1.0, 0.0
             for k in range(1, int(c) - m + 1):  # states above m: first-choice calls only
                 tau = tau * first / (m + k)
                 tsum += tau
-            den = 1.0 / e[m] + tsum
+            den = 1.0 / e[i] + tsum
             fl[i] = np.where(np.isfinite(den), first * tau / den, 0.0)
             ov[i] = np.where(np.isfinite(den), o * (1.0 + tsum) / den, 0.0)
     return fl, ov
@@ -292,8 +310,9 @@ def erlang_hull_faces(vmax, installed, module, max_modules, shift=0):
     computed by :func:`erlang_cut_offsets`, so any face gives a valid cut.
     """
     cs, nus = _hull_grid(vmax, installed, module, max_modules, 0.0)
-    e = erlang_table(nus, int(max(cs.max() - shift, 0)))
-    return _lower_faces(cs, nus, nus[None, :] * e[np.maximum(cs - shift, 0)])
+    servers = np.maximum(cs - shift, 0)
+    e = erlang_table(nus, int(servers.max()), rows=servers)
+    return _lower_faces(cs, nus, nus[None, :] * e)
 
 
 def reservation_hull_faces(weights, vmax, installed, module, max_modules, first, reservation):

@@ -30,12 +30,17 @@ from netdim.dimension.plan import Bound
 from netdim.erlang import erlang_b
 
 __all__ = ["loss_flow_bound", "LossFlowData", "LossFlowRelaxation", "applies",
-           "RESERVATION_CUT_LINKS", "MILP_NODES"]
+           "RESERVATION_CUT_LINKS", "MILP_NODES", "MILP_LINKS", "LP_WORK"]
 
 #: Largest network (links) on which the reservation-chain cuts are on by default.
 RESERVATION_CUT_LINKS = 500
 #: Branch-and-bound nodes each MILP round may take (a deterministic work limit).
 MILP_NODES = 500
+#: MILP rounds run on networks of at most this many links: beyond, the MILP's root LP alone
+#: takes minutes (20-site mesh of the benchmark: 190 links) and integrality adds little.
+MILP_LINKS = 100
+#: Work limit of the LP rounds: the sum over rounds of the relaxation's constraints.
+LP_WORK = 200_000
 #: Relative amount taken off every solver value (its feasibility / optimality tolerances).
 _LP_SLACK = 1e-6
 #: MILP rounds go on while each raises the bound by at least this (relative).
@@ -401,8 +406,8 @@ def applies(network) -> bool:
 
 def loss_flow_bound(network, choices: SizingChoices | None = None, *, solver="highs",
                     mip_gap=1e-4, max_rounds=30, integer=False, node_limit=MILP_NODES,
-                    reservation_cuts=None, hull_slopes=True, time_limit=None,
-                    progress=None) -> Bound | None:
+                    work_limit=LP_WORK, reservation_cuts=None, hull_slopes=True,
+                    time_limit=None, progress=None) -> Bound | None:
     """Lower bound on the least cost of a plan under alternate routing (fixed-point model).
 
     Valid for every integer plan for which some solution of the reduced-load fixed-point
@@ -425,9 +430,13 @@ def loss_flow_bound(network, choices: SizingChoices | None = None, *, solver="hi
         Most rounds of cuts (one LP solve each), and most MILP rounds.
     integer : bool
         End with rounds of the MILP (integer modules), each cut at its integer point and
-        solved again while cuts are violated there and the bound rises by 0.1 %.
+        solved again while cuts are violated there and the bound rises by 0.1 %; on
+        networks of at most :data:`MILP_LINKS` links.
     node_limit : int
         Branch-and-bound nodes of each MILP round.
+    work_limit : int
+        No LP round starts once the constraints of the rounds so far add up to this (a
+        deterministic stand-in for time: a round costs about its constraints).
     reservation_cuts : bool or None
         Also cut with the reservation chain's loss rates on links whose first-choice load
         is a constant. None: on networks of at most :data:`RESERVATION_CUT_LINKS` links.
@@ -474,7 +483,11 @@ def loss_flow_bound(network, choices: SizingChoices | None = None, *, solver="hi
     best = -np.inf
     rounds = 0
     stopped = False
+    work = 0
     for it in range(int(max_rounds)):
+        if work >= work_limit:
+            break
+        work += len(rel.prob.constraints)
         out, b = rel.solve(False, 0.0, left(), solver)
         rounds += 1
         say(None, f"round {it}: LP {b:.8g} ({out.status}), {rel.n_cuts} cuts, "
@@ -497,7 +510,7 @@ def loss_flow_bound(network, choices: SizingChoices | None = None, *, solver="hi
                 break
     kind = f"loss-flow LP ({rounds} rounds, {rel.n_cuts} cuts)"
     milp_rounds = 0
-    while integer and milp_rounds < int(max_rounds):
+    while integer and milp_rounds < int(max_rounds) and len(network.links) <= MILP_LINKS:
         if time_limit is not None and elapsed() >= time_limit:
             stopped = True
             break
