@@ -43,7 +43,9 @@ def check_values(network) -> None:
     if missing or not network.demands:
         shown = ", ".join(f"'{m}'" for m in missing[:5])
         more = f" and {len(missing) - 5} more" if len(missing) > 5 else ""
-        what = f"demand {shown}{more} has no value" if missing else "no demands"
+        many = len(missing) > 1
+        what = (f"demand{'s' if many else ''} {shown}{more} {'have' if many else 'has'} no "
+                "value" if missing else "no demands")
         raise ValueError(f"objective 'net-value': {what}; give every demand a value "
                          "(per erlang carried), or size for cost")
 
