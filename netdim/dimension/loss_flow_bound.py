@@ -487,7 +487,7 @@ def loss_flow_bound(network, choices: SizingChoices | None = None, *, solver="hi
     for it in range(int(max_rounds)):
         if work >= work_limit:
             break
-        work += len(rel.prob.constraints)
+        work += rel.prob.numConstraints()
         out, b = rel.solve(False, 0.0, left(), solver)
         rounds += 1
         say(None, f"round {it}: LP {b:.8g} ({out.status}), {rel.n_cuts} cuts, "
