@@ -16,6 +16,7 @@ from netdim.dimension import (
     VerifyOptions,
     dimension,
 )
+from netdim.netfile import read_network, write_network
 from netdim.report.plan import format_plan
 
 __all__ = ["register", "run"]
@@ -94,8 +95,6 @@ def _options(args):
 
 
 def run(args) -> int:
-    from netdim.netfile import read_network, write_network
-
     sizing, verify = _options(args)
     network = read_network(args.file)
     if not args.verify and network.routing.policy == "alternate" and not args.quiet \
