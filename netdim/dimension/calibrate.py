@@ -19,7 +19,7 @@ import numpy as np
 
 from netdim.dimension.choices import SizingChoices
 from netdim.dimension.local_search import min_modules, search_and_check
-from netdim.dimension.options import SizingOptions, VerifyOptions
+from netdim.dimension.options import SizingOptions, VerifyOptions, silent
 from netdim.dimension.plan import Baseline, Plan, make_plan
 from netdim.dimension.sizer import size_to_targets
 from netdim.evaluate.simulate import simulate
@@ -103,7 +103,7 @@ def calibrate_by_simulation(network, plan: Plan, sizing: SizingOptions,
         simulation (some may be unclear after the longest run, named in the message and
         warnings); else ``feasible``, naming the demands that still miss.
     """
-    say = progress or (lambda fraction, message: None)
+    progress = progress or silent
     t_start = time.perf_counter() if t_start is None else t_start
     t0 = time.perf_counter()
     seed = _seed(verify.seed)
@@ -113,7 +113,7 @@ def calibrate_by_simulation(network, plan: Plan, sizing: SizingOptions,
 
     def simulated(p, calls):
         net = with_targets(p.network if p.network is not None else network, orig)
-        say(None, f"verifying by simulation ({calls} calls, seed {seed})")
+        progress(None, f"verifying by simulation ({calls} calls, seed {seed})")
         return simulate(net, p.capacities, seed=seed, calls=calls)
 
     def settled(p):
@@ -138,8 +138,8 @@ def calibrate_by_simulation(network, plan: Plan, sizing: SizingOptions,
         # Tightened working targets before the first simulation: the plan then sits inside
         # its targets by about the margin, so that few demands end within the noise.
         work = orig * (1.0 - verify.margin)
-        say(None, f"verify: working targets {100 * verify.margin:g}% inside the targets")
-        nxt = _resize(network, cur, choices, work, orig, sizing, verify, say)
+        progress(None, f"verify: working targets {100 * verify.margin:g}% inside the targets")
+        nxt = _resize(network, cur, choices, work, orig, sizing, verify, progress)
         if nxt is not None:
             cur = nxt
         else:
@@ -163,12 +163,12 @@ def calibrate_by_simulation(network, plan: Plan, sizing: SizingOptions,
         held = b * (1.0 - verify.margin) * orig / np.maximum(s, 1e-300)
         work = np.where(keep, np.minimum(work, np.maximum(held, b)), work)
         names = [network.demand_ids[i] for i in np.flatnonzero(miss)]
-        say(None, f"verify round {done}: {len(names)} demands miss in simulation "
+        progress(None, f"verify round {done}: {len(names)} demands miss in simulation "
             f"({', '.join(names[:5])}{' ...' if len(names) > 5 else ''}); sizing again")
-        nxt = _resize(network, cur, choices, work, orig, sizing, verify, say)
+        nxt = _resize(network, cur, choices, work, orig, sizing, verify, progress)
         if nxt is None:
             # Tighter working targets the bounds cannot meet: keep the last plan.
-            say(None, f"verify round {done}: the {sizing.model} model cannot meet the "
+            progress(None, f"verify round {done}: the {sizing.model} model cannot meet the "
                 "working targets")
             break
         cur = nxt
@@ -186,16 +186,16 @@ def _seed(seed) -> int:
     return int(np.random.default_rng(seed).integers(2**62))
 
 
-def _resize(network, cur, choices, work, orig, sizing, verify, say):
+def _resize(network, cur, choices, work, orig, sizing, verify, progress):
     """``cur`` sized again for working targets ``work``, evaluated against ``orig``; None
     when the model cannot meet them."""
     if verify.restart == "warm":
         net_w = with_targets(cur.network, work)
         found = search_and_check(net_w, choices, cur.modules, min_modules(net_w, choices),
-                                 sizing.model, True, sizing.time_limit, say)
+                                 sizing.model, True, sizing.time_limit, progress)
         k, ev = found.modules, found.evaluation
     else:
-        p = size_to_targets(with_targets(network, work), sizing, progress=say)
+        p = size_to_targets(with_targets(network, work), sizing, progress=progress)
         net_w, k, ev = p.network, p.modules, p.evaluation
     if not ev.all_met:
         return None

@@ -21,6 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from netdim.dimension.choices import LossTable, SizingChoices
+from netdim.dimension.options import silent
 from netdim.evaluate import Evaluation, evaluate
 
 __all__ = ["CachedEvaluator", "SearchResult", "repair", "trim", "move", "local_search",
@@ -259,15 +260,15 @@ def local_search(evaluator: CachedEvaluator, modules, kmin, max_evals=600, deadl
                  progress=None):
     """Repair, trim and move; returns ``(modules, stuck demands)``."""
     alt = _alternate(evaluator.network)
-    say = progress or (lambda fraction, message: None)
+    progress = progress or silent
     k, stuck = repair(evaluator, modules, alt)
-    say(None, f"local search: repaired, {evaluator.calls} evaluations")
+    progress(None, f"local search: repaired, {evaluator.calls} evaluations")
     if stuck:
         return k, stuck
     k = trim(evaluator, k, kmin, max_evals=max_evals // 2, deadline=deadline)
     k = move(evaluator, k, kmin, max_evals=max_evals // 2, deadline=deadline)
     k = trim(evaluator, k, kmin, max_evals=max_evals // 4, deadline=deadline)
-    say(None, f"local search: trimmed and moved, {evaluator.calls} evaluations")
+    progress(None, f"local search: trimmed and moved, {evaluator.calls} evaluations")
     return k, []
 
 
@@ -301,18 +302,18 @@ def search_and_check(network, choices: SizingChoices, modules, kmin, model, sear
 
     Links no usable route needs are not built.
     """
-    say = progress or (lambda fraction, message: None)
+    progress = progress or silent
     method = evaluation_method(model)
     evaluator = CachedEvaluator(network, choices, method)
     stuck: list[int] = []
     k = np.asarray(modules, np.int64)
     stopped = False
     if search:
-        say(None, "local search under the " + model + " model")
+        progress(None, "local search under the " + model + " model")
         # The passes are bounded in evaluations; this is a safety stop on slow machines.
         budget = SEARCH_SECONDS if time_limit is None else max(4 * time_limit, 5.0)
         deadline = time.perf_counter() + budget
-        k, stuck = local_search(evaluator, k, kmin, deadline=deadline, progress=say)
+        k, stuck = local_search(evaluator, k, kmin, deadline=deadline, progress=progress)
         stopped = time.perf_counter() > deadline
     used = network.usable_links()
     k = np.where(used | (choices.installed > 0), k, 0)
@@ -320,7 +321,7 @@ def search_and_check(network, choices: SizingChoices, modules, kmin, model, sear
     if not ev.all_met and evaluator.warm and not stuck:
         # The warm-started search tracked another solution of the fixed-point equations:
         # repair under the full evaluation.
-        say(None, "repairing under the fresh evaluation")
+        progress(None, "repairing under the fresh evaluation")
         cold = CachedEvaluator(network, choices, method, warm=False)
         k, extra = repair(cold, k, _alternate(network))
         stuck = sorted(set(stuck) | set(extra))

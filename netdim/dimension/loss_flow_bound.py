@@ -26,6 +26,7 @@ from netdim.dimension.loss_cuts import (
     reservation_hull_faces,
     reservation_losses,
 )
+from netdim.dimension.options import silent
 from netdim.dimension.plan import Bound
 from netdim.erlang import erlang_b
 
@@ -465,7 +466,7 @@ def loss_flow_bound(network, choices: SizingChoices | None = None, *, solver="hi
         return None
     if choices is None:
         choices = SizingChoices.from_network(network)
-    say = progress or (lambda fraction, message: None)
+    progress = progress or silent
     t0 = time.perf_counter()
     if reservation_cuts is None:
         reservation_cuts = len(network.links) <= RESERVATION_CUT_LINKS
@@ -490,7 +491,7 @@ def loss_flow_bound(network, choices: SizingChoices | None = None, *, solver="hi
         work += rel.prob.numConstraints()
         out, b = rel.solve(False, 0.0, left(), solver)
         rounds += 1
-        say(None, f"round {it}: LP {b:.8g} ({out.status}), {rel.n_cuts} cuts, "
+        progress(None, f"round {it}: LP {b:.8g} ({out.status}), {rel.n_cuts} cuts, "
             f"{rel.n_secants} secants, {elapsed():.1f} s")
         if out.status is not SolveStatus.OPTIMAL or not np.isfinite(b):
             stopped = stopped or out.status is SolveStatus.TIME_LIMIT
@@ -520,7 +521,7 @@ def loss_flow_bound(network, choices: SizingChoices | None = None, *, solver="hi
         out, b = rel.solve(True, mip_gap, left(), solver, node_limit=node_limit)
         milp_rounds += 1
         stopped = stopped or out.status is SolveStatus.TIME_LIMIT
-        say(None, f"MILP round {milp_rounds}: {b:.8g} ({out.status}), {rel.n_cuts} cuts, "
+        progress(None, f"MILP round {milp_rounds}: {b:.8g} ({out.status}), {rel.n_cuts} cuts, "
             f"{elapsed():.1f} s")
         gain = b - best if np.isfinite(b) else 0.0
         if gain > 0:

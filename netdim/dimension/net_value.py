@@ -27,6 +27,7 @@ import numpy as np
 from netdim.dimension._lp import SolveStatus, add_route_flows, solve
 from netdim.dimension.choices import SizingChoices, first_route_loads
 from netdim.dimension.local_search import CachedEvaluator, evaluation_method
+from netdim.dimension.options import silent
 from netdim.dimension.plan import Baseline, Plan, make_plan
 from netdim.erlang import erlang_b, moe_servers
 from netdim.vocabulary import PlanStatus
@@ -156,7 +157,7 @@ def size_for_net_value(network, choices: SizingChoices, *, model="fixed-point",
     """
     check_values(network)
     t_start = time.perf_counter() if t_start is None else t_start
-    say = progress or (lambda fraction, message: None)
+    progress = progress or silent
     space = choices
     nl = space.n_links
     loads = first_route_loads(network)
@@ -180,7 +181,7 @@ def size_for_net_value(network, choices: SizingChoices, *, model="fixed-point",
                      np.minimum(space.modules_for(n), space.max_modules), 0)
     evaluator = CachedEvaluator(network, space, evaluation_method(model))
     best = objective(network, space, evaluator(k), k)
-    say(None, f"net value: Moe start, {best:g}")
+    progress(None, f"net value: Moe start, {best:g}")
 
     def moves():
         # One module up or down on a link; then, on small networks, on two links at once
@@ -209,7 +210,7 @@ def size_for_net_value(network, choices: SizingChoices, *, model="fixed-point",
                 break
             if evaluator.calls >= max_evals:
                 break
-    say(None, f"net value: local search done, {best:g}, {evaluator.calls} evaluations")
+    progress(None, f"net value: local search done, {best:g}, {evaluator.calls} evaluations")
     ev = evaluator(k)
     ub, kind = objective_bound(network, space, model=model, solver=solver)
     ub = max(ub, best)

@@ -10,7 +10,7 @@ from netdim.dimension._lp import check_solver
 from netdim.dimension.plan import OBJECTIVES
 
 __all__ = ["SizingOptions", "VerifyOptions", "MODELS", "RESTARTS", "DEFAULT_VERIFY_CALLS",
-           "DEFAULT_MARGIN", "DEFAULT_BOUND_TIME"]
+           "DEFAULT_MARGIN", "DEFAULT_BOUND_TIME", "silent"]
 
 #: What a plan can be made to satisfy.
 MODELS = ("fixed-point", "conservative", "exact")
@@ -24,6 +24,10 @@ DEFAULT_MARGIN = 0.05
 #: Seconds after which the lower bound's work stops, as a safety net (its work is bounded
 #: by counts, not by time).
 DEFAULT_BOUND_TIME = 300.0
+
+
+def silent(fraction, message) -> None:
+    """The progress callback (``progress(fraction, message)``) that says nothing."""
 
 
 def _positive_seconds(name, value, allow_none):

@@ -34,7 +34,7 @@ from netdim.dimension.local_search import (
     min_modules,
     search_and_check,
 )
-from netdim.dimension.options import SizingOptions
+from netdim.dimension.options import SizingOptions, silent
 from netdim.dimension.plan import Baseline, Plan, make_plan
 from netdim.dimension.secant_milp import MilpResult, solve_secant_milp
 from netdim.errors import ModelTooLargeError
@@ -90,11 +90,11 @@ def size_to_targets(network, options: SizingOptions, *, progress=None, t_start=N
         within the links' bounds.
     """
     t_start = time.perf_counter() if t_start is None else t_start
-    say = progress or (lambda fraction, message: None)
+    progress = progress or silent
     if choices is None or base is None:
         choices, base = prepare(network, options)
     model = options.model
-    run = _sizing_loop(network, choices, options, say,
+    run = _sizing_loop(network, choices, options, progress,
                        fallback=choices.modules_for(base.capacities))
     best_net, best = network, run
     dropped: list[str] = []
@@ -104,8 +104,8 @@ def size_to_targets(network, options: SizingOptions, *, progress=None, t_start=N
         trial_net = best_net.without_links([network.links[j].id])
         if trial_net is None:
             continue
-        say(None, f"trying without link '{network.links[j].id}'")
-        trial = _sizing_loop(trial_net, choices, options, say)
+        progress(None, f"trying without link '{network.links[j].id}'")
+        trial = _sizing_loop(trial_net, choices, options, progress)
         cheaper = choices.cost(trial.modules) < choices.cost(best.modules) - 1e-9
         if trial.believed_feasible and cheaper:
             best_net, best = trial_net, trial
@@ -114,7 +114,7 @@ def size_to_targets(network, options: SizingOptions, *, progress=None, t_start=N
     net = best_net
     found = search_and_check(net, choices, best.modules, best.min_modules, model,
                              options.local_search or model != "fixed-point",
-                             options.time_limit, say)
+                             options.time_limit, progress)
     k, ev = found.modules, found.evaluation
     cost = choices.cost(k)
     bound = lower_bound(network, net, choices, model=model, solver=options.solver,
@@ -126,7 +126,7 @@ def size_to_targets(network, options: SizingOptions, *, progress=None, t_start=N
     stopped = bound.stopped_by_time
     listing = None
     if ev.all_met and value < cost * (1 - 1e-9):
-        listing = _list_cheaper(network, choices, model, value, cost, options.bound_time, say)
+        listing = _list_cheaper(network, choices, model, value, cost, options.bound_time, progress)
         stopped = stopped or listing.stopped_by_time
         if listing.status == "improved":
             net = network.without_links([network.links[j].id for j in listing.dropped])
@@ -179,15 +179,15 @@ def size_to_targets(network, options: SizingOptions, *, progress=None, t_start=N
     )
 
 
-def _list_cheaper(network, choices, model, bound, cost, seconds, say):
+def _list_cheaper(network, choices, model, bound, cost, seconds, progress):
     """Every plan costing from ``bound`` to less than ``cost``, evaluated cheapest first
     (small networks; see :mod:`netdim.dimension.exhaustive`)."""
     method = evaluation_method(model)
-    say(None, f"listing the plans costing from {bound:g} to less than {cost:g}")
+    progress(None, f"listing the plans costing from {bound:g} to less than {cost:g}")
     found = least_cost_by_enumeration(network, choices, method, bound, cost,
                                       limit=listing_limit(method),
                                       deadline=time.perf_counter() + seconds)
-    say(None, f"listing: {found.message}")
+    progress(None, f"listing: {found.message}")
     return found
 
 
@@ -214,7 +214,7 @@ class _SizingLoop:
     no_solution: bool = False  # the MILP stopped before it had any plan
 
 
-def _sizing_loop(network, choices, options, say, fallback=None) -> _SizingLoop:
+def _sizing_loop(network, choices, options, progress, fallback=None) -> _SizingLoop:
     alt = network.routing.policy == "alternate"
     model = options.model
     loop_method = "conservative" if model == "conservative" else "fixed-point"
@@ -251,7 +251,7 @@ def _sizing_loop(network, choices, options, say, fallback=None) -> _SizingLoop:
         if first is None:
             first = res
         k = res.modules
-        say(None, f"iteration {it}: MILP cost {choices.cost(k):g} ({res.status}, "
+        progress(None, f"iteration {it}: MILP cost {choices.cost(k):g} ({res.status}, "
             f"{res.seconds:.2f} s, {res.n_cuts} cuts)")
         if res.status == "error" and prev is None and fallback is not None:
             # Stopped (time limit) before any plan: the local search starts from the

@@ -17,7 +17,8 @@ import time
 
 import numpy as np
 
-from netdim.dimension import VerifyOptions, dimension
+from netdim.dimension import SizingOptions, VerifyOptions, dimension
+from netdim.dimension.calibrate import calibrate_by_simulation
 from netdim.model import Demand, Link, Network, Route, Routing, Site
 
 
@@ -77,7 +78,15 @@ def main():
                     "worst blocking/target before and after calibration)")
     ap.add_argument("--margins", default="0.05",
                     help="verification margins to compare, e.g. 0,0.05,0.1")
+    ap.add_argument("--margin-study", action="store_true",
+                    help="only: size each demo and the alternate meshes of --sizes once, then "
+                    "calibrate that plan with each of --margins and --seeds (how many demands "
+                    "end met, unclear, missed, and what it costs)")
+    ap.add_argument("--seeds", default="0")
     args = ap.parse_args()
+    if args.margin_study:
+        _margin_study(args)
+        return
     margins = [float(m) for m in args.margins.split(",") if m]
     sizes = [int(s) for s in args.sizes.split(",") if s]
     if args.big:
@@ -106,6 +115,30 @@ def main():
                         p = run(f"{path} verify/{restart} m={m:g}", net, solver=args.solver,
                                 verify=VerifyOptions(restart=restart, margin=m))
                         _verify_line(p)
+
+
+def _margin_study(args):
+    from netdim.netfile import read_network
+
+    margins = [float(m) for m in args.margins.split(",") if m]
+    seeds = [int(x) for x in args.seeds.split(",") if x]
+    nets = [(path, read_network(path)) for path in sorted(glob.glob("networks/*.yaml"))]
+    nets += [(f"mesh {n} alternate", mesh(n, policy="alternate"))
+             for n in (int(x) for x in args.sizes.split(",") if x)]
+    for name, net in nets:
+        plan = run(name, net, solver=args.solver)
+        for m in margins:
+            for seed in seeds:
+                t = time.perf_counter()
+                p = calibrate_by_simulation(net, plan, SizingOptions(solver=args.solver),
+                                            VerifyOptions(margin=m, seed=seed))
+                d = p.details
+                print(f"{'':4s}{name:28s} margin={m:<5g} seed={seed} cost={p.cost:10.1f} "
+                      f"(+{100 * (p.cost / plan.cost - 1):5.2f}% on the plan) "
+                      f"met={len(d['verify_met'])} unclear={len(d['verify_unclear'])} "
+                      f"missed={len(d['verify_missed'])} of {len(net.demands)} "
+                      f"rounds={d['verify_rounds']} calls(last)={d['verify_calls_last']} "
+                      f"time={time.perf_counter() - t:.1f}s", flush=True)
 
 
 def _verify_line(p):
