@@ -59,9 +59,9 @@ def register(subparsers):
                    help="most calibration rounds after the first check (default 8; 0 checks "
                    "the plan without changing it)")
     p.add_argument("--margin", type=float, default=DEFAULT_MARGIN, metavar="X",
-                   help="with --verify: share by which the working targets are tightened "
-                   f"before the first simulation, so that few demands end unclear (default "
-                   f"{DEFAULT_MARGIN:g}; 0 for none)")
+                   help="with --verify: calibrate until every demand's simulated interval "
+                   "reaches below its target x (1 - X), so that few demands end unclear "
+                   f"(default {DEFAULT_MARGIN:g}; 0 calibrates to the targets themselves)")
     p.add_argument("--bound-time", type=float, default=DEFAULT_BOUND_TIME, metavar="S",
                    help="safety stop of the lower bound's work, seconds (default "
                    f"{DEFAULT_BOUND_TIME:g}). The work is bounded by counts (cut rounds, "

@@ -3,10 +3,11 @@
 Under alternate routing the reduced-load fixed point is optimistic: overflow traffic is
 peakier than Poisson and the occupancies of the links a call tries are correlated, neither
 of which the fixed point's independent Erlang links see. :func:`calibrate_by_simulation`
-simulates the plan and, for every demand that misses its target there, tightens that
-demand's *working* target and sizes again (:func:`netdim.dimension.local_search.
-search_and_check` from the plan, or :func:`netdim.dimension.sizer.size_to_targets`), until
-no demand misses or the rounds run out. The plan's own evaluation stays the one under the
+simulates the plan and, for every demand whose simulated blocking lies above its goal there
+(its target less the margin), tightens that demand's *working* target and sizes again
+(:func:`netdim.dimension.local_search.search_and_check` from the plan, or
+:func:`netdim.dimension.sizer.size_to_targets`), until no demand lies above its goal or the
+rounds run out. The plan's own evaluation stays the one under the
 chosen model, against the original targets. The rules are in ``docs/design/sizing.md``.
 """
 
@@ -22,6 +23,7 @@ from netdim.dimension.local_search import min_modules, search_and_check
 from netdim.dimension.options import SizingOptions, VerifyOptions, silent
 from netdim.dimension.plan import Baseline, Plan, make_plan
 from netdim.dimension.sizer import size_to_targets
+from netdim.evaluate.result import verdicts
 from netdim.evaluate.simulate import simulate
 from netdim.vocabulary import PlanStatus, Verdict
 
@@ -29,9 +31,9 @@ __all__ = ["calibrate_by_simulation", "Calibration", "with_targets"]
 
 #: A working target falls by at most this factor per round.
 _MAX_TIGHTEN = 4.0
-#: A missed demand's working target is aimed so that its simulated blocking lands at most at
-#: this share of the target (less with a larger margin): aiming at the target itself leaves
-#: the next plan a coin toss against the simulation noise.
+#: A demand above its goal gets a working target aimed so that its simulated blocking lands
+#: at this share of the goal: aiming at the goal itself leaves the next plan a coin toss
+#: against the simulation noise.
 _AIM_SHARE = 0.95
 #: An unclear result is simulated again with 4 times the calls, up to this many times the
 #: calls first asked for.
@@ -80,7 +82,7 @@ class Calibration:
 
 def calibrate_by_simulation(network, plan: Plan, sizing: SizingOptions,
                             verify: VerifyOptions, *, progress=None, t_start=None) -> Plan:
-    """Simulate ``plan``; tighten the working targets of demands that miss and size again.
+    """Simulate ``plan``; tighten the working targets of demands above their goal, size again.
 
     Parameters
     ----------
@@ -98,10 +100,11 @@ def calibrate_by_simulation(network, plan: Plan, sizing: SizingOptions,
     Returns
     -------
     Plan
-        With ``verification`` the simulated Evaluation of the returned plan. Status
-        ``feasible`` or ``optimal-within-gap`` when no demand misses its target in
-        simulation (some may be unclear after the longest run, named in the message and
-        warnings); else ``feasible``, naming the demands that still miss.
+        With ``verification`` the simulated Evaluation of the returned plan, judged against
+        the targets (``met``: the whole interval at or below). Status ``feasible`` or
+        ``optimal-within-gap`` when no demand misses its target in simulation (some may be
+        unclear after the longest run, named in the message and warnings); else
+        ``feasible``, naming the demands that still miss.
     """
     progress = progress or silent
     t_start = time.perf_counter() if t_start is None else t_start
@@ -116,17 +119,28 @@ def calibrate_by_simulation(network, plan: Plan, sizing: SizingOptions,
         progress(None, f"verifying by simulation ({calls} calls, seed {seed})")
         return simulate(net, p.capacities, seed=seed, calls=calls)
 
+    # The calibration's goal: each demand's simulated blocking at most target x (1 - margin).
+    # A demand whose whole interval lies above the goal is sized again; one whose interval
+    # contains the goal or the target is simulated longer. Ending inside the target by the
+    # margin, few demands end with an interval that still contains the target.
+    goal = orig * (1.0 - verify.margin)
+
+    def judged(ver):
+        verdict = ver.verdicts()
+        against_goal = verdicts(ver.blocking, goal, ver.blocking_interval)
+        return verdict, against_goal == Verdict.MISSED.value, (
+            (verdict == Verdict.UNCLEAR.value) | (against_goal == Verdict.UNCLEAR.value))
+
     def settled(p):
-        """Simulate ``p``; more calls while some demand is unclear and none missed. A later
-        round starts at the number of calls the last one needed."""
+        """Simulate ``p``; more calls while some demand is unclear (against its target or its
+        goal) and none is above its goal. A later round starts at the calls the last one
+        needed."""
         ver = simulated(p, level[0])
         while True:
-            verdict = ver.verdicts()
-            if (verdict == Verdict.MISSED.value).any() or \
-                    not (verdict == Verdict.UNCLEAR.value).any():
-                return ver, verdict
-            if level[0] * 4 > verify.calls * MAX_CALL_FACTOR:
-                return ver, verdict
+            verdict, above, unsure = judged(ver)
+            if above.any() or not unsure.any() or \
+                    level[0] * 4 > verify.calls * MAX_CALL_FACTOR:
+                return ver, verdict, above
             level[0] *= 4
             ver = simulated(p, level[0])
 
@@ -134,45 +148,35 @@ def calibrate_by_simulation(network, plan: Plan, sizing: SizingOptions,
                                                              PlanStatus.FEASIBLE)
     work = orig.copy()
     cur = plan
-    if calibrate and verify.margin > 0:
-        # Tightened working targets before the first simulation: the plan then sits inside
-        # its targets by about the margin, so that few demands end within the noise.
-        work = orig * (1.0 - verify.margin)
-        progress(None, f"verify: working targets {100 * verify.margin:g}% inside the targets")
-        nxt = _resize(network, cur, choices, work, orig, sizing, verify, progress)
-        if nxt is not None:
-            cur = nxt
-        else:
-            work = orig.copy()
-    ver, verdict = settled(cur)
+    ver, verdict, above = settled(cur)
     done = 0
     history = [(float(cur.cost), _worst(ver))]
-    aim = min(_AIM_SHARE, 1.0 - verify.margin)
-    while calibrate and (verdict == Verdict.MISSED.value).any() and done < verify.rounds:
+    aim = _AIM_SHARE * (1.0 - verify.margin)
+    while calibrate and above.any() and done < verify.rounds:
         done += 1
         s = np.asarray(ver.blocking, float)
-        miss = verdict == Verdict.MISSED.value
         b = np.asarray(cur.evaluation.blocking, float)
         base = np.where(b > 0, np.minimum(work, b), work)
         aimed = base * aim * orig / np.maximum(s, 1e-300)
-        work = np.where(miss, np.minimum(work, np.maximum(aimed, work / _MAX_TIGHTEN)), work)
-        # A demand that passes keeps its working target at or above its present blocking
+        work = np.where(above, np.minimum(work, np.maximum(aimed, work / _MAX_TIGHTEN)), work)
+        # A demand within its goal keeps its working target at or above its present blocking
         # under the model (so the plan still meets it), but no higher than the simulated
         # ratio allows: otherwise the trim of the next round takes back its margin.
-        keep = (~miss) & (s > 0) & (b > 0)
-        held = b * (1.0 - verify.margin) * orig / np.maximum(s, 1e-300)
+        keep = (~above) & (s > 0) & (b > 0)
+        held = b * goal / np.maximum(s, 1e-300)
         work = np.where(keep, np.minimum(work, np.maximum(held, b)), work)
-        names = [network.demand_ids[i] for i in np.flatnonzero(miss)]
-        progress(None, f"verify round {done}: {len(names)} demands miss in simulation "
-            f"({', '.join(names[:5])}{' ...' if len(names) > 5 else ''}); sizing again")
+        names = [network.demand_ids[i] for i in np.flatnonzero(above)]
+        progress(None, f"verify round {done}: {len(names)} demands above their goal in "
+                 f"simulation ({', '.join(names[:5])}{' ...' if len(names) > 5 else ''}); "
+                 "sizing again")
         nxt = _resize(network, cur, choices, work, orig, sizing, verify, progress)
         if nxt is None:
             # Tighter working targets the bounds cannot meet: keep the last plan.
             progress(None, f"verify round {done}: the {sizing.model} model cannot meet the "
-                "working targets")
+                     "working targets")
             break
         cur = nxt
-        ver, verdict = settled(cur)
+        ver, verdict, above = settled(cur)
         history.append((float(cur.cost), _worst(ver)))
     result = Calibration(cur, ver, done, work, history, int(ver.details.get("calls", level[0])),
                          seed, calibrate, time.perf_counter() - t0)

@@ -18,8 +18,8 @@ MODELS = ("fixed-point", "conservative", "exact")
 RESTARTS = ("warm", "full")
 #: Arrivals per verification run (after the warm-up).
 DEFAULT_VERIFY_CALLS = 1_000_000
-#: Share by which verification tightens every working target before its first simulation
-#: (measured in docs/measurements/dimension.md: it makes "unclear" rare at a small cost).
+#: Share inside its target that calibration by simulation aims each demand at (chosen by
+#: measurement, docs/measurements/dimension.md: it makes "unclear" rare at a small cost).
 DEFAULT_MARGIN = 0.05
 #: Seconds after which the lower bound's work stops, as a safety net (its work is bounded
 #: by counts, not by time).
@@ -117,8 +117,9 @@ class VerifyOptions:
     seed : int, Generator or None
         Normalised once; every round simulates with the same stream.
     margin : float
-        Share in [0, 0.5] by which every working target is tightened before the first
-        simulation, and the share inside the target a missed demand is aimed at.
+        In [0, 0.5]. Calibration goes on until the simulated interval of every demand
+        reaches below ``target * (1 - margin)`` (its goal), so that few demands end with an
+        interval that contains the target; 0 calibrates to the targets themselves.
     """
 
     calls: int | None = None

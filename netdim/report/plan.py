@@ -73,9 +73,10 @@ def format_plan(plan, max_rows=None) -> str:
         d = plan.details
         margin = d.get("verify_margin")
         margin_text = "" if margin is None else f", margin {100 * margin:g}%"
+        rounds = int(d.get("verify_rounds", 0))
         out.append(f"verified       by simulation, {d.get('verify_calls_last', '?')} calls in "
                    f"the last run, seed {d.get('verify_seed', '?')}"
-                   f"{margin_text}, {d.get('verify_rounds', 0)} calibration rounds; "
+                   f"{margin_text}, {rounds} calibration round{'' if rounds == 1 else 's'}; "
                    f"unverified plan cost {fmt_num(d.get('unverified_cost', plan.cost))}")
         verdict = ver.verdicts()
         counts = {v: int(np.sum(verdict == v)) for v in _SAY}
@@ -100,6 +101,10 @@ def format_plan(plan, max_rows=None) -> str:
 def _gap_words(plan):
     """What a gap means, in plain words."""
     more = 100 * (plan.cost - plan.lower_bound) / plan.lower_bound
+    if str(plan.details.get("bound", "")).startswith("least cost"):
+        return (f"the lower bound is the least cost under the {plan.model} model; this plan "
+                f"costs {more:.1f}% more" + (", added to pass the simulation"
+                                             if plan.verification is not None else ""))
     text = (f"the least-cost plan costs between the lower bound and this plan's cost, so this "
             f"plan costs at most {more:.1f}% more than it")
     if plan.network is not None and plan.network.routing.policy == "alternate":
