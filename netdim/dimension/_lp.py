@@ -15,7 +15,9 @@ whose module count the model fixes).
 from __future__ import annotations
 
 import os
+import re
 import sys
+import tempfile
 import time
 import warnings
 from dataclasses import dataclass
@@ -79,7 +81,7 @@ def check_solver(name) -> str:
 
 
 def make_solver(name, *, integer=True, mip_gap=0.0, time_limit=None, node_limit=None,
-                iteration_limit=None, interior_point=False):
+                iteration_limit=None, interior_point=False, log_path=None):
     """The PuLP solver object for ``name`` (``'highs'``, or PuLP's bundled ``'cbc'``).
 
     HiGHS runs on one thread so that its answers do not depend on the machine; without
@@ -108,7 +110,8 @@ def make_solver(name, *, integer=True, mip_gap=0.0, time_limit=None, node_limit=
         # PuLP 3 warns that the bundled CBC goes in PuLP 4; it is still the bundled one here.
         warnings.simplefilter("ignore", DeprecationWarning)
         return pulp.PULP_CBC_CMD(msg=False, mip=integer, gapRel=mip_gap if integer else None,
-                                 timeLimit=time_limit, maxNodes=node_limit, threads=1)
+                                 timeLimit=time_limit, maxNodes=node_limit, threads=1,
+                                 logPath=log_path)
 
 
 def solve(prob, solver="highs", *, integer=True, mip_gap=0.0, time_limit=None,
@@ -140,16 +143,24 @@ def solve(prob, solver="highs", *, integer=True, mip_gap=0.0, time_limit=None,
 
     if prob.sense != pulp.LpMinimize:
         raise ValueError("solve: only minimisation problems are supported")
-    engine = make_solver(solver, integer=integer, mip_gap=mip_gap, time_limit=time_limit,
-                         node_limit=node_limit, iteration_limit=iteration_limit,
-                         interior_point=interior_point)
-    t0 = time.perf_counter()
-    prob.solve(engine)
-    seconds = time.perf_counter() - t0
-    constant = float(prob.objective.constant) if prob.objective is not None else 0.0
-    if isinstance(engine, _highs_class()):
-        return _read_highs(prob, integer, constant, seconds)
-    return _read_cbc(prob, integer, mip_gap, constant, seconds, time_limit)
+    # CBC reports its best bound only in its log (and, like HiGHS, without the constant)
+    fd, log_path = tempfile.mkstemp(prefix="netdim-cbc-", suffix=".log")
+    os.close(fd)
+    try:
+        engine = make_solver(solver, integer=integer, mip_gap=mip_gap, time_limit=time_limit,
+                             node_limit=node_limit, iteration_limit=iteration_limit,
+                             interior_point=interior_point, log_path=log_path)
+        t0 = time.perf_counter()
+        prob.solve(engine)
+        seconds = time.perf_counter() - t0
+        constant = float(prob.objective.constant) if prob.objective is not None else 0.0
+        if isinstance(engine, _highs_class()):
+            return _read_highs(prob, integer, constant, seconds)
+        with open(log_path, errors="replace") as f:
+            log = f.read()
+        return _read_cbc(prob, integer, mip_gap, seconds, time_limit, log)
+    finally:
+        os.unlink(log_path)
 
 
 def _objective(prob):
@@ -191,31 +202,53 @@ def _read_highs(prob, integer, constant, seconds):
     return LpOutcome(status, has, objective, bound, seconds)
 
 
-def _read_cbc(prob, integer, mip_gap, constant, seconds, time_limit):
+def _read_cbc(prob, integer, mip_gap, seconds, time_limit, log):
     import pulp
 
     has = prob.sol_status in (pulp.LpSolutionOptimal, pulp.LpSolutionIntegerFeasible)
-    if prob.status == pulp.LpStatusInfeasible:
+    result = re.search(r"^Result - (.*)$", log, re.M)
+    result = result.group(1).lower() if result else ""
+    # PuLP reads CBC stopped at a node or time limit with a solution as 'Optimal': the
+    # solution status and CBC's own result line tell them apart
+    if prob.status == pulp.LpStatusInfeasible or "infeasible" in result:
         status = SolveStatus.INFEASIBLE
-    elif prob.status == pulp.LpStatusOptimal and prob.sol_status == pulp.LpSolutionOptimal:
+    elif prob.status == pulp.LpStatusOptimal and prob.sol_status == pulp.LpSolutionOptimal \
+            and "stopped" not in result:
         status = SolveStatus.OPTIMAL
-    elif time_limit is not None and seconds >= 0.95 * time_limit:
+    elif "time" in result or (time_limit is not None and seconds >= 0.95 * time_limit):
         status = SolveStatus.TIME_LIMIT
-    elif has:
+    elif has or "stopped" in result:
         status = SolveStatus.WORK_LIMIT
     else:
         status = SolveStatus.ERROR
     objective = _objective(prob) if has else float("nan")
     bound = float("nan")
-    if status is SolveStatus.OPTIMAL:
-        if integer and _has_integers(prob):
-            # CBC stops when (objective - bound) <= gapRel |objective| on the objective it
-            # saw; whether that held the constant or not, this is below its bound.
-            rel = max(abs(objective), abs(objective - constant))
-            bound = objective - mip_gap * rel
-        else:
-            bound = objective
+    if not (integer and _has_integers(prob)):
+        if status is SolveStatus.OPTIMAL:
+            bound = objective  # an LP solved to optimality: its value
+        return LpOutcome(status, has, objective, bound, seconds)
+    own = _log_number(log, "Objective value")
+    # the constant CBC did not see: PuLP's objective less CBC's
+    constant = objective - own if np.isfinite(own) and has else float(prob.objective.constant)
+    low = _log_number(log, "Lower bound")
+    if np.isfinite(low):
+        # printed with few digits: keep clear of the rounding
+        bound = low + constant - 1e-4 * (1.0 + abs(low))
+    elif status is SolveStatus.OPTIMAL:
+        # solved to its gap: (objective - bound) <= gapRel |objective| on CBC's objective
+        ref = own if np.isfinite(own) else objective
+        bound = objective - mip_gap * abs(ref)
+    if has and np.isfinite(bound):
+        bound = min(bound, objective)
     return LpOutcome(status, has, objective, bound, seconds)
+
+
+def _log_number(log, label) -> float:
+    m = re.search(rf"^{label}:\s*(\S+)", log, re.M)
+    try:
+        return float(m.group(1)) if m else float("nan")
+    except ValueError:
+        return float("nan")
 
 
 def _has_integers(prob) -> bool:
