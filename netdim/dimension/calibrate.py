@@ -120,16 +120,20 @@ def calibrate_by_simulation(network, plan: Plan, sizing: SizingOptions,
         return simulate(net, p.capacities, seed=seed, calls=calls)
 
     # The calibration's goal: each demand's simulated blocking at most target x (1 - margin).
-    # A demand whose whole interval lies above the goal is sized again; one whose interval
-    # contains the goal or the target is simulated longer. Ending inside the target by the
+    # A demand whose interval contains the goal or the target is first simulated longer;
+    # then one above its goal and not met is sized again. Ending inside the target by the
     # margin, few demands end with an interval that still contains the target.
     goal = orig * (1.0 - verify.margin)
 
     def judged(ver):
         verdict = ver.verdicts()
         against_goal = verdicts(ver.blocking, goal, ver.blocking_interval)
-        return verdict, against_goal == Verdict.MISSED.value, (
-            (verdict == Verdict.UNCLEAR.value) | (against_goal == Verdict.UNCLEAR.value))
+        # sized again: the whole interval above the goal, or the point estimate above it
+        # with the interval not below the target (what would end unclear or missed)
+        above = (against_goal == Verdict.MISSED.value) | (
+            (np.asarray(ver.blocking) > goal) & (verdict != Verdict.MET.value))
+        unsure = (verdict == Verdict.UNCLEAR.value) | (against_goal == Verdict.UNCLEAR.value)
+        return verdict, above, unsure
 
     def settled(p):
         """Simulate ``p``; more calls while some demand is unclear (against its target or its
