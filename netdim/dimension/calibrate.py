@@ -120,33 +120,43 @@ def calibrate_by_simulation(network, plan: Plan, sizing: SizingOptions,
         return simulate(net, p.capacities, seed=seed, calls=calls)
 
     # The calibration's goal: each demand's simulated blocking at most target x (1 - margin).
-    # A demand whose interval contains the goal or the target is first simulated longer;
-    # then one above its goal and not met is sized again. Ending inside the target by the
-    # margin, few demands end with an interval that still contains the target.
+    # A demand whose whole interval lies above its goal is sized again; one whose interval
+    # contains its goal or its target is first simulated longer. A demand then ends unclear
+    # only when its interval is wider than the margin: chasing point estimates instead buys
+    # capacity against the simulation's own noise.
     goal = orig * (1.0 - verify.margin)
 
     def judged(ver):
         verdict = ver.verdicts()
         against_goal = verdicts(ver.blocking, goal, ver.blocking_interval)
-        # sized again: the whole interval above the goal, or the point estimate above it
-        # with the interval not below the target (what would end unclear or missed)
-        above = (against_goal == Verdict.MISSED.value) | (
-            (np.asarray(ver.blocking) > goal) & (verdict != Verdict.MET.value))
+        clear = against_goal == Verdict.MISSED.value  # the whole interval above the goal
         unsure = (verdict == Verdict.UNCLEAR.value) | (against_goal == Verdict.UNCLEAR.value)
-        return verdict, above, unsure
+        return verdict, clear, unsure
 
     def settled(p):
         """Simulate ``p``; more calls while some demand is unclear (against its target or its
-        goal) and none is above its goal. A later round starts at the calls the last one
+        goal) and none lies wholly above its goal. Returns the simulation, its verdicts and
+        the demands above their goal. A later round starts at the calls the last one
         needed."""
         ver = simulated(p, level[0])
         while True:
-            verdict, above, unsure = judged(ver)
-            if above.any() or not unsure.any() or \
+            verdict, clear, unsure = judged(ver)
+            if clear.any() or not unsure.any() or \
                     level[0] * 4 > verify.calls * MAX_CALL_FACTOR:
-                return ver, verdict, above
+                return ver, verdict, clear
             level[0] *= 4
             ver = simulated(p, level[0])
+
+    def longest(p, ver, verdict):
+        """The last plan's verdicts against the targets, simulated longer while some demand
+        is unclear and none missed."""
+        while ((verdict == Verdict.UNCLEAR.value).any()
+               and not (verdict == Verdict.MISSED.value).any()
+               and level[0] * 4 <= verify.calls * MAX_CALL_FACTOR):
+            level[0] *= 4
+            ver = simulated(p, level[0])
+            verdict = ver.verdicts()
+        return ver, verdict
 
     calibrate = plan.objective == "cost" and plan.status in (PlanStatus.OPTIMAL_WITHIN_GAP,
                                                              PlanStatus.FEASIBLE)
@@ -182,6 +192,7 @@ def calibrate_by_simulation(network, plan: Plan, sizing: SizingOptions,
         cur = nxt
         ver, verdict, above = settled(cur)
         history.append((float(cur.cost), _worst(ver)))
+    ver, verdict = longest(cur, ver, verdict)
     result = Calibration(cur, ver, done, work, history, int(ver.details.get("calls", level[0])),
                          seed, calibrate, time.perf_counter() - t0)
     return _finish(network, plan, result, sizing, verify, t_start)
