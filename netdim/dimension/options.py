@@ -20,7 +20,7 @@ RESTARTS = ("warm", "full")
 DEFAULT_VERIFY_CALLS = 1_000_000
 #: Share inside its target that calibration by simulation aims each demand at (chosen by
 #: measurement, docs/measurements/dimension.md: it makes "unclear" rare at a small cost).
-DEFAULT_MARGIN = 0.05
+DEFAULT_MARGIN = 0.2
 #: Seconds after which the lower bound's work stops, as a safety net (its work is bounded
 #: by counts, not by time).
 DEFAULT_BOUND_TIME = 300.0

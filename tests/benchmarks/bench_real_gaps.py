@@ -59,10 +59,10 @@ def build(path, fixed_costs=False):
     demands, on_paths = [], []
     for (a, b), v in sorted(merged.items()):
         try:
-            path = nx.shortest_path(g, a, b, weight="weight")
+            hops = nx.shortest_path(g, a, b, weight="weight")
         except nx.NetworkXNoPath:
             continue
-        idx = tuple(g.edges[u, w]["index"] for u, w in zip(path, path[1:], strict=False))
+        idx = tuple(g.edges[u, w]["index"] for u, w in zip(hops, hops[1:], strict=False))
         on_paths.append(idx)
         demands.append(Demand(f"{a}-{b}", (a, b), max(20.0 * v / top, 0.05),
                               routes=(Route(idx, (1.0,) * len(idx)),)))
