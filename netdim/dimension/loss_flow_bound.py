@@ -188,6 +188,7 @@ class LossFlowRelaxation:
 
     hopeless = False
     weights = ()
+    milp_raised = 0  # the last MILP round that raised the bound
 
     def _first_secants(self):
         """Links whose first-choice load is a constant F: loss >= F E(F, c), by its secants.
@@ -468,7 +469,6 @@ def loss_flow_bound(network, choices: SizingChoices | None = None, *, solver="hi
     if choices is None:
         choices = SizingChoices.from_network(network)
     progress = progress or silent
-    t0 = time.perf_counter()
     if reservation_cuts is None:
         reservation_cuts = len(network.links) <= RESERVATION_CUT_LINKS
     rel = LossFlowRelaxation(LossFlowData(network, choices), reservation_cuts=reservation_cuts,
@@ -476,32 +476,61 @@ def loss_flow_bound(network, choices: SizingChoices | None = None, *, solver="hi
     if rel.hopeless:
         return None
 
-    def elapsed():
-        return time.perf_counter() - t0
+    clock = _Clock(time_limit)
+    best, rounds = _lp_rounds(rel, solver, int(max_rounds), work_limit, len(network.links),
+                              clock, progress)
+    kind = f"loss-flow LP ({rounds} rounds, {rel.n_cuts} cuts)"
+    milp_rounds = 0
+    if integer and len(network.links) <= MILP_LINKS and np.isfinite(best):
+        best, milp_rounds = _milp_rounds(rel, solver, mip_gap, node_limit, int(max_rounds),
+                                         best, clock, progress)
+        if milp_rounds and rel.milp_raised:
+            kind = (f"loss-flow MILP ({rounds} LP and {rel.milp_raised} MILP rounds, "
+                    f"{rel.n_cuts} cuts)")
+    if not np.isfinite(best):
+        return None
+    return Bound(float(max(best, 0.0)), kind, rounds=rounds + milp_rounds, cuts=rel.n_cuts,
+                 seconds=clock.elapsed(), stopped_by_time=clock.stopped)
 
-    def left():
-        return None if time_limit is None else max(time_limit - elapsed(), 1.0)
 
+class _Clock:
+    """Seconds since the start, the time left of the safety stop, and whether it fired."""
+
+    def __init__(self, limit):
+        self.limit = limit
+        self.t0 = time.perf_counter()
+        self.stopped = False
+
+    def elapsed(self):
+        return time.perf_counter() - self.t0
+
+    def left(self):
+        return None if self.limit is None else max(self.limit - self.elapsed(), 1.0)
+
+    def over(self):
+        if self.limit is not None and self.elapsed() > self.limit:
+            self.stopped = True
+        return self.stopped
+
+
+def _lp_rounds(rel, solver, max_rounds, work_limit, links, clock, progress):
+    """Rounds of LP and cuts; returns (best bound, rounds)."""
     best = -np.inf
     rounds = 0
-    stopped = False
-    work = 0
-    for it in range(int(max_rounds)):
-        if it and work >= work_limit:
+    for it in range(max_rounds):
+        if it and rounds * links >= work_limit:
             break
-        work += len(network.links)
-        out, b = rel.solve(False, 0.0, left(), solver)
+        out, b = rel.solve(False, 0.0, clock.left(), solver)
         rounds += 1
         progress(None, f"round {it}: LP {b:.8g} ({out.status}), {rel.n_cuts} cuts, "
-            f"{rel.n_secants} secants, {elapsed():.1f} s")
+                 f"{rel.n_secants} secants, {clock.elapsed():.1f} s")
         if out.status is not SolveStatus.OPTIMAL or not np.isfinite(b):
-            stopped = stopped or out.status is SolveStatus.TIME_LIMIT
+            clock.stopped = clock.stopped or out.status is SolveStatus.TIME_LIMIT
             break
         # a stage ends when its cuts are exhausted or no longer raise the bound
         stalled = b - best < _ROUND_GAIN * abs(b)
         best = max(best, b)
-        if time_limit is not None and elapsed() > time_limit:
-            stopped = True
+        if clock.over():
             break
         if stalled or rel.separate() == 0:
             if rel.weights or not rel.use_res:
@@ -510,30 +539,32 @@ def loss_flow_bound(network, choices: SizingChoices | None = None, *, solver="hi
             rel.weights = _WEIGHTS
             if rel.separate() == 0:
                 break
-    kind = f"loss-flow LP ({rounds} rounds, {rel.n_cuts} cuts)"
-    milp_rounds = 0
-    while integer and milp_rounds < int(max_rounds) and len(network.links) <= MILP_LINKS:
-        if time_limit is not None and elapsed() >= time_limit:
-            stopped = True
+    return best, rounds
+
+
+def _milp_rounds(rel, solver, mip_gap, node_limit, max_rounds, best, clock, progress):
+    """Rounds of the MILP (integer modules) cut at its integer point; returns (best bound,
+    rounds). Each MILP is held to a node limit: its root bound comes early, and proving
+    optimality can take far longer than it adds. Its proven bound counts whatever its
+    status."""
+    rounds = 0
+    rel.milp_raised = 0
+    while rounds < max_rounds:
+        if clock.limit is not None and clock.elapsed() >= clock.limit:
+            clock.stopped = True
             break
-        # Each MILP is held to a node limit: its root bound comes early, and proving
-        # optimality can take far longer than it adds. Its proven bound counts whatever
-        # its status.
-        out, b = rel.solve(True, mip_gap, left(), solver, node_limit=node_limit)
-        milp_rounds += 1
-        stopped = stopped or out.status is SolveStatus.TIME_LIMIT
-        progress(None, f"MILP round {milp_rounds}: {b:.8g} ({out.status}), {rel.n_cuts} cuts, "
-            f"{elapsed():.1f} s")
+        out, b = rel.solve(True, mip_gap, clock.left(), solver, node_limit=node_limit)
+        rounds += 1
+        clock.stopped = clock.stopped or out.status is SolveStatus.TIME_LIMIT
+        progress(None, f"MILP round {rounds}: {b:.8g} ({out.status}), {rel.n_cuts} cuts, "
+                 f"{clock.elapsed():.1f} s")
         gain = b - best if np.isfinite(b) else 0.0
         if gain > 0:
             best = b
-            kind = f"loss-flow MILP ({rounds} LP and {milp_rounds} MILP rounds, {rel.n_cuts} cuts)"
+            rel.milp_raised = rounds
         if gain < _MILP_GAIN * abs(best) or not out.has_solution:
             # integrality adds little here, or there is no integer point to cut at
             break
         if rel.separate() == 0:
             break
-    if not np.isfinite(best):
-        return None
-    return Bound(float(max(best, 0.0)), kind, rounds=rounds + milp_rounds, cuts=rel.n_cuts,
-                 seconds=elapsed(), stopped_by_time=stopped)
+    return best, rounds
