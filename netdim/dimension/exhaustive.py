@@ -22,6 +22,7 @@ from __future__ import annotations
 import itertools
 import time
 from dataclasses import dataclass
+from enum import Enum
 
 import numpy as np
 
@@ -29,7 +30,8 @@ from netdim.dimension.choices import SizingChoices
 from netdim.errors import NetdimError
 from netdim.evaluate import evaluate
 
-__all__ = ["Enumeration", "least_cost_by_enumeration", "plans_by_cost", "listing_limit",
+__all__ = ["Enumeration", "ListingStatus", "least_cost_by_enumeration", "plans_by_cost",
+           "listing_limit",
            "MAX_PLANS", "MAX_EXACT_PLANS", "MAX_LINKS", "MAX_DROPPABLE"]
 
 #: Most plans listed (over every choice of unbuilt links) under the fixed point or the
@@ -44,13 +46,26 @@ MAX_DROPPABLE = 6
 _REL = 1e-9
 
 
+class ListingStatus(str, Enum):
+    """How listing the cheaper plans ended (``details.listing`` of a plan)."""
+
+    IMPROVED = "improved"
+    OPTIMAL = "optimal"
+    PARTIAL = "partial"
+    TOO_MANY = "too-many"
+    NOT_APPLICABLE = "not-applicable"
+
+    def __str__(self) -> str:
+        return str(self.value)
+
+
 @dataclass(frozen=True)
 class Enumeration:
     """What listing the cheaper plans found.
 
     Attributes
     ----------
-    status : str
+    status : ListingStatus
         ``'improved'`` (a cheaper plan meets every target: ``modules``, ``dropped``),
         ``'optimal'`` (every cheaper plan fails: the plan in hand is a least-cost plan),
         ``'partial'`` (stopped early by the safety deadline or an evaluation that failed:
@@ -71,7 +86,7 @@ class Enumeration:
         The safety deadline stopped the evaluations.
     """
 
-    status: str
+    status: ListingStatus
     bound: float
     modules: np.ndarray | None = None
     dropped: tuple = ()
@@ -195,14 +210,14 @@ def least_cost_by_enumeration(network, choices: SizingChoices, method, lo, hi,
     becomes its first choice); both are listed.
     """
     if not hi > lo:
-        return Enumeration("optimal", float(hi), cost=float(hi),
+        return Enumeration(ListingStatus.OPTIMAL, float(hi), cost=float(hi),
                            message="the bound already equals the cost")
     if choices.n_links > MAX_LINKS:
-        return Enumeration("not-applicable", float(lo), cost=float(hi),
+        return Enumeration(ListingStatus.NOT_APPLICABLE, float(lo), cost=float(hi),
                            message=f"more than {MAX_LINKS} links")
     droppable = [int(j) for j in np.flatnonzero(choices.droppable)]
     if len(droppable) > MAX_DROPPABLE:
-        return Enumeration("not-applicable", float(lo), cost=float(hi),
+        return Enumeration(ListingStatus.NOT_APPLICABLE, float(lo), cost=float(hi),
                            message=f"more than {MAX_DROPPABLE} links may be left unbuilt")
     listed = []  # (cost, order, dropped, k)
     variants = {}
@@ -215,7 +230,7 @@ def least_cost_by_enumeration(network, choices: SizingChoices, method, lo, hi,
             free[list(gone)] = False
             plans = plans_by_cost(choices, lo, hi, free, limit=limit - len(listed))
             if plans is None:
-                return Enumeration("too-many", float(lo), cost=float(hi),
+                return Enumeration(ListingStatus.TOO_MANY, float(lo), cost=float(hi),
                                    message=f"more than {limit} plans between {lo:g} and "
                                    f"{hi:g}")
             variants[gone] = net
@@ -224,22 +239,23 @@ def least_cost_by_enumeration(network, choices: SizingChoices, method, lo, hi,
     opts = {"start": "idle"} if method == "fixed-point" else {}
     for done, (cost, _, gone, k) in enumerate(listed):
         if deadline is not None and time.perf_counter() > deadline:
-            return Enumeration("partial", float(max(lo, cost)), cost=float(hi),
+            return Enumeration(ListingStatus.PARTIAL, float(max(lo, cost)), cost=float(hi),
                                plans=len(listed), evaluated=done, stopped_by_time=True,
                                message=f"the safety stop fired after {done} of "
                                f"{len(listed)} plans")
         try:
             ev = evaluate(variants[gone], choices.capacity(k), method=method, **opts)
         except NetdimError as exc:
-            return Enumeration("partial", float(max(lo, cost)), cost=float(hi),
+            return Enumeration(ListingStatus.PARTIAL, float(max(lo, cost)), cost=float(hi),
                                plans=len(listed), evaluated=done,
                                message=f"plan {done + 1} of {len(listed)} could not be "
                                f"evaluated ({exc})")
         if ev.all_met:
-            return Enumeration("improved", float(cost), modules=np.asarray(k), dropped=gone,
-                               cost=float(cost), plans=len(listed), evaluated=done + 1,
+            return Enumeration(ListingStatus.IMPROVED, float(cost), modules=np.asarray(k),
+                               dropped=gone, cost=float(cost), plans=len(listed),
+                               evaluated=done + 1,
                                message=f"a plan costing {cost:g} meets every target")
     what = (f"each of the {len(listed)} plans costing from {lo:g} to less than {hi:g} misses "
             "a target" if listed else f"no plan costs from {lo:g} to less than {hi:g}")
-    return Enumeration("optimal", float(hi), cost=float(hi), plans=len(listed),
+    return Enumeration(ListingStatus.OPTIMAL, float(hi), cost=float(hi), plans=len(listed),
                        evaluated=len(listed), message=what)

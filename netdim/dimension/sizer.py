@@ -171,7 +171,7 @@ def size_to_targets(network, options: SizingOptions, *, progress=None, t_start=N
             "dropped_by_search": list(dropped),
             "milp_cost": float(choices.cost(best.modules)),
             # the cheaper plans listed and evaluated (netdim.dimension.exhaustive)
-            "listing": "none" if listing is None else listing.status,
+            "listing": "none" if listing is None else str(listing.status),
             "listing_plans": 0 if listing is None else int(listing.plans),
             "listing_evaluated": 0 if listing is None else int(listing.evaluated),
         },
