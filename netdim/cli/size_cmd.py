@@ -44,8 +44,8 @@ def register(subparsers):
     p.add_argument("--json", action="store_true", help="print the plan as JSON")
     p.add_argument("--out", metavar="PLAN.yaml",
                    help="write the network file with the chosen capacities")
-    p.add_argument("--gap", type=float, default=1e-4, metavar="X",
-                   help="relative MILP gap (default 1e-4)")
+    p.add_argument("--gap", "--mip-gap", type=float, default=1e-4, metavar="X",
+                   help="relative gap each MILP is solved to (default 1e-4)")
     p.add_argument("--time-limit", type=float, default=None, metavar="S",
                    help="safety stop of each MILP, seconds (default none)")
     p.add_argument("--verify", action="store_true",
