@@ -42,7 +42,7 @@ MILP_NODES = 500
 MILP_LINKS = 100
 #: Work limit of the LP rounds, in link-rounds (links x rounds): a round's cut separation,
 #: which dominates its time, costs about one grid search per link.
-LP_WORK = 2000
+LP_WORK = 10_000
 #: Relative amount taken off every solver value (its feasibility / optimality tolerances).
 _LP_SLACK = 1e-6
 #: MILP rounds go on while each raises the bound by at least this (relative).
