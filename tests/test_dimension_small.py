@@ -131,7 +131,7 @@ def test_fixed_cost_link_dropped_only_when_it_does_not_pay(fixed, traffic):
 
 
 def test_fixed_cost_paid_once_and_not_for_installed_links():
-    # Rule (documented in netdim.dimension.space): a fixed cost is paid for a link built new,
+    # Rule (documented in netdim.dimension.choices): a fixed cost is paid for a link built new,
     # not for one with capacity already installed.
     net = fixed_cost_case(0.0, 6.0)
     links = list(net.links)

@@ -5,7 +5,7 @@ every integer plan in a box, each plan evaluated with the fixed-point model the 
 stated for (``netdim.evaluate.evaluate(method='fixed-point')``; a plan counts as feasible
 when either solution of a bistable network meets every target). The box is large enough to
 be sure of the least cost: every plan outside it costs more than the least cost found.
-The offsets of the cutting planes are checked in tests/test_losscuts.py.
+The offsets of the cutting planes are checked in tests/test_loss_cuts.py.
 """
 
 from __future__ import annotations

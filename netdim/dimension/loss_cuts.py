@@ -3,7 +3,7 @@
 A cut ``loss >= alpha + beta nu + gamma c`` (slope ``beta >= 0`` in the offered load nu,
 ``gamma <= 0`` in the capacity c) is valid for a loss function ``phi_c(nu) >= 0`` when it lies
 below ``phi_c`` for every load in ``[0, V]`` and every capacity the plan may take
-(installed + module x k, ``0 <= k <= kmax``). The slopes may be anything; the offset alpha is
+(installed + module x k, ``0 <= k <= max_modules``). The slopes may be anything; the offset alpha is
 computed here so that the inequality holds, by bounding ``phi_c(nu) - beta nu`` from below on a
 grid of load cells at each capacity in turn. Two loss functions are covered: the Erlang loss
 rate ``Lambda(nu, s) = nu E(nu, s)`` (convex in nu: tangents at the ends of a cell bound it)
@@ -125,7 +125,7 @@ def erlang_cut_offsets(beta, gamma, vmax, installed, module, max_modules, shift,
     ``Lambda(nu, s) = nu E(nu, s)`` is the loss rate of an Erlang loss system of s servers
     offered nu erlangs and ``s(c) = max(c - shift, 0)``. The inequality holds for every
     ``nu`` in ``[0, vmax]`` and every allowed capacity ``c = inst + mod k``,
-    ``0 <= k <= kmax``, one plane per entry of the arrays.
+    ``0 <= k <= max_modules``, one plane per entry of the arrays.
 
     Parameters
     ----------

@@ -51,13 +51,13 @@ def check_values(network) -> None:
                          "(per erlang carried), or size for cost")
 
 
-def objective(network, space, ev, k) -> float:
+def objective(network, choices, ev, k) -> float:
     """Value carried minus cost (demands without a value count for nothing)."""
     value = np.array([0.0 if d.value is None else float(d.value) for d in network.demands])
-    return float(np.sum(value * ev.carried)) - space.cost(k)
+    return float(np.sum(value * ev.carried)) - choices.cost(k)
 
 
-def objective_bound(network, space, model="fixed-point", solver="highs", mip_gap=1e-6,
+def objective_bound(network, choices, model="fixed-point", solver="highs", mip_gap=1e-6,
                     time_limit=None):
     """An upper bound on value carried minus cost over every integer plan.
 
@@ -88,7 +88,7 @@ def objective_bound(network, space, model="fixed-point", solver="highs", mip_gap
     """
     import pulp  # about 0.25 s to import: only sizing needs it
 
-    nl = space.n_links
+    nl = choices.n_links
     alt = network.routing.policy == "alternate"
     curve = model in ("fixed-point", "conservative") and not network.is_multirate
     prob = pulp.LpProblem("economic_bound", pulp.LpMinimize)
@@ -108,17 +108,17 @@ def objective_bound(network, space, model="fixed-point", solver="highs", mip_gap
     for j in range(nl):
         if not usage[j]:
             continue
-        inst, mod = int(space.installed[j]), int(space.module[j])
-        kmax = int(space.max_modules[j])
+        inst, mod = int(choices.installed[j]), int(choices.module[j])
+        kmax = int(choices.max_modules[j])
         k = prob.add_variable(f"k{j}", lowBound=0, upBound=kmax, cat=pulp.LpInteger)
         h = prob.add_variable(f"h{j}", lowBound=0)
         prob += pulp.LpAffineExpression(usage[j]) <= h
         prob += pulp.LpAffineExpression([(h, 1.0), (k, -float(mod))]) <= float(inst)
-        cost_terms.append((k, float(space.cost_per_module[j])))
-        if space.fixed_cost[j] > 0 and inst == 0:
+        cost_terms.append((k, float(choices.cost_per_module[j])))
+        if choices.fixed_cost[j] > 0 and inst == 0:
             z = prob.add_variable(f"z{j}", cat=pulp.LpBinary)
             prob += pulp.LpAffineExpression([(k, 1.0), (z, -float(kmax))]) <= 0
-            cost_terms.append((z, float(space.fixed_cost[j])))
+            cost_terms.append((z, float(choices.fixed_cost[j])))
         a = unthinned[j]
         if curve and a > 0:
             prob += h <= float(a)
@@ -158,8 +158,7 @@ def size_for_net_value(network, choices: SizingChoices, *, model="fixed-point",
     check_values(network)
     t_start = time.perf_counter() if t_start is None else t_start
     progress = progress or silent
-    space = choices
-    nl = space.n_links
+    nl = choices.n_links
     loads = first_route_loads(network)
     vsum = np.zeros(nl)
     wsum = np.zeros(nl)
@@ -174,19 +173,19 @@ def size_for_net_value(network, choices: SizingChoices, *, model="fixed-point",
     used = np.flatnonzero((loads > 0) & (wsum > 0))
     if len(used):
         v = vsum[used] / wsum[used]
-        per_circuit = space.cost_per_module[used] / space.module[used]
+        per_circuit = choices.cost_per_module[used] / choices.module[used]
         n = np.zeros(nl, np.int64)
         n[used] = np.asarray(moe_servers(loads[used], per_circuit, v), dtype=np.int64)
         k = np.where(np.isin(np.arange(nl), used),
-                     np.minimum(space.modules_for(n), space.max_modules), 0)
-    evaluator = CachedEvaluator(network, space, evaluation_method(model))
-    best = objective(network, space, evaluator(k), k)
+                     np.minimum(choices.modules_for(n), choices.max_modules), 0)
+    evaluator = CachedEvaluator(network, choices, evaluation_method(model))
+    best = objective(network, choices, evaluator(k), k)
     progress(None, f"net value: Moe start, {best:g}")
 
     def moves():
         # One module up or down on a link; then, on small networks, on two links at once
         # (the objective couples links through thinning, so single steps can stall).
-        for j in np.argsort(-space.cost_per_module, kind="stable"):
+        for j in np.argsort(-choices.cost_per_module, kind="stable"):
             for step in (+1, -1):
                 yield ((j, step),)
         if nl <= 30:
@@ -202,9 +201,9 @@ def size_for_net_value(network, choices: SizingChoices, *, model="fixed-point",
             trial = k.copy()
             for j, step in move:
                 trial[j] += step
-            if np.any(trial < 0) or np.any(trial > space.max_modules):
+            if np.any(trial < 0) or np.any(trial > choices.max_modules):
                 continue
-            val = objective(network, space, evaluator(trial), trial)
+            val = objective(network, choices, evaluator(trial), trial)
             if val > best + 1e-9:
                 k, best, improved = trial, val, True
                 break
@@ -212,14 +211,14 @@ def size_for_net_value(network, choices: SizingChoices, *, model="fixed-point",
                 break
     progress(None, f"net value: local search done, {best:g}, {evaluator.calls} evaluations")
     ev = evaluator(k)
-    ub, kind = objective_bound(network, space, model=model, solver=solver)
+    ub, kind = objective_bound(network, choices, model=model, solver=solver)
     ub = max(ub, best)
     gap = (ub - best) / abs(ub) if np.isfinite(ub) and abs(ub) > 1e-12 else (
         0.0 if np.isfinite(ub) else 1.0)
     if base is None:
-        base = Baseline(space.capacity(k), space.cost(k))
+        base = Baseline(choices.capacity(k), choices.cost(k))
     return make_plan(
-        network, network, space, k, ev, lower_bound=0.0, gap=gap,
+        network, network, choices, k, ev, lower_bound=0.0, gap=gap,
         status=PlanStatus.ECONOMIC,
         message=(f"sized for net value: value carried minus cost {best:g} under the {model} "
                  f"model, upper bound {ub:g} ({kind}), gap {100 * gap:.2f}%; blocking "
