@@ -297,6 +297,36 @@ class Network:
         demands = tuple(replace(d, traffic=d.traffic * factor) for d in self.demands)
         return replace(self, demands=demands)
 
+    def usable_links(self) -> np.ndarray:
+        """Per link (bool array), whether a route the routing policy uses crosses it: every
+        route under alternate routing, the first one under fixed routing."""
+        alt = self.routing.policy == "alternate"
+        used = np.zeros(len(self.links), bool)
+        for d in self.demands:
+            for r in (d.routes if alt else d.routes[:1]):
+                used[list(r.links)] = True
+        return used
+
+    def without_links(self, ids) -> Network | None:
+        """A copy with every route over a link in ``ids`` (link ids) taken away, as when
+        those links are not built; None when some demand would be left with no route.
+
+        Raises
+        ------
+        KeyError
+            A link id that is not defined.
+        """
+        gone = {self.link_index(i) for i in ids}
+        if not gone:
+            return self
+        demands = []
+        for d in self.demands:
+            routes = tuple(r for r in d.routes if not gone & set(r.links))
+            if not routes:
+                return None
+            demands.append(replace(d, routes=routes))
+        return replace(self, demands=tuple(demands))
+
     def to_graph(self):
         """The sites and links as a :class:`networkx.MultiGraph`.
 

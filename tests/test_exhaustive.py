@@ -23,9 +23,8 @@ from test_dimension_small import (  # tests/ is on sys.path under pytest
     triangle,
 )
 
-from netdim.dimension import dimension
+from netdim.dimension import SizingChoices, dimension
 from netdim.dimension import exhaustive as ex
-from netdim.dimension.space import LinkSpace
 from netdim.evaluate import evaluate
 from netdim.model import Demand, Link, Network, Route, Routing, Site
 
@@ -35,7 +34,7 @@ def R(*links):
 
 
 def cost_of(links, caps):
-    """Cost by the rules of netdim.dimension.space, written out: added modules times their
+    """Cost by the rules of netdim.dimension.choices, written out: added modules times their
     price, plus the fixed cost of a link built new."""
     total = 0.0
     for link, c in zip(links, caps, strict=True):
@@ -51,7 +50,7 @@ def test_plans_by_cost_lists_every_plan_in_the_window_cheapest_first():
              Link("b", ("A", "B"), cost_per_module=2.0, module=2, installed=1, max_capacity=9),
              Link("c", ("A", "B"), cost_per_module=5.0, max_capacity=4)]
     net = Network("w", (Site("A"), Site("B")), tuple(links), ())
-    space = LinkSpace.of(net)
+    space = SizingChoices.from_network(net)
     lo, hi = 9.0, 20.0
     want = []
     for ks in itertools.product(range(7), range(5), range(5)):
@@ -81,7 +80,7 @@ def test_triangle_least_cost_from_a_dear_start_equals_exhaustive_search():
                                                    TRIANGLE_TARGETS, strict=True)):
             best = c
     net = triangle()
-    space = LinkSpace.of(net)
+    space = SizingChoices.from_network(net)
     found = ex.least_cost_by_enumeration(net, space, "fixed-point", lo=best - 4, hi=best + 3)
     assert found.status == "improved"
     assert found.cost == pytest.approx(best) and found.bound == pytest.approx(best)
@@ -95,11 +94,12 @@ def test_triangle_least_cost_from_a_dear_start_equals_exhaustive_search():
 
 def test_stopped_early_the_bound_is_the_next_plan_and_never_above_the_least_cost():
     net = triangle()
-    space = LinkSpace.of(net)
+    space = SizingChoices.from_network(net)
     past = time.perf_counter() - 1.0
     found = ex.least_cost_by_enumeration(net, space, "fixed-point", lo=40.0, hi=60.0,
                                          deadline=past)
-    assert found.status == "partial" and found.evaluated == 0
+    assert found.status == "partial" and found.evaluated == 0 and found.stopped_by_time
+    assert "the safety stop fired after 0 of" in found.message
     first = ex.plans_by_cost(space, 40.0, 60.0, np.ones(3, bool))[0][0]
     assert found.bound == pytest.approx(max(40.0, first))
     tight = ex.least_cost_by_enumeration(net, space, "fixed-point", lo=40.0, hi=60.0, limit=5)
@@ -109,7 +109,8 @@ def test_stopped_early_the_bound_is_the_next_plan_and_never_above_the_least_cost
 def test_not_applicable_on_many_links(monkeypatch):
     net = triangle()
     monkeypatch.setattr(ex, "MAX_LINKS", 2)
-    found = ex.least_cost_by_enumeration(net, LinkSpace.of(net), "fixed-point", 1.0, 50.0)
+    found = ex.least_cost_by_enumeration(net, SizingChoices.from_network(net), "fixed-point",
+                                         1.0, 50.0)
     assert found.status == "not-applicable" and "more than 2 links" in found.message
     assert found.bound == 1.0
 
@@ -124,9 +125,9 @@ def test_a_link_left_unbuilt_takes_its_routes_away():
                Demand("e", ("A", "B"), 5.0, routes=(R(1),)))
     net = Network("xy", (Site("A"), Site("B")), links, demands,
                   routing=Routing(policy="alternate", reservation=3))
-    dropped = ex.without_links(net, [0])
+    dropped = net.without_links(["X"])
     assert [len(d.routes) for d in dropped.demands] == [1, 1]
-    assert ex.without_links(net, [1]) is None  # e would have no route
+    assert net.without_links(["Y"]) is None  # e would have no route
     best = np.inf
     for x, y in itertools.product(range(3), range(41)):
         c = cost_of(links, (x, y))
@@ -134,10 +135,11 @@ def test_a_link_left_unbuilt_takes_its_routes_away():
         if c < best and any(evaluate(v, np.array([x, y])).all_met for v in variants):
             best = c
     assert best == 18.0
-    found = ex.least_cost_by_enumeration(net, LinkSpace.of(net), "fixed-point", 0.0, 25.0)
+    found = ex.least_cost_by_enumeration(net, SizingChoices.from_network(net), "fixed-point",
+                                         0.0, 25.0)
     assert found.status == "improved" and found.cost == pytest.approx(best)
     assert found.dropped == (0,)
-    plan = dimension(net, bound_time=600)
+    plan = dimension(net)
     assert plan.cost == pytest.approx(best) and plan.lower_bound == pytest.approx(best)
     assert plan.status == "optimal-within-gap" and plan.dropped_links == ("X",)
 
@@ -145,7 +147,7 @@ def test_a_link_left_unbuilt_takes_its_routes_away():
 def test_sizer_reports_the_listing():
     # under the exact model the bound before the listing is the weak LP one
     net = overflow_triangle()
-    plan = dimension(net, model="exact", bound_time=600)
+    plan = dimension(net, model="exact")
     assert plan.details["listing"] in ("optimal", "improved")
     assert plan.details["listing_evaluated"] >= 1
     assert plan.lower_bound == pytest.approx(plan.cost)
@@ -160,7 +162,8 @@ def test_not_applicable_with_many_links_that_may_be_left_unbuilt(monkeypatch):
                   (Demand("d", ("A", "B"), 5.0, routes=(R(0), R(1))),),
                   routing=Routing(policy="alternate", reservation=3))
     monkeypatch.setattr(ex, "MAX_DROPPABLE", 1)
-    found = ex.least_cost_by_enumeration(net, LinkSpace.of(net), "fixed-point", 5.0, 30.0)
+    found = ex.least_cost_by_enumeration(net, SizingChoices.from_network(net), "fixed-point",
+                                         5.0, 30.0)
     assert found.status == "not-applicable"
     assert "more than 1 links may be left unbuilt" in found.message
 
@@ -169,7 +172,7 @@ def test_a_plan_that_cannot_be_evaluated_stops_the_listing_with_a_valid_bound(mo
     from netdim.errors import ConvergenceError
 
     net = triangle()
-    space = LinkSpace.of(net)
+    space = SizingChoices.from_network(net)
     plans = ex.plans_by_cost(space, 40.0, 60.0, np.ones(3, bool))
     calls = []
 
@@ -179,9 +182,7 @@ def test_a_plan_that_cannot_be_evaluated_stops_the_listing_with_a_valid_bound(mo
             raise ConvergenceError("did not converge", iterations=1, residual=1.0)
         return evaluate(*args, **kwargs)
 
-    import sys
-
-    monkeypatch.setattr(sys.modules["netdim.evaluate"], "evaluate", failing)
+    monkeypatch.setattr(ex, "evaluate", failing)
     found = ex.least_cost_by_enumeration(net, space, "fixed-point", 40.0, 60.0)
     assert found.status == "partial" and found.evaluated == 2
     assert "could not be evaluated (did not converge)" in found.message

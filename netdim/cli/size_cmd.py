@@ -5,6 +5,20 @@ from __future__ import annotations
 import json
 import sys
 
+from netdim.dimension import (
+    DEFAULT_BOUND_TIME,
+    DEFAULT_MARGIN,
+    DEFAULT_VERIFY_CALLS,
+    MODELS,
+    OBJECTIVES,
+    SOLVERS,
+    SizingOptions,
+    VerifyOptions,
+    dimension,
+)
+from netdim.netfile import check_plan_path, read_network, write_plan
+from netdim.report.plan import format_plan
+
 __all__ = ["register", "run"]
 
 
@@ -13,75 +27,94 @@ def register(subparsers):
         "size",
         help="least-cost integer capacities meeting every demand's blocking target",
         description="Choose integer capacities (in modules) for every link so that every "
-        "demand meets its blocking target at least cost. Exit 0 when every target is met, 1 "
-        "when some cannot be (naming them), 2 on bad input.",
+        "demand meets its blocking target at least cost. Exit 0 when every target is met "
+        "(with --verify: and none is missed in simulation; unclear ones are named), 1 when "
+        "some is not (naming them), 2 on bad input or work refused over a stated limit, 3 "
+        "when an evaluation does not converge.",
     )
     p.add_argument("file", metavar="FILE", help="network file (YAML)")
-    p.add_argument("--model", choices=("fixed-point", "conservative", "exact"),
-                   default="fixed-point",
+    p.add_argument("--model", choices=MODELS, default="fixed-point",
                    help="what the plan must satisfy (exact: small networks only)")
-    p.add_argument("--solver", choices=("highs", "cbc"), default="highs",
-                   help="MILP solver (default highs)")
+    p.add_argument("--solver", choices=SOLVERS, default="highs",
+                   help="solver of every MILP and LP (default highs)")
+    p.add_argument("--objective", choices=OBJECTIVES, default="cost",
+                   help="cost: least cost meeting every target (default); net-value: most "
+                   "value carried minus cost (every demand needs a value; targets are not "
+                   "enforced)")
     p.add_argument("--json", action="store_true", help="print the plan as JSON")
     p.add_argument("--out", metavar="PLAN.yaml",
                    help="write the plan: the network file as written, with only the "
                    "capacities changed (refused when PLAN.yaml is FILE itself, unless --force)")
     p.add_argument("--force", action="store_true",
                    help="let --out replace the input FILE with the plan")
-    p.add_argument("--gap", type=float, default=1e-4, metavar="X",
-                   help="relative MILP gap (default 1e-4)")
+    p.add_argument("--gap", "--mip-gap", type=float, default=1e-4, metavar="X",
+                   help="relative gap each MILP is solved to (default 1e-4)")
     p.add_argument("--time-limit", type=float, default=None, metavar="S",
-                   help="seconds allowed to each MILP")
+                   help="safety stop of each MILP, seconds (default none)")
     p.add_argument("--verify", action="store_true",
                    help="check the plan by simulation and, where a demand misses its target "
                    "there, tighten its working target and size again")
     p.add_argument("--seed", type=int, default=0, metavar="N",
                    help="seed of the verification runs (default 0)")
     p.add_argument("--verify-calls", type=int, default=None, metavar="N",
-                   help="arrivals per verification run (default 1000000)")
+                   help=f"arrivals per verification run (default {DEFAULT_VERIFY_CALLS})")
     p.add_argument("--verify-rounds", type=int, default=8, metavar="N",
                    help="most calibration rounds after the first check (default 8; 0 checks "
                    "the plan without changing it)")
-    p.add_argument("--bound-time", type=float, default=20.0, metavar="S",
-                   help="seconds for each part of the lower bound: cutting planes under "
-                   "alternate routing, then evaluating the cheaper plans of a small network "
-                   "one by one (default 20; longer is tighter)")
+    p.add_argument("--margin", type=float, default=DEFAULT_MARGIN, metavar="X",
+                   help="with --verify: calibrate until every demand's simulated interval "
+                   "reaches below its target x (1 - X), so that few demands end unclear "
+                   f"(default {DEFAULT_MARGIN:g}; 0 calibrates to the targets themselves)")
+    p.add_argument("--bound-time", type=float, default=DEFAULT_BOUND_TIME, metavar="S",
+                   help="safety stop of the lower bound's work, seconds (default "
+                   f"{DEFAULT_BOUND_TIME:g}). The work is bounded by counts (cut rounds, "
+                   "solver nodes, plans listed), so the bound is the same on any machine; "
+                   "a warning says when this stop fires, and only then does more time "
+                   "give a tighter bound")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     p.set_defaults(func=run)
     return p
 
 
-def run(args) -> int:
-    from netdim.dimension import dimension
-    from netdim.netfile import check_plan_path, read_network, write_plan
-    from netdim.report.plan import format_plan
+#: Library argument names as the command line spells them, for error messages.
+_OPTION_NAMES = {"mip_gap": "--gap", "time_limit": "--time-limit", "bound_time": "--bound-time",
+                 "verify_calls": "--verify-calls", "verify_rounds": "--verify-rounds",
+                 "margin": "--margin"}
 
-    if not 0 <= args.gap < 1:
-        raise ValueError(f"--gap: must lie in [0, 1), got {args.gap!r}")
-    if args.time_limit is not None and not args.time_limit > 0:
-        raise ValueError(f"--time-limit: must be > 0 seconds, got {args.time_limit!r}")
-    if args.verify_calls is not None and args.verify_calls <= 0:
-        raise ValueError(f"--verify-calls: must be a positive integer, got {args.verify_calls}")
-    if not args.bound_time > 0:
-        raise ValueError(f"--bound-time: must be > 0 seconds, got {args.bound_time!r}")
-    if args.verify_rounds < 0:
-        raise ValueError(f"--verify-rounds: must be >= 0, got {args.verify_rounds}")
+
+def _options(args):
+    """The library's options from the arguments; its messages with the option's name."""
+    try:
+        verify = (VerifyOptions(calls=args.verify_calls, rounds=args.verify_rounds,
+                                seed=args.seed, margin=args.margin) if args.verify else None)
+        sizing = SizingOptions(model=args.model, solver=args.solver, mip_gap=args.gap,
+                               time_limit=args.time_limit, objective=args.objective,
+                               bound_time=args.bound_time)
+    except ValueError as exc:
+        text = str(exc)
+        name = text.split(":", 1)[0]
+        raise ValueError(_OPTION_NAMES.get(name, name) + text[len(name):]) from None
+    return sizing, verify
+
+
+def run(args) -> int:
+    sizing, verify = _options(args)
     if args.out:  # before any work: a plan that cannot be written is not worth sizing
         check_plan_path(args.file, args.out, args.force)
     network = read_network(args.file)
-    if not args.verify and network.routing.policy == "alternate" and not args.quiet:
+    if not args.verify and network.routing.policy == "alternate" and not args.quiet \
+            and sizing.objective == "cost":
         print("netdim size: note: under alternate routing the fixed point is optimistic; "
               "add --verify to check the plan by simulation and calibrate it",
               file=sys.stderr)
 
-    def progress(line):
-        print(f"netdim size: {line}", file=sys.stderr, flush=True)
+    def progress(fraction, message):
+        print(f"netdim size: {message}", file=sys.stderr, flush=True)
 
-    plan = dimension(network, model=args.model, solver=args.solver, mip_gap=args.gap,
-                     time_limit=args.time_limit, progress=None if args.quiet else progress,
-                     verify="simulate" if args.verify else None, seed=args.seed,
-                     verify_calls=args.verify_calls, verify_rounds=args.verify_rounds,
-                     bound_time=args.bound_time)
+    plan = dimension(network, model=sizing.model, solver=sizing.solver, mip_gap=sizing.mip_gap,
+                     time_limit=sizing.time_limit, objective=sizing.objective,
+                     bound_time=sizing.bound_time, verify=verify,
+                     progress=None if args.quiet else progress)
     if args.out:
         write_plan(network, args.out, plan.capacities, force=args.force)
     if args.json:
@@ -98,4 +131,8 @@ def run(args) -> int:
         names = ", ".join(plan.simulated_misses)
         print(f"netdim size: targets not met in simulation for {names}", file=sys.stderr)
         return 1
+    if plan.simulated_unclear:
+        names = ", ".join(plan.simulated_unclear)
+        print(f"netdim size: unclear in simulation (interval contains the target): {names}",
+              file=sys.stderr)
     return 0

@@ -13,28 +13,37 @@ from __future__ import annotations
 
 import numpy as np
 
-from netdim.dimension.space import LinkSpace, first_route_loads
+from netdim.dimension.choices import SizingChoices, first_route_loads
+from netdim.dimension.plan import Baseline
+from netdim.erlang import servers_for
+from netdim.linkmodels import kaufman_roberts
 
 __all__ = ["baseline"]
 
 
-def baseline(network, space: LinkSpace | None = None):
+def baseline(network, choices: SizingChoices | None = None) -> Baseline:
     """Capacities and cost of the per-link baseline.
 
     Parameters
     ----------
     network : Network
-    space : LinkSpace, optional
+    choices : SizingChoices, optional
 
     Returns
     -------
-    capacities : ndarray of int
-    cost : float
-    """
-    from netdim.erlang import servers_for
+    Baseline
 
-    space = LinkSpace.of(network) if space is None else space
-    nl = space.n_links
+    Examples
+    --------
+    >>> from netdim.model import Demand, Link, Network, Route, Site
+    >>> net = Network("one", (Site("A"), Site("B")), (Link("AB", ("A", "B")),),
+    ...               (Demand("AB", ("A", "B"), 10.0, routes=(Route((0,), (1.0,)),)),))
+    >>> b = baseline(net)
+    >>> int(b.capacities[0]), b.cost   # Erlang B(10, 18) = 0.0071 <= 1 % < B(10, 17)
+    (18, 18.0)
+    """
+    choices = SizingChoices.from_network(network) if choices is None else choices
+    nl = choices.n_links
     loads = first_route_loads(network)
     share = np.full(nl, np.inf)
     bw = np.zeros(nl, np.int64)
@@ -51,14 +60,12 @@ def baseline(network, space: LinkSpace | None = None):
         n = np.asarray(servers_for(loads[used], share[used]), dtype=np.int64)
         need[used] = np.maximum(n, bw[used])
     _multirate(network, share, need)
-    k = np.minimum(space.modules_for(need), space.kmax)
-    return space.capacity(k), space.cost(k)
+    k = np.minimum(choices.modules_for(need), choices.max_modules)
+    return Baseline(choices.capacity(k), choices.cost(k))
 
 
 def _multirate(network, share, need):
     """Raise ``need`` on multi-rate links until every class meets ``share`` (Kaufman-Roberts)."""
-    from netdim.linkmodels import kaufman_roberts
-
     classes: dict[int, dict[int, float]] = {}
     for d in network.demands:
         if not d.routes:

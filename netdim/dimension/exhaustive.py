@@ -9,29 +9,54 @@ cost of that next plan is a lower bound. Nothing here is an approximation: the f
 those of the evaluation itself.
 
 The plans are those the sizer can return (:func:`netdim.dimension.dimension`): added
-modules ``0..kmax`` per link, links no usable route needs left at 0, and for the links with
-a fixed cost and nothing installed, the choice of leaving them unbuilt with every route over
-them taken away (each subset of them: a network of its own).
+modules ``0..max_modules`` per link, links no usable route needs left at 0, and for the
+links with a fixed cost and nothing installed, the choice of leaving them unbuilt with every
+route over them taken away (each subset of them: a network of its own).
+
+The work is bounded by counts (plans listed, all of them evaluated), so the result does not
+depend on the machine; a deadline is only a safety stop, reported when it fires.
 """
 
 from __future__ import annotations
 
 import itertools
 import time
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
+from enum import Enum
 
 import numpy as np
 
-__all__ = ["Enumeration", "least_cost_by_enumeration", "plans_by_cost", "usable_links",
-           "without_links"]
+from netdim.dimension.choices import SizingChoices
+from netdim.errors import NetdimError
+from netdim.evaluate import evaluate
 
-#: Most plans listed (over every choice of unbuilt links).
+__all__ = ["Enumeration", "ListingStatus", "least_cost_by_enumeration", "plans_by_cost",
+           "listing_limit",
+           "MAX_PLANS", "MAX_EXACT_PLANS", "MAX_LINKS", "MAX_DROPPABLE"]
+
+#: Most plans listed (over every choice of unbuilt links) under the fixed point or the
+#: conservative model (each evaluation takes milliseconds on the networks listed).
 MAX_PLANS = 20_000
+#: Most plans listed under the exact model (each evaluation solves a Markov chain).
+MAX_EXACT_PLANS = 2_500
 #: Most links, and most links that may be left unbuilt, for which plans are listed.
 MAX_LINKS = 40
 MAX_DROPPABLE = 6
 #: Plans within this relative amount of ``hi`` count as costing ``hi`` (not cheaper).
 _REL = 1e-9
+
+
+class ListingStatus(str, Enum):
+    """How listing the cheaper plans ended (``details.listing`` of a plan)."""
+
+    IMPROVED = "improved"
+    OPTIMAL = "optimal"
+    PARTIAL = "partial"
+    TOO_MANY = "too-many"
+    NOT_APPLICABLE = "not-applicable"
+
+    def __str__(self) -> str:
+        return str(self.value)
 
 
 @dataclass(frozen=True)
@@ -40,11 +65,12 @@ class Enumeration:
 
     Attributes
     ----------
-    status : str
+    status : ListingStatus
         ``'improved'`` (a cheaper plan meets every target: ``modules``, ``dropped``),
         ``'optimal'`` (every cheaper plan fails: the plan in hand is a least-cost plan),
-        ``'partial'`` (stopped early: ``bound`` holds), ``'too-many'`` (more plans than
-        allowed; nothing evaluated) or ``'not-applicable'`` (the reason in ``message``).
+        ``'partial'`` (stopped early by the safety deadline or an evaluation that failed:
+        ``bound`` holds), ``'too-many'`` (more plans than allowed; nothing evaluated) or
+        ``'not-applicable'`` (the reason in ``message``).
     bound : float
         Every plan costing less fails (the least cost itself for 'improved' and 'optimal').
     modules : ndarray of int or None
@@ -56,9 +82,11 @@ class Enumeration:
     plans, evaluated : int
         Plans listed, and evaluated.
     message : str
+    stopped_by_time : bool
+        The safety deadline stopped the evaluations.
     """
 
-    status: str
+    status: ListingStatus
     bound: float
     modules: np.ndarray | None = None
     dropped: tuple = ()
@@ -66,31 +94,22 @@ class Enumeration:
     plans: int = 0
     evaluated: int = 0
     message: str = ""
+    stopped_by_time: bool = False
 
 
-def without_links(network, links):
-    """The network with every route over a link in ``links`` taken away (what the sizer does
-    to links it leaves unbuilt); None when a demand is left with no route."""
-    gone = set(links)
-    if not gone:
-        return network
-    demands = []
-    for d in network.demands:
-        routes = tuple(r for r in d.routes if not gone & set(r.links))
-        if not routes:
-            return None
-        demands.append(replace(d, routes=routes))
-    return replace(network, demands=tuple(demands))
+def listing_limit(method) -> int:
+    """Most plans listed under evaluation ``method``."""
+    return MAX_EXACT_PLANS if method == "exact" else MAX_PLANS
 
 
-def plans_by_cost(space, lo, hi, free, limit=MAX_PLANS, max_nodes=None):
+def plans_by_cost(choices: SizingChoices, lo, hi, free, limit=MAX_PLANS, max_nodes=None):
     """Every plan with ``lo <= cost < hi`` that adds modules only on the links in ``free``.
 
     Parameters
     ----------
-    space : LinkSpace
+    choices : SizingChoices
     lo, hi : float
-        The cost window (fixed costs included, as :meth:`LinkSpace.cost`).
+        The cost window (fixed costs included, as :meth:`SizingChoices.cost`).
     free : array_like of bool
         Links that may take modules; the others stay at 0 added modules.
     limit : int
@@ -107,12 +126,12 @@ def plans_by_cost(space, lo, hi, free, limit=MAX_PLANS, max_nodes=None):
     free = np.asarray(free, bool)
     idx = [int(j) for j in np.flatnonzero(free)]
     # dearest links first: fewer choices near the root of the search
-    idx.sort(key=lambda j: -float(space.cost_per_module[j]))
-    if any(space.cost_per_module[j] <= 0 for j in idx):
+    idx.sort(key=lambda j: -float(choices.cost_per_module[j]))
+    if any(choices.cost_per_module[j] <= 0 for j in idx):
         return None  # a free link of no cost has no end of plans
-    fixed = [float(space.fixed_cost[j]) if space.installed[j] == 0 else 0.0 for j in idx]
-    price = [float(space.cost_per_module[j]) for j in idx]
-    kmax = [int(space.kmax[j]) for j in idx]
+    fixed = [float(choices.fixed_cost[j]) if choices.installed[j] == 0 else 0.0 for j in idx]
+    price = [float(choices.cost_per_module[j]) for j in idx]
+    kmax = [int(choices.max_modules[j]) for j in idx]
     # the most the links from position i on can add: to give up on a branch below lo
     most = [0.0] * (len(idx) + 1)
     for i in range(len(idx) - 1, -1, -1):
@@ -147,33 +166,22 @@ def plans_by_cost(space, lo, hi, free, limit=MAX_PLANS, max_nodes=None):
         return None
     plans = []
     for ks in out:
-        full = np.zeros(space.n_links, np.int64)
+        full = np.zeros(choices.n_links, np.int64)
         full[idx] = ks
-        plans.append((float(space.cost(full)), full))
+        plans.append((float(choices.cost(full)), full))
     plans.sort(key=lambda p: p[0])
     return plans
 
 
-def usable_links(network):
-    """Per link, whether a route the routing policy uses crosses it (every route under
-    alternate routing, the first under fixed routing)."""
-    alt = network.routing.policy == "alternate"
-    used = np.zeros(len(network.links), bool)
-    for d in network.demands:
-        for r in (d.routes if alt else d.routes[:1]):
-            used[list(r.links)] = True
-    return used
-
-
-def least_cost_by_enumeration(network, space, method, lo, hi, limit=MAX_PLANS,
-                              deadline=None):
+def least_cost_by_enumeration(network, choices: SizingChoices, method, lo, hi,
+                              limit=MAX_PLANS, deadline=None):
     """Evaluate every plan costing between ``lo`` and ``hi``, cheapest first.
 
     Parameters
     ----------
     network : Network
         As read (before the sizer takes any link away).
-    space : LinkSpace
+    choices : SizingChoices
     method : {'fixed-point', 'conservative', 'exact'}
         The evaluation a plan must meet every target under (the sizer's model). Under the
         fixed point the solution from idle links decides, as in the sizer.
@@ -184,7 +192,8 @@ def least_cost_by_enumeration(network, space, method, lo, hi, limit=MAX_PLANS,
     limit : int
         Most plans to list; with more, nothing is evaluated (status 'too-many').
     deadline : float or None
-        ``time.perf_counter()`` value after which no further plan is evaluated.
+        ``time.perf_counter()`` value after which no further plan is evaluated (a safety
+        stop).
 
     Returns
     -------
@@ -200,32 +209,28 @@ def least_cost_by_enumeration(network, space, method, lo, hi, limit=MAX_PLANS,
     over them to the next route), or with their routes taken away (a demand's next route
     becomes its first choice); both are listed.
     """
-    from netdim.errors import NetdimError
-    from netdim.evaluate import evaluate
-
     if not hi > lo:
-        return Enumeration("optimal", float(hi), cost=float(hi),
+        return Enumeration(ListingStatus.OPTIMAL, float(hi), cost=float(hi),
                            message="the bound already equals the cost")
-    if space.n_links > MAX_LINKS:
-        return Enumeration("not-applicable", float(lo), cost=float(hi),
+    if choices.n_links > MAX_LINKS:
+        return Enumeration(ListingStatus.NOT_APPLICABLE, float(lo), cost=float(hi),
                            message=f"more than {MAX_LINKS} links")
-    droppable = [j for j in range(space.n_links)
-                 if space.fixed_cost[j] > 0 and space.installed[j] == 0]
+    droppable = [int(j) for j in np.flatnonzero(choices.droppable)]
     if len(droppable) > MAX_DROPPABLE:
-        return Enumeration("not-applicable", float(lo), cost=float(hi),
+        return Enumeration(ListingStatus.NOT_APPLICABLE, float(lo), cost=float(hi),
                            message=f"more than {MAX_DROPPABLE} links may be left unbuilt")
     listed = []  # (cost, order, dropped, k)
     variants = {}
     for n in range(len(droppable) + 1):
         for gone in itertools.combinations(droppable, n):
-            net = without_links(network, gone)
+            net = network.without_links([network.links[j].id for j in gone])
             if net is None:
                 continue  # a demand without a route cannot meet its target
-            free = usable_links(net) & (space.kmax > 0)
+            free = net.usable_links() & (choices.max_modules > 0)
             free[list(gone)] = False
-            plans = plans_by_cost(space, lo, hi, free, limit=limit - len(listed))
+            plans = plans_by_cost(choices, lo, hi, free, limit=limit - len(listed))
             if plans is None:
-                return Enumeration("too-many", float(lo), cost=float(hi),
+                return Enumeration(ListingStatus.TOO_MANY, float(lo), cost=float(hi),
                                    message=f"more than {limit} plans between {lo:g} and "
                                    f"{hi:g}")
             variants[gone] = net
@@ -234,21 +239,23 @@ def least_cost_by_enumeration(network, space, method, lo, hi, limit=MAX_PLANS,
     opts = {"start": "idle"} if method == "fixed-point" else {}
     for done, (cost, _, gone, k) in enumerate(listed):
         if deadline is not None and time.perf_counter() > deadline:
-            return Enumeration("partial", float(max(lo, cost)), cost=float(hi),
-                               plans=len(listed), evaluated=done,
-                               message=f"time ran out after {done} of {len(listed)} plans")
+            return Enumeration(ListingStatus.PARTIAL, float(max(lo, cost)), cost=float(hi),
+                               plans=len(listed), evaluated=done, stopped_by_time=True,
+                               message=f"the safety stop fired after {done} of "
+                               f"{len(listed)} plans")
         try:
-            ev = evaluate(variants[gone], space.capacity(k), method=method, **opts)
+            ev = evaluate(variants[gone], choices.capacity(k), method=method, **opts)
         except NetdimError as exc:
-            return Enumeration("partial", float(max(lo, cost)), cost=float(hi),
+            return Enumeration(ListingStatus.PARTIAL, float(max(lo, cost)), cost=float(hi),
                                plans=len(listed), evaluated=done,
                                message=f"plan {done + 1} of {len(listed)} could not be "
                                f"evaluated ({exc})")
         if ev.all_met:
-            return Enumeration("improved", float(cost), modules=np.asarray(k), dropped=gone,
-                               cost=float(cost), plans=len(listed), evaluated=done + 1,
+            return Enumeration(ListingStatus.IMPROVED, float(cost), modules=np.asarray(k),
+                               dropped=gone, cost=float(cost), plans=len(listed),
+                               evaluated=done + 1,
                                message=f"a plan costing {cost:g} meets every target")
     what = (f"each of the {len(listed)} plans costing from {lo:g} to less than {hi:g} misses "
             "a target" if listed else f"no plan costs from {lo:g} to less than {hi:g}")
-    return Enumeration("optimal", float(hi), cost=float(hi), plans=len(listed),
+    return Enumeration(ListingStatus.OPTIMAL, float(hi), cost=float(hi), plans=len(listed),
                        evaluated=len(listed), message=what)

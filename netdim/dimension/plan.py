@@ -1,24 +1,71 @@
-"""The result of sizing a network: :class:`Plan`."""
+"""The results of sizing: :class:`Plan`, and the :class:`Bound` and :class:`Baseline` it
+is compared with."""
 
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
 
-__all__ = ["Plan", "STATUSES"]
+from netdim._arrays import frozen as _frozen
+from netdim.vocabulary import PlanStatus, Verdict
 
-#: Plan statuses. ``optimal-within-gap``: every target met and the cost within ``mip_gap`` of
-#: the lower bound; ``feasible``: every target met, gap larger; ``infeasible``: some target
-#: cannot be met within the bounds (the plan is the best one found); ``economic``: sized for
-#: value carried minus cost, no target enforced.
-STATUSES = ("optimal-within-gap", "feasible", "infeasible", "economic")
+if TYPE_CHECKING:
+    from netdim.dimension.choices import SizingChoices
+    from netdim.evaluate import Evaluation
+    from netdim.model import Network
+
+__all__ = ["Plan", "Bound", "Baseline", "STATUSES", "OBJECTIVES", "make_plan"]
+
+#: Plan statuses (see :class:`netdim.vocabulary.PlanStatus`).
+STATUSES = tuple(s.value for s in PlanStatus)
+#: What a plan is sized for: ``'cost'``, the least cost meeting every target, or
+#: ``'net-value'``, the most value carried minus cost (every demand has a ``value``).
+OBJECTIVES = ("cost", "net-value")
 
 
-def _frozen(a, dtype):
-    a = np.array(a, dtype=dtype)
-    a.setflags(write=False)
-    return a
+@dataclass(frozen=True)
+class Bound:
+    """A proven lower bound on the least cost of any plan meeting every target.
+
+    Attributes
+    ----------
+    value : float
+    kind : str
+        How it was found, e.g. ``'MILP at least thinned loads A(1 - t)'``.
+    rounds : int
+        Rounds of cuts or solves it took (0 when not counted).
+    cuts : int
+    seconds : float
+    stopped_by_time : bool
+        The time safety stop cut its work short, so the value depends on the machine.
+    """
+
+    value: float
+    kind: str
+    rounds: int = 0
+    cuts: int = 0
+    seconds: float = 0.0
+    stopped_by_time: bool = False
+
+
+@dataclass(frozen=True)
+class Baseline:
+    """The per-link baseline a plan is compared with: each link sized alone.
+
+    Attributes
+    ----------
+    capacities : ndarray of int
+    cost : float
+    """
+
+    capacities: np.ndarray
+    cost: float
+
+    def __post_init__(self):
+        object.__setattr__(self, "capacities", _frozen(self.capacities, np.int64))
+        object.__setattr__(self, "cost", float(self.cost))
 
 
 @dataclass(frozen=True)
@@ -37,15 +84,16 @@ class Plan:
     cost : float
         Total cost.
     lower_bound : float
-        A lower bound on the least cost of any plan meeting every target under ``model``.
+        A lower bound on the least cost of any plan meeting every target under ``model``
+        (0 when ``objective`` is ``'net-value'``: no target is enforced).
     gap : float
-        ``(cost - lower_bound) / cost`` (0 when the cost is 0).
-    status : str
-        One of :data:`STATUSES`.
+        ``(cost - lower_bound) / cost`` (0 when the cost is 0); for ``'net-value'``, the
+        net value's gap to its upper bound.
+    status : PlanStatus
     message : str
         What happened; for an infeasible plan, which demands cannot be met and why.
     evaluation : Evaluation
-        The plan evaluated under ``model``.
+        The plan evaluated under ``model``, against the original targets.
     iterations : int
         Outer iterations (MILP then re-evaluation of the loads).
     solver : str
@@ -58,17 +106,15 @@ class Plan:
     model : str
         ``'fixed-point'``, ``'conservative'`` or ``'exact'``.
     network : Network or None
-        The network the plan is for, with routes over dropped links removed (what
-        :func:`netdim.netfile.write_network` should write).
+        The network the plan is for, with routes over dropped links removed.
     details : dict
-        Extra figures (MILP times, polish moves, objective in economic mode; with
-        verification: ``verify_calls``, ``verify_seed``, ``verify_rounds``,
-        ``unverified_cost``, ``working_targets``, ...).
+        Extra figures (MILP times, the bound's kind, the listing; with verification
+        ``verify_calls``, ``verify_seed``, ``verify_margin``, ``working_targets``, ...).
     verification : Evaluation or None
-        The plan simulated (``dimension(verify='simulate')``), against the original
-        targets; None when not verified.
+        The plan simulated (``dimension(verify=...)``), against the original targets.
     warnings : tuple of str
-        E.g. the demands that still miss their target in simulation.
+    objective : str
+        One of :data:`OBJECTIVES`.
     """
 
     capacities: np.ndarray
@@ -77,9 +123,9 @@ class Plan:
     cost: float
     lower_bound: float
     gap: float
-    status: str
+    status: PlanStatus
     message: str
-    evaluation: object
+    evaluation: Evaluation
     iterations: int
     solver: str
     seconds: float
@@ -87,21 +133,11 @@ class Plan:
     baseline_capacities: np.ndarray
     dropped_links: tuple = ()
     model: str = "fixed-point"
-    network: object = field(default=None, repr=False, compare=False)
+    network: Network | None = field(default=None, repr=False, compare=False)
     details: dict = field(default_factory=dict, compare=False)
-    verification: object = field(default=None, repr=False, compare=False)
+    verification: Evaluation | None = field(default=None, repr=False, compare=False)
     warnings: tuple = ()
-
-    @property
-    def simulated_misses(self):
-        """Demands whose whole simulated confidence interval lies above the target."""
-        if self.verification is None:
-            return ()
-        from netdim.dimension.verify import judge
-
-        verdict = judge(self.verification)
-        return tuple(d for d, v in zip(self.verification.demand_ids, verdict, strict=True)
-                     if v == "missed")
+    objective: str = "cost"
 
     def __post_init__(self):
         object.__setattr__(self, "capacities", _frozen(self.capacities, np.int64))
@@ -110,13 +146,24 @@ class Plan:
         object.__setattr__(
             self, "baseline_capacities", _frozen(self.baseline_capacities, np.int64)
         )
+        object.__setattr__(self, "status", PlanStatus(self.status))
         object.__setattr__(self, "dropped_links", tuple(self.dropped_links))
         object.__setattr__(self, "warnings", tuple(self.warnings))
 
     @property
     def feasible(self) -> bool:
-        """Every demand meets its target under the plan's model."""
-        return self.status != "infeasible"
+        """Every demand meets its target under the plan's model (always, for net value)."""
+        return self.status != PlanStatus.INFEASIBLE
+
+    @property
+    def simulated_misses(self) -> tuple:
+        """Demands whose whole simulated confidence interval lies above the target."""
+        return () if self.verification is None else self.verification.missed
+
+    @property
+    def simulated_unclear(self) -> tuple:
+        """Demands whose simulated confidence interval contains the target."""
+        return () if self.verification is None else self.verification.unclear
 
     @property
     def saving(self) -> float:
@@ -124,6 +171,11 @@ class Plan:
         if self.baseline_cost <= 0:
             return 0.0
         return (self.baseline_cost - self.cost) / self.baseline_cost
+
+    @property
+    def saving_fraction(self) -> float:
+        """The same as :attr:`saving`: a fraction (0.25 is 25 %)."""
+        return self.saving
 
     def to_dict(self) -> dict:
         """The JSON form (the ``--json`` contract: keys are added, never renamed)."""
@@ -141,31 +193,21 @@ class Plan:
             }
             for j, lid in enumerate(link_ids)
         ]
-        demands = []
-        if ev is not None:
-            demands = [
-                {
-                    "id": did,
-                    "blocking": float(ev.blocking[i]),
-                    "target": float(ev.target[i]),
-                    "met": bool(ev.met[i]),
-                    "offered": float(ev.offered[i]),
-                }
-                for i, did in enumerate(ev.demand_ids)
-            ]
-        return {
+        out = {
             "cost": float(self.cost),
             "lower_bound": float(self.lower_bound),
             "gap": float(self.gap),
             "links": links,
-            "demands": demands,
-            "status": self.status,
+            "demands": ev.demand_records() if ev is not None else [],
+            "status": str(self.status),
             "baseline_cost": float(self.baseline_cost),
             "saving": float(self.saving),
+            "saving_fraction": float(self.saving_fraction),
             "iterations": int(self.iterations),
             "solver": self.solver,
             "seconds": float(self.seconds),
             "model": self.model,
+            "objective": self.objective,
             "dropped_links": list(self.dropped_links),
             "message": self.message,
             "warnings": list(self.warnings),
@@ -176,20 +218,18 @@ class Plan:
                 if isinstance(v, (int, float, str, bool, list, type(None)))
             },
         }
+        return out
 
 
 def _verification_dict(ev):
     """``{'method', 'calls', 'confidence', 'all_met', 'demands': [{'id', 'blocking',
     'interval', 'target', 'met', 'judged'}]}``, or None when the plan was not verified.
 
-    ``met`` compares the point estimate with the target; ``judged`` is ``'met'``,
-    ``'missed'`` (the whole interval above the target) or ``'unclear'``
-    (:func:`netdim.dimension.verify.judge`)."""
+    ``judged`` is ``'met'`` (the whole interval at or below the target), ``'missed'`` (the
+    whole interval above it) or ``'unclear'``; ``met`` is ``judged == 'met'``."""
     if ev is None:
         return None
-    from netdim.dimension.verify import judge
-
-    verdict = judge(ev)
+    verdict = ev.verdicts()
     iv = ev.blocking_interval
     return {
         "method": ev.method,
@@ -202,9 +242,49 @@ def _verification_dict(ev):
                 "blocking": float(ev.blocking[i]),
                 "interval": None if iv is None else [float(iv[i, 0]), float(iv[i, 1])],
                 "target": float(ev.target[i]),
-                "met": bool(ev.met[i]),
+                "met": bool(verdict[i] == Verdict.MET.value),
                 "judged": str(verdict[i]),
             }
             for i, did in enumerate(ev.demand_ids)
         ],
     }
+
+
+def make_plan(network: Network, net: Network, choices: SizingChoices, modules,
+              evaluation: Evaluation, *, lower_bound, status, message, iterations, solver,
+              seconds, baseline: Baseline, model, details=None, warnings=(),
+              objective="cost", gap=None, verification=None) -> Plan:
+    """The one place a :class:`Plan` is put together from a module vector.
+
+    ``network`` is the network as given (for the ids of links left unbuilt), ``net`` the
+    one the plan is for (routes over dropped links taken away).
+    """
+    caps = choices.capacity(modules)
+    cost = choices.cost(modules)
+    if gap is None:
+        gap = (cost - lower_bound) / cost if cost > 0 else 0.0
+    dropped = tuple(link.id for j, link in enumerate(network.links)
+                    if caps[j] == 0 and link.installed == 0)
+    return Plan(
+        capacities=caps,
+        modules=modules,
+        link_costs=choices.link_costs(modules),
+        cost=cost,
+        lower_bound=float(lower_bound),
+        gap=float(gap),
+        status=status,
+        message=message,
+        evaluation=evaluation,
+        iterations=int(iterations),
+        solver=solver,
+        seconds=float(seconds),
+        baseline_cost=baseline.cost,
+        baseline_capacities=baseline.capacities,
+        dropped_links=dropped,
+        model=model,
+        network=net.with_capacities(caps),
+        details=dict(details or {}),
+        verification=verification,
+        warnings=tuple(warnings),
+        objective=objective,
+    )

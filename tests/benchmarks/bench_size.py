@@ -6,7 +6,12 @@ networks/*.yaml. Prints cost, lower bound, gap, baseline cost, saving, time and 
 iterations. Goals (issue 5): gap <= 0.5 % at 50 sites within 60 s, 100 sites within 10
 minutes, cost below the baseline on every case.
 
+With ``--margin-study`` it sizes each demo network and the alternate meshes of ``--sizes``
+once, then calibrates that plan by simulation with each of ``--margins`` and ``--seeds``,
+printing how many demands end met, unclear and missed, and the calibrated cost.
+
 Run: python tests/benchmarks/bench_size.py [--big] [--alternate] [--sizes 10,20]
+     [--verify] [--margins 0,0.1,0.2] [--margin-study --seeds 0,1]
 """
 
 from __future__ import annotations
@@ -17,7 +22,8 @@ import time
 
 import numpy as np
 
-from netdim.dimension import dimension
+from netdim.dimension import SizingOptions, VerifyOptions, dimension
+from netdim.dimension.calibrate import calibrate_by_simulation
 from netdim.model import Demand, Link, Network, Route, Routing, Site
 
 
@@ -75,7 +81,18 @@ def main():
     ap.add_argument("--verify", action="store_true",
                     help="also the demos with verify='simulate' (cost and simulated "
                     "worst blocking/target before and after calibration)")
+    ap.add_argument("--margins", default="0.05",
+                    help="verification margins to compare, e.g. 0,0.05,0.1")
+    ap.add_argument("--margin-study", action="store_true",
+                    help="only: size each demo and the alternate meshes of --sizes once, then "
+                    "calibrate that plan with each of --margins and --seeds (how many demands "
+                    "end met, unclear, missed, and what it costs)")
+    ap.add_argument("--seeds", default="0")
     args = ap.parse_args()
+    if args.margin_study:
+        _margin_study(args)
+        return
+    margins = [float(m) for m in args.margins.split(",") if m]
     sizes = [int(s) for s in args.sizes.split(",") if s]
     if args.big:
         sizes.append(100)
@@ -86,9 +103,10 @@ def main():
             run(f"mesh {n} alternate", mesh(n, policy="alternate"), solver=args.solver)
         if args.verify:
             for n in (n for n in sizes if n <= 20):
-                p = run(f"mesh {n} alternate verify", mesh(n, policy="alternate"),
-                        solver=args.solver, verify="simulate")
-                _verify_line(p)
+                for m in margins:
+                    p = run(f"mesh {n} alternate verify m={m:g}", mesh(n, policy="alternate"),
+                            solver=args.solver, verify=VerifyOptions(margin=m))
+                    _verify_line(p)
     if not args.no_demo:
         from netdim.netfile import read_network
 
@@ -98,9 +116,34 @@ def main():
                 run(path, net, model=model, solver=args.solver)
             if args.verify:
                 for restart in ("warm", "full"):
-                    p = run(f"{path} verify/{restart}", net, solver=args.solver,
-                            verify="simulate", verify_restart=restart)
-                    _verify_line(p)
+                    for m in margins:
+                        p = run(f"{path} verify/{restart} m={m:g}", net, solver=args.solver,
+                                verify=VerifyOptions(restart=restart, margin=m))
+                        _verify_line(p)
+
+
+def _margin_study(args):
+    from netdim.netfile import read_network
+
+    margins = [float(m) for m in args.margins.split(",") if m]
+    seeds = [int(x) for x in args.seeds.split(",") if x]
+    nets = [(path, read_network(path)) for path in sorted(glob.glob("networks/*.yaml"))]
+    nets += [(f"mesh {n} alternate", mesh(n, policy="alternate"))
+             for n in (int(x) for x in args.sizes.split(",") if x)]
+    for name, net in nets:
+        plan = run(name, net, solver=args.solver)
+        for m in margins:
+            for seed in seeds:
+                t = time.perf_counter()
+                p = calibrate_by_simulation(net, plan, SizingOptions(solver=args.solver),
+                                            VerifyOptions(margin=m, seed=seed))
+                d = p.details
+                print(f"{'':4s}{name:28s} margin={m:<5g} seed={seed} cost={p.cost:10.1f} "
+                      f"(+{100 * (p.cost / plan.cost - 1):5.2f}% on the plan) "
+                      f"met={len(d['verify_met'])} unclear={len(d['verify_unclear'])} "
+                      f"missed={len(d['verify_missed'])} of {len(net.demands)} "
+                      f"rounds={d['verify_rounds']} calls(last)={d['verify_calls_last']} "
+                      f"time={time.perf_counter() - t:.1f}s", flush=True)
 
 
 def _verify_line(p):
@@ -110,8 +153,9 @@ def _verify_line(p):
           f"(+{100 * (p.cost / d['unverified_cost'] - 1):.2f}%) "
           f"simulated worst blocking/target {hist[0][1]:.3f} -> {hist[-1][1]:.3f} "
           f"rounds={d['verify_rounds']} calls(last)={d['verify_calls_last']} "
-          f"missed={len(d['verify_missed'])} unclear={len(d['verify_unclear'])} "
-          f"verify time={d['verify_seconds']:.1f}s", flush=True)
+          f"met={len(d['verify_met'])} missed={len(d['verify_missed'])} "
+          f"unclear={len(d['verify_unclear'])} verify time={d['verify_seconds']:.1f}s",
+          flush=True)
 
 
 if __name__ == "__main__":

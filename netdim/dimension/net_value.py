@@ -1,4 +1,4 @@
-"""Economic sizing: maximise value carried minus cost (Moe's principle on a network).
+"""Sizing for net value: maximise value carried minus cost (Moe's principle on a network).
 
 Moe's principle for one trunk group: add circuits while the value of the traffic the next
 circuit carries, ``v a (E(a, n) - E(a, n + 1))``, is at least its cost. On a network the
@@ -7,15 +7,15 @@ starts from Moe's size per link (at the un-thinned load, with the route value sp
 over its links) and then a local search adds or removes one module at a time while
 ``sum_d value_d x carried_d - cost`` under the chosen evaluation increases.
 
-The plan's objective is compared with an upper bound (:func:`objective_bound`), which gives
-the gap reported in economic mode.
+The plan's net value is compared with an upper bound (:func:`objective_bound`), which gives
+the gap reported for this objective. No target is enforced.
 
 References
 ----------
-A. Jensen, "Moe's principle: an econometric investigation intended as an aid in
-dimensioning and managing telephone plant", Copenhagen Telephone Company (1950).
-E. J. Messerli, "Proof of a convexity property of the Erlang B formula", Bell System
-Technical Journal 51 (1972) 951-953.
+.. [1] A. Jensen, "Moe's principle: an econometric investigation intended as an aid in
+   dimensioning and managing telephone plant", Copenhagen Telephone Company (1950).
+.. [2] E. J. Messerli, "Proof of a convexity property of the Erlang B formula", Bell System
+   Technical Journal 51 (1972) 951-953.
 """
 
 from __future__ import annotations
@@ -24,23 +24,40 @@ import time
 
 import numpy as np
 
-from netdim.dimension.plan import Plan
-from netdim.dimension.polish import Evaluator
-from netdim.dimension.space import first_route_loads
+from netdim.dimension._lp import SolveStatus, add_route_flows, solve
+from netdim.dimension.choices import SizingChoices, first_route_loads
+from netdim.dimension.local_search import CachedEvaluator, evaluation_method
+from netdim.dimension.options import silent
+from netdim.dimension.plan import Baseline, Plan, make_plan
+from netdim.erlang import erlang_b, moe_servers
+from netdim.vocabulary import PlanStatus
 
-__all__ = ["size_economic", "objective", "objective_bound"]
+__all__ = ["size_for_net_value", "objective", "objective_bound", "check_values"]
 
 #: Secants of a link's carried-load curve stop where its blocking falls below this.
 _NEGLIGIBLE = 1e-10
 
 
-def objective(network, space, ev, k) -> float:
+def check_values(network) -> None:
+    """Raise ValueError naming the demands without a ``value`` (net value needs them all)."""
+    missing = [d.id for d in network.demands if d.value is None]
+    if missing or not network.demands:
+        shown = ", ".join(f"'{m}'" for m in missing[:5])
+        more = f" and {len(missing) - 5} more" if len(missing) > 5 else ""
+        many = len(missing) > 1
+        what = (f"demand{'s' if many else ''} {shown}{more} {'have' if many else 'has'} no "
+                "value" if missing else "no demands")
+        raise ValueError(f"objective 'net-value': {what}; give every demand a value "
+                         "(per erlang carried), or size for cost")
+
+
+def objective(network, choices, ev, k) -> float:
     """Value carried minus cost (demands without a value count for nothing)."""
     value = np.array([0.0 if d.value is None else float(d.value) for d in network.demands])
-    return float(np.sum(value * ev.carried)) - space.cost(k)
+    return float(np.sum(value * ev.carried)) - choices.cost(k)
 
 
-def objective_bound(network, space, model="fixed-point", solver="highs", mip_gap=1e-6,
+def objective_bound(network, choices, model="fixed-point", solver="highs", mip_gap=1e-6,
                     time_limit=None):
     """An upper bound on value carried minus cost over every integer plan.
 
@@ -69,12 +86,9 @@ def objective_bound(network, space, model="fixed-point", solver="highs", mip_gap
     relaxation with the same objective, so the relaxation's optimum (the solver's proven
     bound on it) bounds the objective of every plan.
     """
-    import pulp
+    import pulp  # about 0.25 s to import: only sizing needs it
 
-    from netdim.dimension.milp import _dual_bound, add_route_flows, make_solver
-    from netdim.erlang import erlang_b
-
-    nl = space.n_links
+    nl = choices.n_links
     alt = network.routing.policy == "alternate"
     curve = model in ("fixed-point", "conservative") and not network.is_multirate
     prob = pulp.LpProblem("economic_bound", pulp.LpMinimize)
@@ -94,16 +108,17 @@ def objective_bound(network, space, model="fixed-point", solver="highs", mip_gap
     for j in range(nl):
         if not usage[j]:
             continue
-        inst, mod, kmax = int(space.installed[j]), int(space.module[j]), int(space.kmax[j])
+        inst, mod = int(choices.installed[j]), int(choices.module[j])
+        kmax = int(choices.max_modules[j])
         k = prob.add_variable(f"k{j}", lowBound=0, upBound=kmax, cat=pulp.LpInteger)
         h = prob.add_variable(f"h{j}", lowBound=0)
         prob += pulp.LpAffineExpression(usage[j]) <= h
         prob += pulp.LpAffineExpression([(h, 1.0), (k, -float(mod))]) <= float(inst)
-        cost_terms.append((k, float(space.cost_per_module[j])))
-        if space.fixed_cost[j] > 0 and inst == 0:
+        cost_terms.append((k, float(choices.cost_per_module[j])))
+        if choices.fixed_cost[j] > 0 and inst == 0:
             z = prob.add_variable(f"z{j}", cat=pulp.LpBinary)
             prob += pulp.LpAffineExpression([(k, 1.0), (z, -float(kmax))]) <= 0
-            cost_terms.append((z, float(space.fixed_cost[j])))
+            cost_terms.append((z, float(choices.fixed_cost[j])))
         a = unthinned[j]
         if curve and a > 0:
             prob += h <= float(a)
@@ -119,12 +134,10 @@ def objective_bound(network, space, model="fixed-point", solver="highs", mip_gap
                     carried[i] - slope * ks[i])
                 n_cuts += 1
     prob += pulp.LpAffineExpression(cost_terms + value_terms)
-    code = prob.solve(make_solver(solver, mip_gap, time_limit))
-    obj = pulp.value(prob.objective)
-    if pulp.LpStatus.get(code) != "Optimal" or obj is None:
+    out = solve(prob, solver, mip_gap=mip_gap, time_limit=time_limit)
+    if out.status is not SolveStatus.OPTIMAL or not out.has_solution:
         return float("inf"), "none (the bound MILP did not solve)"
-    status = "optimal" if pulp.LpStatus.get(code) == "Optimal" else "time-limit"
-    low = _dual_bound(prob, solver, float(obj), mip_gap, status)
+    low = out.bound
     if not np.isfinite(low):
         return float("inf"), "none (no proven bound)"
     kind = ("MILP: carried <= Erlang carried at un-thinned loads" if curve
@@ -132,14 +145,20 @@ def objective_bound(network, space, model="fixed-point", solver="highs", mip_gap
     return -float(low), kind
 
 
-def size_economic(network, space, model="fixed-point", progress=None, t_start=None,
-                  baseline=None, solver="highs", max_evals=2000):
-    """Plan maximising value carried minus cost; see the module notes."""
-    from netdim.erlang import moe_servers
+def size_for_net_value(network, choices: SizingChoices, *, model="fixed-point",
+                       solver="highs", base: Baseline | None = None, progress=None,
+                       t_start=None, max_evals=2000) -> Plan:
+    """Plan maximising value carried minus cost; see the module notes.
 
+    Raises
+    ------
+    ValueError
+        A demand without a ``value``.
+    """
+    check_values(network)
     t_start = time.perf_counter() if t_start is None else t_start
-    say = progress or (lambda s: None)
-    nl = space.n_links
+    progress = progress or silent
+    nl = choices.n_links
     loads = first_route_loads(network)
     vsum = np.zeros(nl)
     wsum = np.zeros(nl)
@@ -154,17 +173,19 @@ def size_economic(network, space, model="fixed-point", progress=None, t_start=No
     used = np.flatnonzero((loads > 0) & (wsum > 0))
     if len(used):
         v = vsum[used] / wsum[used]
-        per_circuit = space.cost_per_module[used] / space.module[used]
-        n = np.asarray(moe_servers(loads[used], per_circuit, v), dtype=np.int64)
-        k[used] = np.minimum(space.modules_for(n), space.kmax[used])
-    method = {"conservative": "conservative", "exact": "exact"}.get(model, "fixed-point")
-    evaluator = Evaluator(network, space, method)
-    best = objective(network, space, evaluator(k), k)
-    say(f"economic: Moe start, objective {best:g}")
+        per_circuit = choices.cost_per_module[used] / choices.module[used]
+        n = np.zeros(nl, np.int64)
+        n[used] = np.asarray(moe_servers(loads[used], per_circuit, v), dtype=np.int64)
+        k = np.where(np.isin(np.arange(nl), used),
+                     np.minimum(choices.modules_for(n), choices.max_modules), 0)
+    evaluator = CachedEvaluator(network, choices, evaluation_method(model))
+    best = objective(network, choices, evaluator(k), k)
+    progress(None, f"net value: Moe start, {best:g}")
+
     def moves():
         # One module up or down on a link; then, on small networks, on two links at once
         # (the objective couples links through thinning, so single steps can stall).
-        for j in np.argsort(-space.cost_per_module, kind="stable"):
+        for j in np.argsort(-choices.cost_per_module, kind="stable"):
             for step in (+1, -1):
                 yield ((j, step),)
         if nl <= 30:
@@ -180,44 +201,30 @@ def size_economic(network, space, model="fixed-point", progress=None, t_start=No
             trial = k.copy()
             for j, step in move:
                 trial[j] += step
-            if np.any(trial < 0) or np.any(trial > space.kmax):
+            if np.any(trial < 0) or np.any(trial > choices.max_modules):
                 continue
-            val = objective(network, space, evaluator(trial), trial)
+            val = objective(network, choices, evaluator(trial), trial)
             if val > best + 1e-9:
                 k, best, improved = trial, val, True
                 break
             if evaluator.calls >= max_evals:
                 break
-    say(f"economic: local search done, objective {best:g}, {evaluator.calls} evaluations")
+    progress(None, f"net value: local search done, {best:g}, {evaluator.calls} evaluations")
     ev = evaluator(k)
-    caps = space.capacity(k)
-    cost = space.cost(k)
-    ub, kind = objective_bound(network, space, model=model, solver=solver)
+    ub, kind = objective_bound(network, choices, model=model, solver=solver)
     ub = max(ub, best)
     gap = (ub - best) / abs(ub) if np.isfinite(ub) and abs(ub) > 1e-12 else (
         0.0 if np.isfinite(ub) else 1.0)
-    base_caps, base_cost = baseline if baseline is not None else (caps, cost)
-    return Plan(
-        capacities=caps,
-        modules=k,
-        link_costs=space.link_costs(k),
-        cost=cost,
-        lower_bound=0.0,
-        gap=gap,
-        status="economic",
-        message=(f"economic plan: value carried minus cost {best:g} under the {model} model, "
-                 f"upper bound {ub:g} ({kind}), gap {100 * gap:.2f}% (no lower bound on cost "
-                 "in this mode; targets not enforced)"),
-        evaluation=ev,
-        iterations=1,
-        solver="local search",
-        seconds=time.perf_counter() - t_start,
-        baseline_cost=base_cost,
-        baseline_capacities=base_caps,
-        dropped_links=tuple(link.id for j, link in enumerate(network.links)
-                            if caps[j] == 0 and link.installed == 0),
-        model=model,
-        network=network.with_capacities(caps),
+    if base is None:
+        base = Baseline(choices.capacity(k), choices.cost(k))
+    return make_plan(
+        network, network, choices, k, ev, lower_bound=0.0, gap=gap,
+        status=PlanStatus.ECONOMIC,
+        message=(f"sized for net value: value carried minus cost {best:g} under the {model} "
+                 f"model, upper bound {ub:g} ({kind}), gap {100 * gap:.2f}%; blocking "
+                 "targets are not enforced"),
+        iterations=1, solver="local search", seconds=time.perf_counter() - t_start,
+        baseline=base, model=model, objective="net-value",
         details={"objective": best, "objective_bound": ub, "bound": kind,
                  "evaluations": evaluator.calls},
     )

@@ -1,4 +1,4 @@
-"""Cutting planes below a link's loss rates (netdim.dimension.losscuts).
+"""Cutting planes below a link's loss rates (netdim.dimension.loss_cuts).
 
 The offsets are checked against a brute-force minimum over a fine grid of loads and every
 allowed capacity, with Erlang B computed by its recursion (the ``erlang_b_ref`` fixture of
@@ -14,14 +14,22 @@ import math
 import numpy as np
 import pytest
 
-from netdim.dimension.losscuts import loss_planes_offset, res_planes_offset, reservation_table
+from netdim.dimension.loss_cuts import (
+    erlang_cut_offsets,
+    reservation_cut_offsets,
+    reservation_table,
+)
 
 
 def test_plane_slopes_checked():
     with pytest.raises(ValueError, match="slopes"):
-        loss_planes_offset([0.1], [0.2], [5.0], [0], [1], [10], [0])
+        erlang_cut_offsets([0.1], [0.2], [5.0], [0], [1], [10], [0])
     with pytest.raises(ValueError, match="slopes"):
-        res_planes_offset(1, [-0.1], [-0.2], [3.0], [1], [5.0], [0], [1], [10])
+        reservation_cut_offsets((1, 0), [-0.1], [-0.2], [3.0], [1], [5.0], [0], [1], [10])
+    with pytest.raises(ValueError, match=r"weights: need two numbers >= 0, not both 0"):
+        reservation_cut_offsets((0, 0), [0.1], [-0.2], [3.0], [1], [5.0], [0], [1], [10])
+    with pytest.raises(ValueError, match=r"weights: need two numbers \(first-choice, overflow\)"):
+        reservation_cut_offsets(3, [0.1], [-0.2], [3.0], [1], [5.0], [0], [1], [10])
 
 
 def reservation_losses(first, over, c, r):
@@ -45,9 +53,10 @@ def test_plane_offsets_below_brute_force_minimum(erlang_b_ref):
     vmax = rng.uniform(3.0, 25.0, 4)
     inst, mod, kmax, shift = np.array([0, 2, 0, 1]), np.array([1, 1, 2, 1]), \
         np.array([60, 50, 30, 59]), np.array([0, 2, 1, 0])
-    alpha = loss_planes_offset(beta, gamma, vmax, inst, mod, kmax, shift)
+    alpha = erlang_cut_offsets(beta, gamma, vmax, inst, mod, kmax, shift)
     first = rng.uniform(1.0, 12.0, 4)
-    alpha_res = res_planes_offset(3, beta, gamma, first, shift, vmax, inst, mod, kmax)
+    alpha_res = reservation_cut_offsets((1.0, 1.0), beta, gamma, first, shift, vmax, inst,
+                                        mod, kmax)
     for p in range(4):
         nus = np.linspace(0.0, vmax[p], 201)
         best = best_res = math.inf
@@ -75,7 +84,7 @@ def test_weighted_reservation_planes_below_brute_force_minimum():
     first = rng.uniform(2.0, 15.0, 3)
     res, inst, mod, kmax = np.array([2, 1, 3]), np.array([0, 0, 4]), np.array([1, 1, 2]), \
         np.array([50, 45, 25])
-    alpha = res_planes_offset(w, beta, gamma, first, res, vmax, inst, mod, kmax)
+    alpha = reservation_cut_offsets(w, beta, gamma, first, res, vmax, inst, mod, kmax)
     for p in range(3):
         best = math.inf
         for k in range(kmax[p] + 1):

@@ -3,26 +3,31 @@
 A cut ``loss >= alpha + beta nu + gamma c`` (slope ``beta >= 0`` in the offered load nu,
 ``gamma <= 0`` in the capacity c) is valid for a loss function ``phi_c(nu) >= 0`` when it lies
 below ``phi_c`` for every load in ``[0, V]`` and every capacity the plan may take
-(installed + module x k, ``0 <= k <= kmax``). The slopes may be anything; the offset alpha is
+(installed + module x k, ``0 <= k <= max_modules``). The slopes may be anything; the offset alpha is
 computed here so that the inequality holds, by bounding ``phi_c(nu) - beta nu`` from below on a
 grid of load cells at each capacity in turn. Two loss functions are covered: the Erlang loss
 rate ``Lambda(nu, s) = nu E(nu, s)`` (convex in nu: tangents at the ends of a cell bound it)
 and the reservation chain's loss rates at a constant first-choice load (nondecreasing in the
-overflow load: the left end of a cell bounds it). :func:`netdim.dimension.altbound.
-alternate_bound` uses them; its notes give the proofs of convexity and monotonicity.
+overflow load: the left end of a cell bounds it). :func:`netdim.dimension.loss_flow_bound.
+loss_flow_bound` uses them; the proofs of convexity and monotonicity are in
+``docs/theory/loss-flow-bound.md``.
 
 References
 ----------
-D. L. Jagerman, "Some properties of the Erlang loss function", Bell System Technical Journal
-53 (1974) 525-551.
+.. [1] D. L. Jagerman, "Some properties of the Erlang loss function", Bell System Technical
+   Journal 53 (1974) 525-551.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["loss_planes_offset", "res_planes_offset", "loss_rate", "reservation_losses",
-           "reservation_table", "erlang_table", "stream_weights", "hull_faces", "SAFETY"]
+from netdim.erlang import erlang_b
+from netdim.linkmodels import reservation_link_many
+
+__all__ = ["erlang_cut_offsets", "reservation_cut_offsets", "loss_rate", "reservation_losses",
+           "reservation_table", "erlang_table", "check_weights", "erlang_hull_faces",
+           "reservation_hull_faces", "SAFETY"]
 
 #: Cells of the offered-load grid on which a cut's offset is checked.
 _GRID = 192
@@ -34,16 +39,33 @@ _ENV_GRID = 32
 _ENV_LEVELS = 128
 
 
-def erlang_table(nu, smax):
-    """E(nu, s) for s = 0..smax (rows) and every load in ``nu`` (last axis): the recursion."""
+def erlang_table(nu, smax, rows=None):
+    """E(nu, s) for s = 0..smax (rows) and every load in ``nu`` (last axis): the recursion.
+
+    With ``rows`` (server counts, each at most ``smax``), only those rows, in that order:
+    the memory is then ``len(rows)`` rows, not ``smax + 1``.
+    """
     nu = np.asarray(nu, dtype=float)
-    out = np.empty((smax + 1,) + nu.shape)
+    if rows is None:
+        out = np.empty((smax + 1,) + nu.shape)
+        e = np.ones_like(nu)
+        out[0] = e
+        for s in range(1, smax + 1):
+            ae = nu * e
+            e = ae / (s + ae)
+            out[s] = e
+        return out
+    rows = np.asarray(rows, np.int64)
+    out = np.empty((len(rows),) + nu.shape)
+    order = np.argsort(rows, kind="stable")
     e = np.ones_like(nu)
-    out[0] = e
-    for s in range(1, smax + 1):
-        ae = nu * e
-        e = ae / (s + ae)
-        out[s] = e
+    s = 0
+    for i in order:
+        while s < rows[i]:
+            s += 1
+            ae = nu * e
+            e = ae / (s + ae)
+        out[i] = e
     return out
 
 
@@ -97,13 +119,13 @@ def _check_slopes(beta, gamma):
         raise ValueError("plane slopes: need beta >= 0 (load) and gamma <= 0 (capacity)")
 
 
-def loss_planes_offset(beta, gamma, vmax, inst, mod, kmax, shift, grid=_GRID):
+def erlang_cut_offsets(beta, gamma, vmax, installed, module, max_modules, shift, grid=_GRID):
     """Largest offsets ``alpha`` with ``alpha + beta nu + gamma c <= Lambda(nu, s(c))``.
 
     ``Lambda(nu, s) = nu E(nu, s)`` is the loss rate of an Erlang loss system of s servers
     offered nu erlangs and ``s(c) = max(c - shift, 0)``. The inequality holds for every
     ``nu`` in ``[0, vmax]`` and every allowed capacity ``c = inst + mod k``,
-    ``0 <= k <= kmax``, one plane per entry of the arrays.
+    ``0 <= k <= max_modules``, one plane per entry of the arrays.
 
     Parameters
     ----------
@@ -111,7 +133,7 @@ def loss_planes_offset(beta, gamma, vmax, inst, mod, kmax, shift, grid=_GRID):
         Slopes in the load (>= 0) and in the capacity (<= 0).
     vmax : array_like
         Largest load the link can be offered.
-    inst, mod, kmax : array_like of int
+    installed, module, max_modules : array_like of int
         Installed capacity, module and most added modules of the link.
     shift : array_like of int
         Units taken off the capacity (the reservation, for the overflow stream), else 0.
@@ -129,11 +151,10 @@ def loss_planes_offset(beta, gamma, vmax, inst, mod, kmax, shift, grid=_GRID):
 
     Notes
     -----
-    For each integer s, ``Lambda(., s)`` is convex (shown in the notes of
-    :func:`netdim.dimension.altbound.alternate_bound`), so on a grid cell ``[a, b]`` the
-    function ``f = Lambda - beta nu`` is at least the larger of its tangents at a and b,
-    whose least value over the cell bounds f there from below.
-    Erlang B by its recursion (Jagerman 1974), its load derivative
+    For each integer s, ``Lambda(., s)`` is convex (``docs/theory/loss-flow-bound.md``,
+    step 6), so on a grid cell ``[a, b]`` the function ``f = Lambda - beta nu`` is at least
+    the larger of its tangents at a and b, whose least value over the cell bounds f there
+    from below. Erlang B by its recursion [1]_, its load derivative
     ``dE/dnu = E (s/nu - 1 + E)``; a relative slack of 1e-9 covers rounding.
     """
     beta, gamma, vmax = (np.asarray(v, float) for v in (beta, gamma, vmax))
@@ -170,29 +191,43 @@ def loss_planes_offset(beta, gamma, vmax, inst, mod, kmax, shift, grid=_GRID):
             yield rows, low - SAFETY * (1.0 + np.abs(f).max(axis=1))
             c += 1
 
-    return _plane_offsets(cells, beta, gamma, vmax, np.asarray(inst, np.int64),
-                          np.asarray(mod, np.int64), np.asarray(kmax, np.int64))
+    return _plane_offsets(cells, beta, gamma, vmax, np.asarray(installed, np.int64),
+                          np.asarray(module, np.int64), np.asarray(max_modules, np.int64))
 
 
-def res_planes_offset(kind, beta, gamma, first, res, vmax, inst, mod, kmax, grid=4 * _GRID):
-    """Offsets of planes below the reservation chain's loss rates.
+def check_weights(weights):
+    """``(w_first, w_overflow)`` as floats: both >= 0, not both 0; else ValueError."""
+    try:
+        w1, w2 = (float(w) for w in weights)
+    except (TypeError, ValueError):
+        raise ValueError(f"weights: need two numbers (first-choice, overflow), got "
+                         f"{weights!r}") from None
+    if not (w1 >= 0 and w2 >= 0 and w1 + w2 > 0):
+        raise ValueError(f"weights: need two numbers >= 0, not both 0, got {weights!r}")
+    return w1, w2
 
-    ``kind`` 1: first-choice loss ``F B1(F, o, c)``; 2: overflow loss ``o B2(F, o, c)``;
-    3: their sum; a pair ``(w1, w2)`` of weights >= 0: ``w1 F B1 + w2 o B2``; as
-    functions of the overflow load o in ``[0, vmax]`` at the constant first-choice load F,
-    for the chain of :func:`netdim.linkmodels.reservation_link_many`
-    (capacity c, reservation r). Each is nondecreasing in o (B1 and B2 are), so on a grid
+
+def reservation_cut_offsets(weights, beta, gamma, first, reservation, vmax, installed, module,
+                            max_modules, grid=4 * _GRID):
+    """Offsets of planes below a weighted sum of the reservation chain's loss rates.
+
+    The function is ``w1 F B1(F, o, c) + w2 o B2(F, o, c)`` for ``weights = (w1, w2)``
+    (``(1, 0)`` the first-choice loss, ``(0, 1)`` the overflow loss, ``(1, 1)`` their
+    sum), as a function of the overflow load o in ``[0, vmax]`` at the constant
+    first-choice load F, for the chain of :func:`netdim.linkmodels.reservation_link_many`
+    (capacity c, reservation r). It is nondecreasing in o (B1 and B2 are), so on a grid
     cell ``[a, b]`` the function minus ``beta o`` is at least its value at a minus
-    ``beta b``. Other arguments as :func:`loss_planes_offset`.
+    ``beta b``. Other arguments as :func:`erlang_cut_offsets`.
 
     Raises
     ------
     ValueError
-        A slope of the wrong sign.
+        A slope of the wrong sign, or weights that are not two numbers >= 0.
     """
+    w1, w2 = check_weights(weights)
     beta, gamma, vmax, first = (np.asarray(v, float) for v in (beta, gamma, vmax, first))
     _check_slopes(beta, gamma)
-    res = np.asarray(res, np.int64)
+    res = np.asarray(reservation, np.int64)
     o = vmax[:, None] * np.linspace(0.0, 1.0, grid + 1)[None, :]
     s = first[:, None] + o
     fcol = first[:, None]
@@ -221,88 +256,86 @@ def res_planes_offset(kind, beta, gamma, first, res, vmax, inst, mod, kmax, grid
             den = np.where(pos, 1.0 / np.where(pos, e, 1.0) + tsum, np.inf)
             b1 = np.where(pos, tau / den, 0.0)  # tau = 1 when top = 0: B1 = E(F + o, c)
             b2 = np.where(pos, (1.0 + tsum) / den, 0.0)
-            w1, w2 = stream_weights(kind)
             f = w1 * fc * b1 + w2 * o_ * b2
             low = (f[:, :-1] - bc * o_[:, 1:]).min(axis=1)
             yield rows, low - SAFETY * (1.0 + np.abs(f).max(axis=1) + bv)
             c += 1
 
-    return _plane_offsets(cells, beta, gamma, vmax, np.asarray(inst, np.int64),
-                          np.asarray(mod, np.int64), np.asarray(kmax, np.int64))
+    return _plane_offsets(cells, beta, gamma, vmax, np.asarray(installed, np.int64),
+                          np.asarray(module, np.int64), np.asarray(max_modules, np.int64))
 
 
 def loss_rate(nu, s):
     """Lambda(nu, s) = nu E(nu, s) and its derivative in nu, elementwise (integer s >= 0)."""
-    from netdim.erlang import erlang_b
-
     nu = np.asarray(nu, float)
     s = np.asarray(s, float)
     e = np.asarray(erlang_b(np.maximum(nu, 0.0), np.maximum(s, 0.0)), float)
     return nu * e, e * (1.0 + s - nu * (1.0 - e))
 
 
-def reservation_losses(first, res, o, c):
+def reservation_losses(first, reservation, o, c):
     """(F B1, o B2) of the reservation chain, elementwise (integer capacities c)."""
-    from netdim.linkmodels import reservation_link_many
-
-    b1, b2 = reservation_link_many(first, o, np.asarray(c).astype(np.int64), res)
+    b1, b2 = reservation_link_many(first, o, np.asarray(c).astype(np.int64), reservation)
     return first * b1, o * b2
 
 
-def stream_weights(kind):
-    """Weights (first-choice, overflow) of the loss a reservation-chain cut bounds."""
-    if isinstance(kind, tuple):
-        return kind
-    return {1: (1.0, 0.0), 2: (0.0, 1.0), 3: (1.0, 1.0)}[kind]
-
-
-def reservation_table(first, res, o, cs):
+def reservation_table(first, reservation, o, cs):
     """(F B1, o B2) of the reservation chain at first-choice load F for every capacity in
     ``cs`` (rows) and overflow load in ``o`` (columns), by one Erlang recursion."""
+    res = int(reservation)
     cs = np.asarray(cs, np.int64)
     o = np.asarray(o, float)
-    e = erlang_table(first + o, int(max(cs.max() - res, 0)))
+    ms = np.maximum(cs - res, 0)
+    e = erlang_table(first + o, int(ms.max()), rows=ms)
     fl, ov = np.empty((len(cs), len(o))), np.empty((len(cs), len(o)))
     with np.errstate(divide="ignore", over="ignore", under="ignore", invalid="ignore"):
         for i, c in enumerate(cs):
-            m = max(int(c) - res, 0)
+            m = int(ms[i])
             tau, tsum = 1.0, 0.0
             for k in range(1, int(c) - m + 1):  # states above m: first-choice calls only
                 tau = tau * first / (m + k)
                 tsum += tau
-            den = 1.0 / e[m] + tsum
+            den = 1.0 / e[i] + tsum
             fl[i] = np.where(np.isfinite(den), first * tau / den, 0.0)
             ov[i] = np.where(np.isfinite(den), o * (1.0 + tsum) / den, 0.0)
     return fl, ov
 
 
-def hull_faces(kind, vmax, inst, mod, kmax, shift=0, first=0.0, res=0):
-    """Faces ``(alpha, beta, gamma)`` of the lower convex hull of a link's loss function on
-    a grid of loads and capacities, those with ``beta >= 0`` and ``gamma <= 0``; None when
-    the grid is flat or has none.
+def erlang_hull_faces(vmax, installed, module, max_modules, shift=0):
+    """Faces ``(alpha, beta, gamma)`` of the lower convex hull of the Erlang loss rate
+    ``nu E(nu, max(c - shift, 0))`` on a grid of loads and capacities, those with
+    ``beta >= 0`` and ``gamma <= 0``; None when the grid is flat or has none.
 
-    ``kind`` ``'erlang'``: the Erlang loss rate ``nu E(nu, max(c - shift, 0))``; 1, 2, 3 or a
-    pair of weights: the reservation chain's loss rates at the constant first-choice load
-    ``first`` (as :func:`res_planes_offset`). The faces only guide the choice of a cut's
-    slopes (scipy's Qhull); its offset is computed by :func:`loss_planes_offset` or
-    :func:`res_planes_offset`, so any face gives a valid cut.
+    The faces only guide the choice of a cut's slopes (scipy's Qhull); its offset is
+    computed by :func:`erlang_cut_offsets`, so any face gives a valid cut.
     """
-    from scipy.spatial import ConvexHull
+    cs, nus = _hull_grid(vmax, installed, module, max_modules, 0.0)
+    servers = np.maximum(cs - shift, 0)
+    e = erlang_table(nus, int(servers.max()), rows=servers)
+    return _lower_faces(cs, nus, nus[None, :] * e)
 
+
+def reservation_hull_faces(weights, vmax, installed, module, max_modules, first, reservation):
+    """As :func:`erlang_hull_faces`, for ``w1 F B1 + w2 o B2`` of the reservation chain at
+    the constant first-choice load ``first`` (see :func:`reservation_cut_offsets`)."""
+    w1, w2 = check_weights(weights)
+    cs, nus = _hull_grid(vmax, installed, module, max_modules, first)
+    a, b = reservation_table(first, reservation, nus, cs)
+    return _lower_faces(cs, nus, w1 * a + w2 * b)
+
+
+def _hull_grid(vmax, inst, mod, kmax, first):
     top = inst + mod * int(kmax)
     hi = min(top, int(np.ceil(first + vmax + 8 * np.sqrt(first + vmax + 1) + 20)))
     top_k = max((hi - inst) // mod, 1)
     kk = np.unique(np.r_[np.arange(0, top_k + 1, max(1, top_k // _ENV_LEVELS)), top_k])
-    cs = inst + mod * kk
-    nus = np.linspace(0.0, vmax, _ENV_GRID + 1)
+    return inst + mod * kk, np.linspace(0.0, vmax, _ENV_GRID + 1)
+
+
+def _lower_faces(cs, nus, phi):
+    from scipy.spatial import ConvexHull  # scipy.spatial loads Qhull: only the bound needs it
+
     C, N = np.meshgrid(cs, nus, indexing="ij")
-    if kind == "erlang":
-        e = erlang_table(nus, int(max(cs.max() - shift, 0)))
-        phi = nus[None, :] * e[np.maximum(cs - shift, 0)]
-    else:
-        a, b = reservation_table(first, res, nus, cs)
-        w1, w2 = stream_weights(kind)
-        phi = w1 * a + w2 * b
     try:
         eq = ConvexHull(np.column_stack([N.ravel(), C.ravel().astype(float),
                                          np.asarray(phi, float).ravel()])).equations
