@@ -24,19 +24,37 @@ Loss formulas (one resource)
 Model and files
     Site, Link, Route, Demand, Routing, Network    the immutable network model
     read_network        read and validate a network file
-    write_network       write a network file
+    loads_network       the same from text
+    write_network       write a network file (a network built in Python)
+    write_plan          write a plan into the input file's text, only capacities changed
+    read_topology       sites and links of a GraphML or GML topology
+    import_topology     a network file from a topology and a traffic model
 
 Evaluation
     evaluate            blocking of every demand: fixed point, conservative, exact, simulate
     Evaluation          its result
     METHODS             the evaluation methods
+    FixedPoint          the reduced-load fixed point prepared once, for many capacities
+    SimulationOptions   the simulation's options as one object
     compare_methods     two methods side by side on one network
     Comparison          its result
+    Verdict, VERDICTS   met, missed or unclear: a demand against its target
+    EvaluationStatus    how an evaluation's figures were obtained
 
 Sizing
     dimension           least-cost capacities meeting every demand's target
     Plan                its result
+    SizingOptions       the sizing's options as one object
+    VerifyOptions       how a plan is checked by simulation and calibrated
+    Bound, Baseline     the lower bound, and the plan of each link sized alone
     MODELS, SOLVERS, STATUSES                      the sizing models, MILP solvers, plan statuses
+    OBJECTIVES          least cost to targets, or most value carried minus cost
+    PlanStatus          a plan's status
+
+Reports
+    evaluation_html     one self-contained HTML page of an evaluation (needs netdim[report])
+    plan_html           the same for a plan
+    write_report        write such a page whole or not at all
 
 Errors
     NetdimError, NetworkFileError, ConvergenceError, InfeasibleError, ModelTooLargeError
@@ -70,10 +88,17 @@ _EXPORTS = {
                     "netdim.overflow"),
     **dict.fromkeys(("kaufman_roberts", "reservation_link"), "netdim.linkmodels"),
     **dict.fromkeys(("Site", "Link", "Route", "Demand", "Routing", "Network"), "netdim.model"),
-    **dict.fromkeys(("read_network", "write_network"), "netdim.netfile"),
-    **dict.fromkeys(("evaluate", "Evaluation", "METHODS"), "netdim.evaluate"),
+    **dict.fromkeys(("read_network", "loads_network", "write_network", "write_plan"),
+                    "netdim.netfile"),
+    **dict.fromkeys(("read_topology", "import_topology"), "netdim.topology"),
+    **dict.fromkeys(("evaluate", "Evaluation", "METHODS", "FixedPoint", "SimulationOptions"),
+                    "netdim.evaluate"),
+    **dict.fromkeys(("Verdict", "VERDICTS", "EvaluationStatus", "PlanStatus"),
+                    "netdim.vocabulary"),
     **dict.fromkeys(("compare_methods", "Comparison"), "netdim.evaluate.compare"),
-    **dict.fromkeys(("dimension", "Plan", "MODELS", "SOLVERS", "STATUSES"), "netdim.dimension"),
+    **dict.fromkeys(("dimension", "Plan", "MODELS", "SOLVERS", "STATUSES", "OBJECTIVES",
+                     "SizingOptions", "VerifyOptions", "Bound", "Baseline"), "netdim.dimension"),
+    **dict.fromkeys(("evaluation_html", "plan_html", "write_report"), "netdim.report.html"),
     **dict.fromkeys(("NetdimError", "NetworkFileError", "ConvergenceError", "InfeasibleError",
                      "ModelTooLargeError"), "netdim.errors"),
 }

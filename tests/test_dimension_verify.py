@@ -259,7 +259,7 @@ def test_margin_sizes_inside_the_target_so_the_verdict_is_met():
 
 
 def test_cli_exit_0_with_unclear_demands_named(tmp_path, capsys):
-    from netdim.netwrite import write_network
+    from netdim.netfile import write_network
 
     p = tmp_path / "one.yaml"
     write_network(one_link(), p)

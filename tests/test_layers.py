@@ -15,7 +15,10 @@ PACKAGE = Path(__file__).resolve().parent.parent / "netdim"
 
 #: Function-local imports of netdim modules that are allowed, as (importing module, imported
 #: module) -> reason.
-ALLOWED_LOCAL = {}
+ALLOWED_LOCAL = {
+    ("netdim.evaluate.simulate", "netdim.evaluate._simkernel"):
+        "the compiled event loop needs numba, about a second to import: only when simulating",
+}
 
 
 def _module_name(path: Path) -> str:

@@ -144,7 +144,9 @@ def villages_simulated():
 @pytest.fixture(scope="module")
 def villages_verified():
     net = _net("three-villages.yaml")
-    plan = netdim.dimension(net, bound_time=1.0, verify="simulate", verify_calls=60_000, seed=2)
+    from netdim.dimension import VerifyOptions
+
+    plan = netdim.dimension(net, bound_time=1.0, verify=VerifyOptions(calls=60_000, seed=2))
     return net, plan, plan_html(plan)
 
 
@@ -182,7 +184,7 @@ def test_evaluation_tables_hold_the_figures_of_to_dict(regional):
 
 def test_evaluation_link_costs_follow_the_network_file(regional):
     # The cost of a capacity is cost_per_module x modules beyond the installed capacity,
-    # plus the fixed cost of a link built new (the rules of netdim.dimension.space, restated
+    # plus the fixed cost of a link built new (the rules of netdim.dimension.choices, restated
     # here from the network file's fields).
     net, ev, text = regional
     page = Page(text)

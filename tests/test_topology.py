@@ -593,7 +593,7 @@ def test_sizing_an_imported_topology_meets_targets_by_erlang_b(erlang_b_ref):
                              costs=LinkCosts(module=1, module_cost=1.0, cost_per_km=0.001),
                              target=0.01)
     net = result.network
-    plan = dimension(net, model="conservative", polish=False)
+    plan = dimension(net, model="conservative", local_search=False)
     assert plan.feasible
     caps = [int(c) for c in plan.capacities]
     data = yaml.safe_load(result.text)
@@ -620,7 +620,7 @@ def test_sizing_sndlib_polska_with_its_demands(tmp_path, erlang_b_ref):
     scaled.write_text("origin,destination,erlangs\n"
                       + "".join(f"{a},{b},{v / 10}\n" for a, b, v in demands))
     result = import_topology(topo_path, DemandTable(str(scaled)), costs=LinkCosts(module=1))
-    plan = dimension(result.network, model="conservative", polish=False)
+    plan = dimension(result.network, model="conservative", local_search=False)
     assert plan.feasible
     net = result.network
     caps = [int(c) for c in plan.capacities]

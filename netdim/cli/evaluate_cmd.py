@@ -6,7 +6,17 @@ import json
 import sys
 import time
 
-from netdim.evaluate import COMPARE_OPTIONS, HOLDING_LAWS, METHOD_OPTIONS, METHODS
+from netdim.evaluate import (
+    COMPARE_OPTIONS,
+    HOLDING_LAWS,
+    METHOD_OPTIONS,
+    METHODS,
+    compare_methods,
+    evaluate,
+)
+from netdim.netfile import read_network
+from netdim.report.comparison import comparison_text
+from netdim.report.evaluation import evaluation_text, write_csv
 from netdim.vocabulary import Verdict
 
 __all__ = ["register", "run"]
@@ -133,12 +143,6 @@ def _report_verdicts(ids, verdicts) -> int:
 
 
 def run(args) -> int:
-    # imported when the command runs: other sub-commands need not load the report modules
-    from netdim.evaluate import compare_methods, evaluate
-    from netdim.netfile import read_network
-    from netdim.report.comparison import comparison_text
-    from netdim.report.evaluation import evaluation_text, write_csv
-
     method = _method(args)
     given = _check_flags(args, method)
     network = read_network(args.file)

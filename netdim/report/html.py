@@ -18,7 +18,7 @@ import html as _html
 
 import numpy as np
 
-from netdim.dimension.space import LinkSpace
+from netdim.dimension.choices import SizingChoices
 from netdim.report import figures
 from netdim.report.cells import (
     Cell,
@@ -180,7 +180,7 @@ def _link_section(network, ev, kind, decimals, plan=None) -> Section:
     if plan is not None:
         modules, costs = plan.modules, plan.link_costs
     else:
-        space = LinkSpace.of(network)
+        space = SizingChoices.from_network(network)
         modules = space.modules_for(cap)
         costs = space.link_costs(modules)
     installed = np.array([link.installed for link in network.links])
