@@ -379,6 +379,10 @@ def servers_for(traffic, target):
     return _finish(_many("servers_many", a, t, out_dtype=np.int64).reshape(shape))
 
 
+#: Below this a traffic has fewer than 53 bits (a subnormal double).
+_SMALLEST_NORMAL = float(np.finfo(float).tiny)
+
+
 def traffic_for(servers, target):
     """Largest offered traffic A with E(A, servers) <= target, to 1e-12 relative.
 
@@ -392,7 +396,8 @@ def traffic_for(servers, target):
     Returns
     -------
     float or ndarray
-        0.0 where the answer is below the smallest double (a few servers, a tiny target).
+        0.0 where the answer is below the smallest normal double (about 2.2e-308: a few
+        servers, a tiny target), where it could not be given to 1e-12 relative.
 
     Raises
     ------
@@ -421,9 +426,11 @@ def traffic_for(servers, target):
     if type(servers) in _SCALARS and type(target) in _SCALARS:
         if servers == 0:
             return 0.0
-        return _call("traffic_for_point", servers, float(servers), float(target))[0]
+        a = _call("traffic_for_point", servers, float(servers), float(target))[0]
+        return a if a >= _SMALLEST_NORMAL else 0.0
     (x, t), shape = _flat(servers, target)
-    return _finish(_many("traffic_many", x, t).reshape(shape))
+    a = _many("traffic_many", x, t)
+    return _finish(np.where(a >= _SMALLEST_NORMAL, a, 0.0).reshape(shape))
 
 
 # --------------------------------------------------------------------------------------------

@@ -5,9 +5,18 @@ The network fixtures are factories: ``one_link(cap, demands)`` and so on build a
 :class:`netdim.Network` for the arguments a test gives.
 """
 
+import os
+
 import pytest
+from hypothesis import settings
 
 from netdim.model import Demand, Link, Network, Route, Routing, Site
+
+# Property tests search the same examples on every run (CI must not fail by chance on a
+# new example); HYPOTHESIS_PROFILE=explore searches afresh when hunting for bugs by hand.
+settings.register_profile("repeatable", derandomize=True, print_blob=True)
+settings.register_profile("explore", derandomize=False, print_blob=True)
+settings.load_profile(os.environ.get("HYPOTHESIS_PROFILE", "repeatable"))
 
 _LINE = """\
 name: line
