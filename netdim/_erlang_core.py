@@ -51,7 +51,7 @@ import numpy as np
 #: The functions called from Python once compiled (the rest are helpers they inline).
 ENTRY_POINTS = ("point", "erlang_many", "servers_for_point", "servers_many",
                 "traffic_for_point", "traffic_many", "dtraffic_point", "dtraffic_many",
-                "table_many", "moe_point", "moe_many")
+                "table_many", "table_runs", "moe_point", "moe_many")
 #: Whole numbers of servers up to this take the recursion from E(A, 0) = 1.
 XREC = 30.0
 #: 1/E beyond this means E < 1e-300: only log E is kept accurate there.
@@ -816,16 +816,43 @@ def dtraffic_many(a, x, out):
     return out
 
 
-def table_many(a, m, out):
-    """out[i, n] = E(a[i], n), n = 0..m, by E_n = a E_{n-1} / (n + a E_{n-1})."""
+def advance(a, e, n, s):
+    """E(a, s) from ``e = E(a, n)``, ``n <= s`` whole, by E_k = a E_{k-1} / (k + a E_{k-1}):
+    the one copy of the forward recursion behind every table (its rounding errors shrink by
+    1 - E_k each step)."""
+    while n < s:
+        n += 1
+        ae = a * e
+        e = ae / (n + ae)
+    return e
+
+
+def table_many(a, servers, out):
+    """out[i, k] = E(a[i], servers[k]) for nondecreasing whole ``servers``, one recursion
+    per load."""
     for i in range(a.shape[0]):
-        ai = a[i]
         e = 1.0
-        out[i, 0] = 1.0
-        for n in range(1, m + 1):
-            ae = ai * e
-            e = ae / (n + ae)
-            out[i, n] = e
+        n = 0
+        for k in range(servers.shape[0]):
+            e = advance(a[i], e, n, servers[k])
+            n = servers[k]
+            out[i, k] = e
+    return out
+
+
+def table_runs(a, first, step, count, out):
+    """Run i of ``out`` (the runs one after another) holds E(a[i], first[i] + step[i] k)
+    for k = 0..count[i]-1, one recursion per load."""
+    pos = 0
+    for i in range(a.shape[0]):
+        e = 1.0
+        n = 0
+        for k in range(count[i]):
+            s = first[i] + step[i] * k
+            e = advance(a[i], e, n, s)
+            n = s
+            out[pos] = e
+            pos += 1
     return out
 
 

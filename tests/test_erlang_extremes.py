@@ -21,6 +21,7 @@ from netdim.erlang import (
     MAX_ARG,
     erlang_b,
     erlang_b_dtraffic,
+    erlang_b_runs,
     erlang_b_table,
     log1m_erlang_b,
     log_erlang_b,
@@ -89,6 +90,28 @@ def test_log1m_erlang_b_at_tiny_traffic_and_servers():
         (lambda: erlang_b_table(3.0, -1), r"max_servers: must be a whole number >= 0, got -1"),
         (lambda: erlang_b_table(np.ones(1000), 10**6),
          r"max_servers: the table would hold 1,000,001,000 values, at most 100,000,000"),
+        (lambda: erlang_b_table(3.0, 5, servers=[2, 6]),
+         r"servers: must be whole numbers from 0 to 5, got 6"),
+        (lambda: erlang_b_table(3.0, 5, servers=[-1]),
+         r"servers: must be whole numbers from 0 to 5, got -1"),
+        (lambda: erlang_b_table(3.0, 5, servers=[1.5]),
+         r"servers: must be whole numbers, got 1\.5"),
+        (lambda: erlang_b_table(3.0, 5, servers=[[1]]),
+         r"servers: must be one list of server counts, got shape \(1, 1\)"),
+        (lambda: erlang_b_table(np.ones(1000), 10**6, servers=np.zeros(10**5 + 1, int)),
+         r"servers: the table would hold 100,001,000 values, at most 100,000,000"),
+        (lambda: erlang_b_runs([math.inf], [0], [1], [2]), r"traffic: must be finite, got inf"),
+        (lambda: erlang_b_runs([[1.0]], [0], [1], [2]),
+         r"traffic: must be one list of loads, got shape \(1, 1\)"),
+        (lambda: erlang_b_runs([1.0], [0], [1], [-2]),
+         r"count: must be whole numbers >= 0 and at most 1e10, got -2"),
+        (lambda: erlang_b_runs([1.0], [0.5], [1], [2]), r"first: must be whole numbers, got 0\.5"),
+        (lambda: erlang_b_runs([1.0, 2.0], [0, 0], [1], [2, 2]),
+         r"step: must have one value per load \(2\), got shape \(1,\)"),
+        (lambda: erlang_b_runs([1.0], [10**10], [1], [2]),
+         r"first, step, count: server counts up to 10000000001, at most 1e10"),
+        (lambda: erlang_b_runs(np.ones(2), [0, 0], [1, 1], [6 * 10**7, 5 * 10**7]),
+         r"count: the table would hold 110,000,000 values, at most 100,000,000"),
     ],
 )
 def test_refusals_name_the_argument(call, message):
@@ -158,6 +181,39 @@ def test_erlang_b_table_against_mpmath():
                 assert _rel(table[idx + (n,)], exact) <= 1e-13, (idx, n)
     assert list(erlang_b_table(0.0, 3)) == [1.0, 0.0, 0.0, 0.0]
     assert erlang_b_table(3.0, 0).tolist() == [1.0]
+
+
+def test_erlang_b_table_of_chosen_servers_against_mpmath():
+    # source: mpmath 50-digit E(A, n); the chosen columns in the caller's order, repeats kept
+    loads = np.array([0.5, 42.0, 150.0])
+    servers = [200, 0, 17, 17, 149, 1]
+    table = erlang_b_table(loads, 200, servers=servers)
+    assert table.shape == (3, 6)
+    for i, a in enumerate(loads):
+        for k, n in enumerate(servers):
+            exact = mp_erlang(a, n)
+            if exact >= mp.mpf("1e-300"):
+                assert _rel(table[i, k], exact) <= 1e-13, (a, n)
+    # one recursion either way: the full table's columns to the last bit
+    assert np.array_equal(table, erlang_b_table(loads, 200)[:, servers])
+    assert erlang_b_table(loads, 5, servers=[]).shape == (3, 0)
+
+
+def test_erlang_b_runs_against_mpmath():
+    # source: mpmath 50-digit E(A, n) at first + step k; a run of no values, a load of 0,
+    # a step of 0 (one count repeated)
+    loads = [7.0, 0.0, 90.0, 3.0, 33.0]
+    first, step, count = [2, 0, 60, 4, 5], [3, 1, 7, 1, 0], [5, 3, 6, 0, 2]
+    got = erlang_b_runs(loads, first, step, count)
+    assert got.shape == (sum(count),)
+    pos = 0
+    for a, f, s, c in zip(loads, first, step, count, strict=True):
+        for k in range(c):
+            exact = mp_erlang(a, f + s * k)
+            assert _rel(got[pos], exact) <= 1e-13, (a, f + s * k)
+            assert got[pos] == erlang_b_table(a, f + s * k)[-1]  # the same recursion
+            pos += 1
+    assert erlang_b_runs([], [], [], []).shape == (0,)
 
 
 # -- the numerics' own pieces -----------------------------------------------------------------

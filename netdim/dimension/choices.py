@@ -19,6 +19,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from netdim._arrays import frozen
+from netdim.erlang import erlang_b_runs
 from netdim.errors import ModelTooLargeError
 
 __all__ = ["SizingChoices", "LossTable", "first_route_loads", "offered_bound_loads",
@@ -194,7 +195,8 @@ class LossTable:
     """``g_j(n) = -log(1 - E(load_j, n))`` at the capacities ``n = installed_j + module_j k``.
 
     Built with the stable Erlang B recursion ``E(n) = a E(n-1) / (n + a E(n-1))``
-    [1]_, every link at once, holding only each link's module counts up to the capacity
+    [1]_ (:func:`netdim.erlang.erlang_b_runs`), every link at once, holding only each link's
+    module counts up to the capacity
     where its blocking is negligible (above it g is taken as 0); ``log1p`` keeps the
     precision of small blockings. Capacities below the installed one are +inf (a plan never
     goes there).
@@ -219,10 +221,10 @@ class LossTable:
         count = np.where(n1 >= inst, (n1 - inst) // mod + 1, 0)
         start = np.concatenate([[0], np.cumsum(count)]).astype(np.int64)
         values = np.zeros(int(start[-1]))
-        # The recursion runs on the links whose window reaches n only, so that one heavy
-        # link among many light ones costs its own window, not the window times the links.
+        # Each link's recursion runs up to its own window only, so that one heavy link
+        # among many light ones costs its own window, not the window times the links.
         if nl:
-            _table_kernel()(a, inst, mod, n1, start, values)  # Erlang B at the module counts
+            values = erlang_b_runs(a, inst, mod, count)  # Erlang B at the module counts
             with np.errstate(divide="ignore"):  # capacity 0: E = 1, g = inf
                 values = -np.log1p(-values)
         self.loads = a
@@ -258,42 +260,7 @@ class LossTable:
         return out
 
 
-_KERNEL = None
-
-
-def _table_kernel():
-    """The Erlang B recursion per link, storing E at its module counts (numba, compiled on
-    first use and cached on disk: numba takes half a second to import)."""
-    global _KERNEL
-    if _KERNEL is None:
-        import numba
-
-        @numba.njit(cache=True)
-        def kernel(a, inst, mod, n1, start, values):  # pragma: no cover - compiled
-            for j in range(a.shape[0]):
-                pos = start[j]
-                if inst[j] == 0 and n1[j] >= 0:
-                    values[pos] = 1.0  # capacity 0 loses every call
-                    pos += 1
-                e = 1.0
-                for n in range(1, n1[j] + 1):
-                    ae = a[j] * e
-                    e = ae / (n + ae)
-                    if n >= inst[j] and (n - inst[j]) % mod[j] == 0:
-                        values[pos] = e
-                        pos += 1
-
-        _KERNEL = kernel
-    return _KERNEL
-
-
 def _g_direct(loads, n):
-    e = np.ones(len(loads))
-    out = np.zeros(len(loads))
-    for i, (a, c) in enumerate(zip(loads, n, strict=True)):
-        v = 1.0
-        for m in range(1, int(c) + 1):
-            v = a * v / (m + a * v)
-        e[i] = v
-        out[i] = -np.log1p(-v) if v < 1 else np.inf
-    return out
+    e = erlang_b_runs(loads, n, np.zeros_like(n), np.ones_like(n))
+    with np.errstate(divide="ignore"):  # E = 1 (no capacity): g = inf
+        return -np.log1p(-e)

@@ -22,11 +22,11 @@ from __future__ import annotations
 
 import numpy as np
 
-from netdim.erlang import erlang_b
+from netdim.erlang import erlang_b, erlang_b_table
 from netdim.linkmodels import reservation_link_many
 
 __all__ = ["erlang_cut_offsets", "reservation_cut_offsets", "loss_rate", "reservation_losses",
-           "reservation_table", "erlang_table", "check_weights", "erlang_hull_faces",
+           "reservation_table", "check_weights", "erlang_hull_faces",
            "reservation_hull_faces", "SAFETY"]
 
 #: Cells of the offered-load grid on which a cut's offset is checked.
@@ -37,36 +37,6 @@ SAFETY = 1e-9
 _ENV_GRID = 32
 #: Most capacities on that grid (evenly spaced when there are more).
 _ENV_LEVELS = 128
-
-
-def erlang_table(nu, smax, rows=None):
-    """E(nu, s) for s = 0..smax (rows) and every load in ``nu`` (last axis): the recursion.
-
-    With ``rows`` (server counts, each at most ``smax``), only those rows, in that order:
-    the memory is then ``len(rows)`` rows, not ``smax + 1``.
-    """
-    nu = np.asarray(nu, dtype=float)
-    if rows is None:
-        out = np.empty((smax + 1,) + nu.shape)
-        e = np.ones_like(nu)
-        out[0] = e
-        for s in range(1, smax + 1):
-            ae = nu * e
-            e = ae / (s + ae)
-            out[s] = e
-        return out
-    rows = np.asarray(rows, np.int64)
-    out = np.empty((len(rows),) + nu.shape)
-    order = np.argsort(rows, kind="stable")
-    e = np.ones_like(nu)
-    s = 0
-    for i in order:
-        while s < rows[i]:
-            s += 1
-            ae = nu * e
-            e = ae / (s + ae)
-        out[i] = e
-    return out
 
 
 def _plane_offsets(cell_min, beta, gamma, vmax, inst, mod, kmax, max_steps=50_000):
@@ -286,7 +256,7 @@ def reservation_table(first, reservation, o, cs):
     cs = np.asarray(cs, np.int64)
     o = np.asarray(o, float)
     ms = np.maximum(cs - res, 0)
-    e = erlang_table(first + o, int(ms.max()), rows=ms)
+    e = erlang_b_table(first + o, int(ms.max()), servers=ms).T  # e[i]: capacity cs[i]
     fl, ov = np.empty((len(cs), len(o))), np.empty((len(cs), len(o)))
     with np.errstate(divide="ignore", over="ignore", under="ignore", invalid="ignore"):
         for i, c in enumerate(cs):
@@ -311,7 +281,7 @@ def erlang_hull_faces(vmax, installed, module, max_modules, shift=0):
     """
     cs, nus = _hull_grid(vmax, installed, module, max_modules, 0.0)
     servers = np.maximum(cs - shift, 0)
-    e = erlang_table(nus, int(servers.max()), rows=servers)
+    e = erlang_b_table(nus, int(servers.max()), servers=servers).T
     return _lower_faces(cs, nus, nus[None, :] * e)
 
 
