@@ -187,9 +187,16 @@ def erlang_b(traffic, servers):
                 return 1.0 / inv
             return _core.tiny(float(traffic), float(servers))[0]
         return _scalar(traffic, servers, 0)
+    return _checked(traffic, servers, 0)
+
+
+def _checked(traffic, servers, want):
+    """E (want 0), log E (1) or log(1 - E) (2) after the argument checks."""
     _check_arg("traffic", traffic, FINITE)
     _check_arg("servers", servers)
-    return _array(traffic, servers, 0)
+    if type(traffic) in _SCALARS and type(servers) in _SCALARS:
+        return _scalar(traffic, servers, want)
+    return _array(traffic, servers, want)
 
 
 def log_erlang_b(traffic, servers):
@@ -223,13 +230,7 @@ def log_erlang_b(traffic, servers):
     >>> round(log_erlang_b(1.0, 200), 4)
     -864.232
     """
-    if type(traffic) in _SCALARS and type(servers) in _SCALARS:
-        _check_arg("traffic", traffic, FINITE)
-        _check_arg("servers", servers)
-        return _scalar(traffic, servers, 1)
-    _check_arg("traffic", traffic, FINITE)
-    _check_arg("servers", servers)
-    return _array(traffic, servers, 1)
+    return _checked(traffic, servers, 1)
 
 
 def log1m_erlang_b(traffic, servers):
@@ -262,13 +263,7 @@ def log1m_erlang_b(traffic, servers):
     >>> round(log1m_erlang_b(1e6, 1.0), 4)
     -13.8155
     """
-    if type(traffic) in _SCALARS and type(servers) in _SCALARS:
-        _check_arg("traffic", traffic, FINITE)
-        _check_arg("servers", servers)
-        return _scalar(traffic, servers, 2)
-    _check_arg("traffic", traffic, FINITE)
-    _check_arg("servers", servers)
-    return _array(traffic, servers, 2)
+    return _checked(traffic, servers, 2)
 
 
 def erlang_b_table(traffic, max_servers, *, servers=None):
