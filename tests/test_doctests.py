@@ -13,7 +13,8 @@ import importlib
 import pytest
 
 #: Modules whose docstrings carry doctested examples (add yours).
-MODULES = ["netdim", "netdim.erlang", "netdim.engset", "netdim.overflow", "netdim.linkmodels"]
+MODULES = ["netdim", "netdim.erlang", "netdim._erlang_tables", "netdim.engset", "netdim.overflow",
+           "netdim.linkmodels"]
 
 
 @pytest.mark.parametrize("name", MODULES)
