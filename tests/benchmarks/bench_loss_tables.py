@@ -8,7 +8,8 @@ secant MILP's and the local search's per-link tables) and the loss cuts' hull ta
 Each round runs one child process per tree (this one and ``--against``, alternately, so that
 the machine's load falls on both), which builds every table once to compile and load, then
 times each case; the printed figures are medians over the rounds of each case's time, and
-the ratio is this tree's over the other's. Cases:
+the ratio is this tree's over the other's; "values" says whether the two trees' results
+(every array, as bytes) are identical. Cases:
 
 * ``LossTable``, 19,900 links (the 200-site mesh's count) offered 5-60 E, modules 1-4;
 * ``LossTable``, 2,001 links, one of them offered 5e4 E (its window alone is 5e4 long);
@@ -29,7 +30,7 @@ import sys
 HERE = pathlib.Path(__file__).resolve().parents[2]
 
 CHILD = r"""
-import json, sys, time
+import hashlib, json, sys, time
 import numpy as np
 from netdim.dimension import loss_cuts as lc
 from netdim.dimension.choices import LossTable
@@ -42,8 +43,16 @@ odd_j = rng.integers(0, 100, 20_000)
 odd_n = 3 * rng.integers(1, 20, 20_000) + 1
 
 def odd():
-    for j in range(100):
-        odd_t.g(j, odd_n[odd_j == j])
+    return [odd_t.g(j, odd_n[odd_j == j]) for j in range(100)]
+
+
+def digest(value):  # sha256 of every array of a result, to compare two trees
+    h = hashlib.sha256()
+    if isinstance(value, LossTable):
+        value = [value._values, value.g_all(value.installed + 3 * value.module)]
+    for part in value if isinstance(value, (list, tuple)) else [value]:
+        h.update(np.ascontiguousarray(part).tobytes())
+    return h.hexdigest()[:16]
 
 cases = {
     "LossTable, 19,900 links": lambda: LossTable(*mesh),
@@ -53,14 +62,13 @@ cases = {
     "reservation_hull_faces": lambda: lc.reservation_hull_faces((1, 1), 300.0, 0, 1, 2000,
                                                                 400.0, 3),
 }
-for fn in cases.values():
-    fn()  # compile, load, warm
+values = {name: digest(fn()) for name, fn in cases.items()}  # compile, load, warm
 out = {}
 for name, fn in cases.items():
     t0 = time.perf_counter()
     fn()
     out[name] = time.perf_counter() - t0
-print(json.dumps(out))
+print(json.dumps({"times": out, "values": values}))
 """
 
 
@@ -83,11 +91,13 @@ def main(argv=None):
             times[key].append(run_child(tree))
     print(f"medians of {args.repeats} rounds, ms (this: {trees['this']}, other: "
           f"{trees['other']})")
-    print(f"{'case':40s} {'this':>9s} {'other':>9s} {'ratio':>6s}")
-    for case in times["this"][0]:
-        a = statistics.median(r[case] for r in times["this"]) * 1e3
-        b = statistics.median(r[case] for r in times["other"]) * 1e3
-        print(f"{case:40s} {a:9.2f} {b:9.2f} {a / b:6.2f}")
+    print(f"{'case':40s} {'this':>9s} {'other':>9s} {'ratio':>6s}  values")
+    for case in times["this"][0]["times"]:
+        a = statistics.median(r["times"][case] for r in times["this"]) * 1e3
+        b = statistics.median(r["times"][case] for r in times["other"]) * 1e3
+        same = times["this"][0]["values"][case] == times["other"][0]["values"][case]
+        print(f"{case:40s} {a:9.2f} {b:9.2f} {a / b:6.2f}  "
+              f"{'identical' if same else 'DIFFERENT'}")
 
 
 if __name__ == "__main__":
