@@ -59,7 +59,8 @@ def erlang_b_table(traffic, max_servers, *, servers=None):
 
     References
     ----------
-    .. [1] A. K. Erlang, Elektroteknikeren 13 (1917) 5-13.
+    .. [1] A. K. Erlang, "Solution of some problems in the theory of probabilities of
+       significance in automatic telephone exchanges", Elektroteknikeren 13 (1917) 5-13.
 
     Examples
     --------
@@ -129,7 +130,8 @@ def erlang_b_runs(traffic, first, step, count):
 
     References
     ----------
-    .. [1] A. K. Erlang, Elektroteknikeren 13 (1917) 5-13.
+    .. [1] A. K. Erlang, "Solution of some problems in the theory of probabilities of
+       significance in automatic telephone exchanges", Elektroteknikeren 13 (1917) 5-13.
 
     Examples
     --------
