@@ -118,6 +118,7 @@ def test_markov_chain_balance_by_brute_force(triangle):
     np.testing.assert_allclose(ev.blocking, pi @ lost, rtol=1e-8)
 
 
+@pytest.mark.slow  # 8-11 s: two phase-chain solves (issue 13: long tests are marked)
 def test_holding_times_only_scale_time(triangle):
     # source: blocking depends on holding times only through the erlangs offered, when every
     # holding time is scaled alike (a change of time unit; common practice, no source).
