@@ -6,6 +6,7 @@ import json
 import sys
 import time
 
+from netdim.cli.report_cmd import add_report_options, check_report_args, write_evaluation_report
 from netdim.evaluate import (
     COMPARE_OPTIONS,
     HOLDING_LAWS,
@@ -68,6 +69,7 @@ def register(subparsers):
     g.add_argument("--max-iter", type=int, default=None, metavar="N",
                    help="most iterations (1000)")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    add_report_options(p)
     p.set_defaults(func=run)
     return p
 
@@ -145,6 +147,9 @@ def _report_verdicts(ids, verdicts) -> int:
 def run(args) -> int:
     method = _method(args)
     given = _check_flags(args, method)
+    if args.check and args.report:
+        raise ValueError("--report: does not apply to --check")
+    check_report_args(args, inputs=[args.file], outputs=[args.csv])
     network = read_network(args.file)
     opts = {dest: getattr(args, dest) for dest in given}
 
@@ -163,6 +168,7 @@ def run(args) -> int:
     if method == "simulate":
         opts["progress"] = _progress(args)
     ev = evaluate(network, method=method, **opts)
+    write_evaluation_report(args, network, ev)
     if args.csv:
         write_csv(ev, args.csv)
     if args.json:

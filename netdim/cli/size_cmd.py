@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 import sys
 
+from netdim.cli.report_cmd import add_report_options, check_report_args, write_plan_report
 from netdim.dimension import (
     DEFAULT_BOUND_TIME,
     DEFAULT_MARGIN,
@@ -46,7 +47,8 @@ def register(subparsers):
                    help="write the plan: the network file as written, with only the "
                    "capacities changed (refused when PLAN.yaml is FILE itself, unless --force)")
     p.add_argument("--force", action="store_true",
-                   help="let --out replace the input FILE with the plan")
+                   help="let --out replace the input FILE with the plan, and --report "
+                   "replace a file that is not a netdim report")
     p.add_argument("--gap", "--mip-gap", type=float, default=1e-4, metavar="X",
                    help="relative gap each MILP is solved to (default 1e-4)")
     p.add_argument("--time-limit", type=float, default=None, metavar="S",
@@ -72,6 +74,7 @@ def register(subparsers):
                    "a warning says when this stop fires, and only then does more time "
                    "give a tighter bound")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    add_report_options(p, force=False)
     p.set_defaults(func=run)
     return p
 
@@ -101,6 +104,7 @@ def run(args) -> int:
     sizing, verify = _options(args)
     if args.out:  # before any work: a plan that cannot be written is not worth sizing
         check_plan_path(args.file, args.out, args.force)
+    check_report_args(args, inputs=[args.file], outputs=[args.out])
     network = read_network(args.file)
     if not args.verify and network.routing.policy == "alternate" and not args.quiet \
             and sizing.objective == "cost":
@@ -117,6 +121,7 @@ def run(args) -> int:
                      progress=None if args.quiet else progress)
     if args.out:
         write_plan(network, args.out, plan.capacities, force=args.force)
+    write_plan_report(args, plan)
     if args.json:
         print(json.dumps(plan.to_dict(), indent=2))
     else:

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-__all__ = ["format_table", "fmt_prob", "fmt_num", "fmt_short", "CAUTION"]
+__all__ = ["format_table", "fmt_prob", "fmt_num", "fmt_short", "CAUTION", "caution_for"]
 
 #: The caution every report carries.
 CAUTION = (
@@ -10,6 +10,29 @@ CAUTION = (
     "Poisson arrivals, holding times). Capacity for emergency services, parking provision and "
     "accessibility follow local codes and licensed practice."
 )
+
+_ASSUMPTIONS = ("Planning estimates only: the figures rest on the traffic assumptions "
+                "(busy-hour loads, Poisson arrivals, holding times).")
+_CODES = {
+    "telephone": " Capacity kept for emergency calls follows local codes and licensed "
+                 "practice, not these figures.",
+    "parking": " Parking provision and accessible spaces follow local codes and licensed "
+               "practice, not these figures.",
+}
+
+
+def caution_for(kind=None) -> str:
+    """The caution every report carries, in the words of its kind of network.
+
+    ``kind`` is ``'telephone'`` (trunk groups), ``'parking'`` (car parks and shuttles) or
+    None (either: :data:`CAUTION`, naming both).
+    """
+    if kind is None:
+        return CAUTION
+    if kind not in _CODES:
+        raise ValueError(f"kind: unknown kind {kind!r}; choose one of 'telephone', 'parking'"
+                         " or None")
+    return _ASSUMPTIONS + _CODES[kind]
 
 
 def fmt_prob(p: float) -> str:

@@ -7,7 +7,7 @@ is met, a bound only where the plan carries one.
 
 from __future__ import annotations
 
-from netdim.report.text import CAUTION
+from netdim.report.text import caution_for
 from netdim.vocabulary import Verdict
 
 __all__ = [
@@ -179,7 +179,7 @@ def cautions(network, kind, evaluations) -> list[str]:
     """The cautions of a report: the general one, those of the network's kind, and those of
     the methods used."""
     check_kind(kind)
-    out = [CAUTION, *_KIND_CAUTIONS[kind]]
+    out = [caution_for(kind), *_KIND_CAUTIONS[kind]]
     methods = {ev.method for ev in evaluations}
     if "fixed-point" in methods and network.routing.policy == "alternate":
         out.append("Under alternate routing the fixed point treats overflow traffic as if it "
