@@ -221,3 +221,58 @@ def test_no_matplotlib_is_refused_before_any_work(tmp_path, capsys, monkeypatch)
                                        "is not installed; install it with: pip install "
                                        "'netdim[report]'\n")
     assert not plan.exists()
+
+
+# -- CSV ----------------------------------------------------------------------------------------
+def _csv(path):
+    import csv
+
+    with open(path, newline="", encoding="utf-8") as f:
+        return list(csv.DictReader(f))
+
+
+def _same_number(text, value):
+    # plain numbers: no percent sign, no thousands separator, and the very double of the JSON
+    assert "%" not in text and "," not in text
+    return float(text) == float(value)
+
+
+def test_size_csv_equals_the_json(tmp_path, capsys):
+    net = str(NETWORKS / "three-villages.yaml")
+    out = tmp_path / "csv"
+    argv = ["--quiet", "--bound-time", "2", "--verify", "--verify-calls", "20000", "--seed",
+            "3"]
+    status, d = _json(capsys, ["size", net, "--json", "--csv", str(out), *argv])
+    assert status in (0, 1)
+    links = _csv(out / "links.csv")
+    assert [r["id"] for r in links] == [r["id"] for r in d["links"]]
+    for row, rec in zip(links, d["links"], strict=True):
+        for key in ("capacity", "modules", "cost", "utilisation", "baseline_capacity"):
+            assert _same_number(row[key], rec[key]), key
+    demands = _csv(out / "demands.csv")
+    sim = {r["id"]: r for r in d["verification"]["demands"]}
+    for row, rec in zip(demands, d["demands"], strict=True):
+        assert row["id"] == rec["id"]
+        for key in ("offered", "carried", "blocking", "target"):
+            assert _same_number(row[key], rec[key]), key
+        assert row["met"] == str(rec["met"]).lower() and row["verdict"] == rec["verdict"]
+        s = sim[rec["id"]]
+        assert _same_number(row["simulated_blocking"], s["blocking"])
+        assert _same_number(row["simulated_low"], s["interval"][0])
+        assert _same_number(row["simulated_high"], s["interval"][1])
+        # met only when the whole interval is at or below the target (the JSON's 'judged'
+        # reads the point estimate alone, so the rule is restated here)
+        lo, hi = s["interval"]
+        want = "met" if hi <= s["target"] else "missed" if lo > s["target"] else "unclear"
+        assert row["simulated_verdict"] == want
+    for name in ("links.csv", "demands.csv"):
+        assert os.stat(out / name).st_mode & 0o777 == 0o644 & ~_umask()
+
+
+def test_report_csv_equals_evaluate_csv(tmp_path, capsys):
+    net = str(NETWORKS / "regional-telephone.yaml")
+    assert main(["report", net, "-o", str(tmp_path / "r.html"), "--csv", str(tmp_path / "a")]) \
+        == 0
+    assert main(["evaluate", net, "--csv", str(tmp_path / "b")]) == 0
+    for name in ("demands.csv", "links.csv"):
+        assert (tmp_path / "a" / name).read_text() == (tmp_path / "b" / name).read_text()

@@ -18,7 +18,7 @@ from netdim.dimension import (
     dimension,
 )
 from netdim.netfile import check_plan_path, read_network, write_plan
-from netdim.report.plan import format_plan
+from netdim.report.plan import format_plan, write_plan_csv
 
 __all__ = ["register", "run"]
 
@@ -46,6 +46,8 @@ def register(subparsers):
     p.add_argument("--out", metavar="PLAN.yaml",
                    help="write the plan: the network file as written, with only the "
                    "capacities changed (refused when PLAN.yaml is FILE itself, unless --force)")
+    p.add_argument("--csv", metavar="DIR", help="also write DIR/links.csv and DIR/demands.csv "
+                   "(the plan's tables, plain numbers)")
     p.add_argument("--force", action="store_true",
                    help="let --out replace the input FILE with the plan, and --report "
                    "replace a file that is not a netdim report")
@@ -104,7 +106,7 @@ def run(args) -> int:
     sizing, verify = _options(args)
     if args.out:  # before any work: a plan that cannot be written is not worth sizing
         check_plan_path(args.file, args.out, args.force)
-    check_report_args(args, inputs=[args.file], outputs=[args.out])
+    check_report_args(args, inputs=[args.file], outputs=[args.out, args.csv])
     network = read_network(args.file)
     if not args.verify and network.routing.policy == "alternate" and not args.quiet \
             and sizing.objective == "cost":
@@ -122,6 +124,8 @@ def run(args) -> int:
     if args.out:
         write_plan(network, args.out, plan.capacities, force=args.force)
     write_plan_report(args, plan)
+    if args.csv:
+        write_plan_csv(plan, args.csv)
     if args.json:
         print(json.dumps(plan.to_dict(), indent=2))
     else:

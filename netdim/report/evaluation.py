@@ -26,6 +26,9 @@ __all__ = [
     "demands_csv",
     "links_csv",
     "write_csv",
+    "csv_text",
+    "write_text_atomic",
+    "csv_number",
     "DEMAND_COLUMNS",
     "LINK_COLUMNS",
     "VERDICT_TEXT",
@@ -175,7 +178,8 @@ def evaluation_text(ev, title=None, limit=None) -> str:
     return "\n".join(out) + "\n"
 
 
-def _csv_text(header, rows) -> str:
+def csv_text(header, rows) -> str:
+    """CSV text: a header row, then the rows (cells as given), ``\\n`` line ends."""
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(header)
@@ -183,8 +187,12 @@ def _csv_text(header, rows) -> str:
     return buf.getvalue()
 
 
-def _g(x) -> str:
+def csv_number(x) -> str:
+    """A float as CSV writes it: the shortest text that reads back as the same double."""
     return repr(float(x))
+
+
+_g = csv_number
 
 
 def demands_csv(ev) -> str:
@@ -207,7 +215,7 @@ def demands_csv(ev) -> str:
         if iv is not None:
             row += [_g(iv[i][0]), _g(iv[i][1])]
         rows.append(row)
-    return _csv_text(header, rows)
+    return csv_text(header, rows)
 
 
 def links_csv(ev) -> str:
@@ -225,7 +233,7 @@ def links_csv(ev) -> str:
         if iv is not None:
             row += [_g(iv[j][0]), _g(iv[j][1])]
         rows.append(row)
-    return _csv_text(header, rows)
+    return csv_text(header, rows)
 
 
 def _umask() -> int:
@@ -235,7 +243,7 @@ def _umask() -> int:
     return mask
 
 
-def _write_atomic(path, text):
+def write_text_atomic(path, text):
     """Write ``text`` to ``path`` through a temporary file in the same directory.
 
     The file gets the mode an ordinary ``open(path, 'w')`` would give (0666 less the
@@ -275,6 +283,6 @@ def write_csv(ev, directory) -> tuple[str, str]:
     os.makedirs(directory, exist_ok=True)
     d_path = os.path.join(directory, "demands.csv")
     l_path = os.path.join(directory, "links.csv")
-    _write_atomic(d_path, demands_csv(ev))
-    _write_atomic(l_path, links_csv(ev))
+    write_text_atomic(d_path, demands_csv(ev))
+    write_text_atomic(l_path, links_csv(ev))
     return d_path, l_path

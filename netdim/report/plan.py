@@ -2,12 +2,24 @@
 
 from __future__ import annotations
 
+import os
+
 import numpy as np
 
+from netdim.report.evaluation import csv_number, csv_text, write_text_atomic
 from netdim.report.text import CAUTION, fmt_num, fmt_prob, format_table
 from netdim.vocabulary import Verdict
 
-__all__ = ["format_plan"]
+__all__ = ["format_plan", "plan_links_csv", "plan_demands_csv", "write_plan_csv",
+           "PLAN_LINK_COLUMNS", "PLAN_DEMAND_COLUMNS"]
+
+#: Columns of a plan's links.csv: the ``--json`` link fields, then the plan's evaluation
+#: (the ``--csv`` contract: add columns, never rename).
+PLAN_LINK_COLUMNS = ("id", "capacity", "modules", "cost", "utilisation", "baseline_capacity",
+                     "installed", "offered", "carried", "blocking", "blocking_alternate")
+#: Columns of a plan's demands.csv: the ``--json`` demand fields; a verified plan adds
+#: ``simulated_blocking``, ``simulated_low``, ``simulated_high``, ``simulated_verdict``.
+PLAN_DEMAND_COLUMNS = ("id", "offered", "carried", "blocking", "target", "met", "verdict")
 
 _SAY = {Verdict.MET.value: "yes", Verdict.MISSED.value: "NO",
         Verdict.UNCLEAR.value: "unclear"}
@@ -163,3 +175,67 @@ def _table(headers, rows, max_rows):
         extra = len(rows) - max_rows
         return format_table(headers, rows[:max_rows]) + f"\n... {extra} more rows"
     return format_table(headers, rows)
+
+
+# -- CSV ------------------------------------------------------------------------------------
+def plan_links_csv(plan) -> str:
+    """links.csv of a plan, in link order: :data:`PLAN_LINK_COLUMNS`."""
+    ev = plan.evaluation
+    net = plan.network
+    installed = ([link.installed for link in net.links] if net is not None
+                 else [""] * len(ev.link_ids))
+    rows = []
+    for j, lid in enumerate(ev.link_ids):
+        rows.append([lid, int(plan.capacities[j]), int(plan.modules[j]),
+                     csv_number(plan.link_costs[j]), csv_number(ev.utilisation[j]),
+                     int(plan.baseline_capacities[j]), installed[j],
+                     csv_number(ev.link_offered[j]), csv_number(ev.link_carried[j]),
+                     csv_number(ev.link_blocking[j]), csv_number(ev.link_blocking_alternate[j])])
+    return csv_text(PLAN_LINK_COLUMNS, rows)
+
+
+def plan_demands_csv(plan) -> str:
+    """demands.csv of a plan, in demand order: :data:`PLAN_DEMAND_COLUMNS`, and for a
+    verified plan the simulation's blocking, interval and verdict (met only when the whole
+    interval lies at or below the target)."""
+    ev = plan.evaluation
+    ver = plan.verification
+    header = list(PLAN_DEMAND_COLUMNS)
+    if ver is not None:
+        header += ["simulated_blocking", "simulated_low", "simulated_high", "simulated_verdict"]
+        sim_verdict = ver.verdicts()
+    verdict = ev.verdicts()
+    rows = []
+    for i, did in enumerate(ev.demand_ids):
+        row = [did, csv_number(ev.offered[i]), csv_number(ev.carried[i]),
+               csv_number(ev.blocking[i]), csv_number(ev.target[i]),
+               "true" if verdict[i] == Verdict.MET.value else "false", str(verdict[i])]
+        if ver is not None:
+            iv = ver.blocking_interval
+            lo, hi = (iv[i] if iv is not None else (ver.blocking[i], ver.blocking[i]))
+            row += [csv_number(ver.blocking[i]), csv_number(lo), csv_number(hi),
+                    str(sim_verdict[i])]
+        rows.append(row)
+    return csv_text(header, rows)
+
+
+def write_plan_csv(plan, directory) -> tuple[str, str]:
+    """Write a plan's ``links.csv`` and ``demands.csv`` into ``directory`` (created if
+    needed), each through a temporary file renamed into place.
+
+    Returns
+    -------
+    (str, str)
+        Paths of the two files.
+
+    Raises
+    ------
+    OSError
+        The directory cannot be created or written.
+    """
+    os.makedirs(directory, exist_ok=True)
+    l_path = os.path.join(directory, "links.csv")
+    d_path = os.path.join(directory, "demands.csv")
+    write_text_atomic(l_path, plan_links_csv(plan))
+    write_text_atomic(d_path, plan_demands_csv(plan))
+    return l_path, d_path
