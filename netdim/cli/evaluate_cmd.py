@@ -175,5 +175,5 @@ def run(args) -> int:
         print(json.dumps(ev.to_dict(), indent=2))
     else:
         title = f"{network.name} ({args.file})"
-        print(evaluation_text(ev, title=title), end="")
+        print(evaluation_text(ev, title=title, kind=args.kind, network=network), end="")
     return _report_verdicts(ev.demand_ids, ev.verdicts())

@@ -129,7 +129,7 @@ def run(args) -> int:
     if args.json:
         print(json.dumps(plan.to_dict(), indent=2))
     else:
-        print(format_plan(plan))
+        print(format_plan(plan, kind=args.kind))
     for w in plan.warnings:
         print(f"netdim size: warning: {w}", file=sys.stderr)
     if not plan.feasible:
