@@ -19,6 +19,7 @@ from netdim.dimension import (
 )
 from netdim.netfile import check_plan_path, read_network, write_plan
 from netdim.report.plan import format_plan, write_plan_csv
+from netdim.report.progress import ProgressSummary
 
 __all__ = ["register", "run"]
 
@@ -76,6 +77,8 @@ def register(subparsers):
                    "a warning says when this stop fires, and only then does more time "
                    "give a tighter bound")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    p.add_argument("-v", "--verbose", action="store_true",
+                   help="every progress line (the full trace); default a few summary lines")
     add_report_options(p, force=False)
     p.set_defaults(func=run)
     return p
@@ -114,13 +117,15 @@ def run(args) -> int:
               "add --verify to check the plan by simulation and calibrate it",
               file=sys.stderr)
 
-    def progress(fraction, message):
-        print(f"netdim size: {message}", file=sys.stderr, flush=True)
+    def emit(line):
+        print(f"netdim size: {line}", file=sys.stderr, flush=True)
 
+    progress = ProgressSummary(emit, verbose=args.verbose)
     plan = dimension(network, model=sizing.model, solver=sizing.solver, mip_gap=sizing.mip_gap,
                      time_limit=sizing.time_limit, objective=sizing.objective,
                      bound_time=sizing.bound_time, verify=verify,
                      progress=None if args.quiet else progress)
+    progress.close()
     if args.out:
         write_plan(network, args.out, plan.capacities, force=args.force)
     write_plan_report(args, plan)
