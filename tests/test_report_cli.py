@@ -276,3 +276,19 @@ def test_report_csv_equals_evaluate_csv(tmp_path, capsys):
     assert main(["evaluate", net, "--csv", str(tmp_path / "b")]) == 0
     for name in ("demands.csv", "links.csv"):
         assert (tmp_path / "a" / name).read_text() == (tmp_path / "b" / name).read_text()
+
+
+def test_check_csv_equals_the_json(tmp_path, capsys):
+    net = str(NETWORKS / "three-villages.yaml")
+    argv = ["evaluate", net, "--check", "--seed", "1", "--calls", "20000"]
+    _, d = _json(capsys, [*argv, "--json", "--csv", str(tmp_path)])
+    rows = _csv(tmp_path / "comparison.csv")
+    assert [r["id"] for r in rows] == [r["id"] for r in d["demands"]]
+    for row, rec in zip(rows, d["demands"], strict=True):
+        for key in ("target", "fixed_point", "simulated", "exact"):
+            assert _same_number(row[key], rec[key]), key
+        assert _same_number(row["interval_low"], rec["interval"][0])
+        assert _same_number(row["interval_high"], rec["interval"][1])
+        assert row["outside"] == str(rec["outside"]).lower()
+        assert row["verdict"] == rec["verdict"]
+        assert int(row["blocked_calls"]) == rec["blocked_calls"]

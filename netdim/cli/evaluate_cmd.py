@@ -16,7 +16,7 @@ from netdim.evaluate import (
     evaluate,
 )
 from netdim.netfile import read_network
-from netdim.report.comparison import comparison_text
+from netdim.report.comparison import comparison_text, write_comparison_csv
 from netdim.report.evaluation import evaluation_text, write_csv
 from netdim.vocabulary import Verdict
 
@@ -45,7 +45,8 @@ def register(subparsers):
     p.add_argument("--conservative", action="store_true",
                    help="same as --method conservative: un-thinned link loads (product bound)")
     p.add_argument("--json", action="store_true", help="print the result as JSON")
-    p.add_argument("--csv", metavar="DIR", help="also write DIR/demands.csv and DIR/links.csv")
+    p.add_argument("--csv", metavar="DIR", help="also write DIR/demands.csv and DIR/links.csv "
+                   "(with --check: DIR/comparison.csv)")
     p.add_argument("--check", "--compare", dest="check", action="store_true",
                    help="accuracy check: fixed point beside simulation (and exact where small)")
     g = p.add_argument_group("simulation (--method simulate, --check)")
@@ -118,8 +119,6 @@ def _check_flags(args, method):
         wrong = [d for d in given if d not in COMPARE_OPTIONS]
         if wrong:
             raise ValueError(f"{_flag(wrong[0])}: does not apply to --check")
-        if args.csv:
-            raise ValueError("--csv: does not apply to --check")
         return given
     for dest in given:
         if dest not in METHOD_OPTIONS[method]:
@@ -158,6 +157,8 @@ def run(args) -> int:
         more = {"max_states": opts["max_states"]} if "max_states" in opts else {}
         result = compare_methods(network, network.capacities(), sim,
                                  progress=_progress(args), **more)
+        if args.csv:
+            write_comparison_csv(result, args.csv)
         if args.json:
             print(json.dumps(result.to_dict(), indent=2))
         else:
