@@ -143,3 +143,23 @@ def test_size_table_is_golden_and_equals_the_json(capsys, monkeypatch):
     assert _close(totals["baseline cost"], d["baseline_cost"])
     assert f"gap            {100 * d['gap']:.1f}%" in text
     assert f"({100 * d['saving']:.1f}% of the baseline cost)" in text
+
+
+@pytest.mark.parametrize("kind, words", [
+    # the descriptions netdim.dimension gives its bounds (Plan.details['bound'])
+    ("MILP at least thinned loads A(1 - t)", "less all the loss their targets allow"),
+    ("MILP at least thinned loads A(1 - t), 3 of 4 choices of links to build solved",
+     "allow, A(1 - t), 3 of 4 choices of links to build solved"),
+    ("MILP at un-thinned loads", "whole traffic"),
+    ("loss-flow LP (9 rounds, 68 cuts)", "(9 rounds, 68 cutting planes)"),
+    ("loss-flow MILP (9 LP and 3 MILP rounds, 188 cuts)",
+     "in whole modules (9 LP and 3 MILP rounds, 188 cuts)"),
+    ("least cost: every cheaper plan listed and evaluated",
+     "least cost: every cheaper plan listed and evaluated"),
+])
+def test_bounds_are_named_in_plain_words(kind, words):
+    from netdim.report.words import bound_plain
+
+    text = bound_plain(kind)
+    assert words in text
+    assert not text.startswith(("MILP", "loss-flow"))

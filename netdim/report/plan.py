@@ -17,6 +17,7 @@ from netdim.report.text import (
     percent_column,
     prob_column,
 )
+from netdim.report.words import bound_plain
 from netdim.vocabulary import Verdict
 
 __all__ = ["format_plan", "plan_links_csv", "plan_demands_csv", "write_plan_csv",
@@ -85,7 +86,7 @@ def format_plan(plan, max_rows=None, kind=None) -> str:
         out.append(f"upper bound    {value[1]}  ({d.get('bound', '')})")
         out.append(f"net value gap  {100 * plan.gap:.1f}%")
     else:
-        out.append(f"lower bound    {money[1]}  ({plan.details.get('bound', '')})")
+        out.append(f"lower bound    {money[1]}  ({bound_plain(plan.details.get('bound'))})")
         out.append(f"gap            {100 * plan.gap:.1f}%  ((cost - bound) / cost)")
     out.append(f"baseline cost  {money[2]}  (each link alone, target / hops)"
                if not net_value else f"baseline cost  {money[2]}  (each link alone)")

@@ -7,6 +7,8 @@ is met, a bound only where the plan carries one.
 
 from __future__ import annotations
 
+import re
+
 from netdim.report.text import caution_for
 from netdim.vocabulary import Verdict
 
@@ -17,6 +19,7 @@ __all__ = [
     "method_words",
     "routing_words",
     "bound_words",
+    "bound_plain",
     "cautions",
 ]
 
@@ -144,7 +147,7 @@ def bound_words(plan, network, costs) -> list[str]:
     and ``unverified_cost`` for a verified plan), so the words and the tables agree.
     """
     d = plan.details
-    kind = d.get("bound") or "no description"
+    kind = bound_plain(d.get("bound")) or "no description"
     if plan.status == "economic":
         return [f"Sized for value carried minus cost: no blocking target is enforced, and "
                 f"there is no lower bound on cost. Value carried minus cost is within "
@@ -173,6 +176,37 @@ def bound_words(plan, network, costs) -> list[str]:
         out.append("A cheaper plan may exist, or the bound may be loose; the figures cannot "
                    "tell which. More solver time can narrow the gap.")
     return out
+
+
+# How the sizing library names its lower bounds (Plan.details['bound']), in plain words.
+_BOUNDS = (
+    (r"MILP at least thinned loads A\(1 - t\)",
+     "the least cost when each link carries only the least load it can see, its demands' "
+     "traffic less all the loss their targets allow, A(1 - t)"),
+    (r"MILP at un-thinned loads",
+     "the least cost when each link is offered its demands' whole traffic, none lost on "
+     "other links"),
+    (r"MILP: capacity >= carried load, whole modules and fixed costs",
+     "the least cost of capacity at least the load each link carries, in whole modules, "
+     "with the fixed costs"),
+    (r"loss-flow LP \((\d+) rounds, (\d+) cuts\)",
+     r"a linear relaxation of the traffic carried and lost on every route and link (\1 "
+     r"rounds, \2 cutting planes)"),
+    (r"loss-flow MILP \((.*)\)",
+     r"a relaxation of the traffic carried and lost on every route and link, in whole "
+     r"modules (\1)"),
+)
+
+
+def bound_plain(kind) -> str:
+    """A lower bound's description (``Plan.details['bound']``) in plain words; an unknown
+    one as it is."""
+    text = str(kind or "")
+    for pattern, words in _BOUNDS:
+        m = re.match(pattern, text)
+        if m:
+            return m.expand(words) + text[m.end():]
+    return text
 
 
 def cautions(network, kind, evaluations) -> list[str]:
