@@ -292,3 +292,29 @@ def test_check_csv_equals_the_json(tmp_path, capsys):
         assert row["outside"] == str(rec["outside"]).lower()
         assert row["verdict"] == rec["verdict"]
         assert int(row["blocked_calls"]) == rec["blocked_calls"]
+
+
+def test_a_study_adds_its_sections_through_the_same_helpers(tmp_path):
+    # What a study command does with --report: its charts as sections of the evaluation's
+    # page, or a page of its own sections; the cautions of its kind close both.
+    import argparse
+
+    import netdim
+    from netdim.cli.report_cmd import write_evaluation_report, write_sections_report
+    from netdim.report.page import chart_section
+
+    chart = chart_section("growth", "Growth by year", figures.growth_chart(
+        [2027, 2028], [100.0, 130.0]), "demo chart")
+    src = str(NETWORKS / "three-villages.yaml")
+    args = argparse.Namespace(report=str(tmp_path / "a.html"), kind="telephone", file=src)
+    net = netdim.read_network(src)
+    write_evaluation_report(args, net, netdim.evaluate(net), sections=[chart])
+    page = Page(_read(tmp_path / "a.html"))
+    assert page.ids.index("growth") < page.ids.index("assumptions")
+    args.report = str(tmp_path / "b.html")
+    write_sections_report(args, "Growth study", [chart], lead="demo")
+    text = _read(tmp_path / "b.html")
+    ids = Page(text).ids
+    assert ids.index("growth") < ids.index("cautions")
+    assert "Capacity kept for emergency calls" in page_text(text, "cautions")
+    assert is_report(tmp_path / "b.html")

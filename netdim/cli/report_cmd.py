@@ -19,13 +19,20 @@ from netdim.evaluate import HOLDING_LAWS, METHOD_OPTIONS, METHODS, evaluate
 from netdim.netfile import read_network
 from netdim.report.evaluation import write_csv
 from netdim.report.figures import require_matplotlib
-from netdim.report.html import combined_verdicts, evaluation_html, plan_html
+from netdim.report.html import (
+    cautions_section,
+    combined_verdicts,
+    evaluation_html,
+    html_document,
+    plan_html,
+)
 from netdim.report.page import check_report_path, write_report
 from netdim.report.words import verdict_counts_words
 from netdim.vocabulary import Verdict
 
 __all__ = ["register", "run", "add_report_options", "check_report_args",
-           "write_evaluation_report", "write_plan_report", "KIND_CHOICES"]
+           "write_evaluation_report", "write_plan_report", "write_sections_report",
+           "KIND_CHOICES"]
 
 #: Values of ``--kind``: the words the report (and the caution) speaks in.
 KIND_CHOICES = ("telephone", "parking")
@@ -120,22 +127,38 @@ def _seed(ev):
     return None if seed is None else int(seed)
 
 
-def write_evaluation_report(args, network, ev, *, path=None) -> str | None:
-    """Write the report of ``ev`` to ``path`` (default ``args.report``); the path or None."""
+def write_evaluation_report(args, network, ev, *, path=None, sections=()) -> str | None:
+    """Write the report of ``ev`` to ``path`` (default ``args.report``); the path or None.
+
+    ``sections``: more :class:`~netdim.report.page.Section` objects (a study's tables and
+    charts, see :func:`~netdim.report.page.chart_section`), placed before the assumptions.
+    """
     path = path or getattr(args, "report", None)
     if not path:
         return None
     page = evaluation_html(network, ev, kind=args.kind, seed=_seed(ev), source=args.file,
                            measure=getattr(args, "measure", "utilisation"),
-                           curves=getattr(args, "curves", 4), title=getattr(args, "title", None))
+                           curves=getattr(args, "curves", 4), title=getattr(args, "title", None),
+                           sections=sections)
     return write_report(page, path)
 
 
-def write_plan_report(args, plan) -> str | None:
-    """Write the report of a sizing plan to ``args.report``; the path or None."""
+def write_plan_report(args, plan, *, sections=()) -> str | None:
+    """Write the report of a sizing plan to ``args.report``; the path or None.
+    ``sections`` as :func:`write_evaluation_report`."""
     if not getattr(args, "report", None):
         return None
-    return write_report(plan_html(plan, kind=args.kind, source=args.file), args.report)
+    page = plan_html(plan, kind=args.kind, source=args.file, sections=sections)
+    return write_report(page, args.report)
+
+
+def write_sections_report(args, title, sections, *, lead=None) -> str | None:
+    """Write a page of ``sections`` alone to ``args.report`` (a study with no one
+    evaluation to lead with); the path or None. The cautions of ``args.kind`` close it."""
+    if not getattr(args, "report", None):
+        return None
+    body = list(sections) + [cautions_section(args.kind)]
+    return write_report(html_document(title, body, lead=lead), args.report)
 
 
 # -- netdim report --------------------------------------------------------------------------

@@ -21,6 +21,7 @@ __all__ = [
     "bound_words",
     "bound_plain",
     "cautions",
+    "cautions_of_kind",
 ]
 
 #: Kinds of network a report can speak of: the name of a capacity unit and a line saying what
@@ -209,11 +210,16 @@ def bound_plain(kind) -> str:
     return text
 
 
+def cautions_of_kind(kind) -> list[str]:
+    """The general caution and those of the network's kind (no method's)."""
+    check_kind(kind)
+    return [caution_for(kind), *_KIND_CAUTIONS[kind]]
+
+
 def cautions(network, kind, evaluations) -> list[str]:
     """The cautions of a report: the general one, those of the network's kind, and those of
     the methods used."""
-    check_kind(kind)
-    out = [caution_for(kind), *_KIND_CAUTIONS[kind]]
+    out = cautions_of_kind(kind)
     methods = {ev.method for ev in evaluations}
     if "fixed-point" in methods and network.routing.policy == "alternate":
         out.append("Under alternate routing the fixed point treats overflow traffic as if it "
