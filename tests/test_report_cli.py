@@ -318,3 +318,42 @@ def test_a_study_adds_its_sections_through_the_same_helpers(tmp_path):
     assert ids.index("growth") < ids.index("cautions")
     assert "Capacity kept for emergency calls" in page_text(text, "cautions")
     assert is_report(tmp_path / "b.html")
+
+
+def test_cost_against_target_in_the_size_report(tmp_path, capsys):
+    # Every demand of the three villages has target 0.02, so the sweep's row at 0.02 is the
+    # plan itself (size --json); a looser target never costs more where each plan is the
+    # least cost (gap 0: every cheaper plan listed), since a plan meeting the stricter target
+    # meets the looser one.
+    net = str(NETWORKS / "three-villages.yaml")
+    out = tmp_path / "r.html"
+    status, d = _json(capsys, ["size", net, "--quiet", "--json", "--report", str(out),
+                               "--report-targets", "0.05,0.01,0.02"])
+    assert status == 0
+    page = Page(_read(out))
+    cost = page.column("t-cost-target", "cost")
+    gap = page.column("t-cost-target", "gap (%)")
+    assert list(cost) == ["0.01", "0.02", "0.05"]
+    assert float(cost["0.02"]["attrs"]["data-value"]) == d["cost"]
+    values = [float(cost[t]["attrs"]["data-value"]) for t in ("0.01", "0.02", "0.05")]
+    assert all(float(gap[t]["attrs"]["data-value"]) == 0 for t in gap)
+    assert values == sorted(values, reverse=True)
+    assert "fig-cost-target" in page.ids
+
+
+def test_report_targets_errors(tmp_path, capsys):
+    net = str(NETWORKS / "three-villages.yaml")
+    out = str(tmp_path / "r.html")
+    cases = [
+        (["--report-targets", "0.01"], "--report-targets: needs --report FILE.html"),
+        (["--report", out, "--report-targets", "0.01,2"],
+         "--report-targets: 2 is not a blocking target in (0, 1)"),
+        (["--report", out, "--report-targets", "0.01,x"],
+         "--report-targets: 'x' is not a number"),
+        (["--report", out, "--report-targets", ",".join(["0.01"] * 13)],
+         "--report-targets: give 1 to 12 targets, got 13"),
+    ]
+    for more, message in cases:
+        assert main(["size", net, "--quiet", *more]) == 2
+        assert capsys.readouterr().err == f"netdim: error: {message}\n"
+        assert not os.path.exists(out)

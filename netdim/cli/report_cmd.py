@@ -27,6 +27,7 @@ from netdim.report.html import (
     plan_html,
 )
 from netdim.report.page import check_report_path, write_report
+from netdim.report.sweep import cost_against_targets, parse_targets, sweep_section
 from netdim.report.words import verdict_counts_words
 from netdim.vocabulary import Verdict
 
@@ -86,9 +87,9 @@ def register(subparsers):
 
 
 # -- the --report options of other commands -----------------------------------------------
-def add_report_options(parser, *, force=True):
+def add_report_options(parser, *, force=True, targets=False):
     """Add ``--report FILE.html`` and ``--kind`` (and ``--force`` unless the command has
-    its own) to ``parser``."""
+    its own; ``--report-targets`` for a sizing command) to ``parser``."""
     g = parser.add_argument_group("HTML report")
     g.add_argument("--report", metavar="FILE.html", default=None,
                    help="also write a self-contained HTML report (map, tables, plots, "
@@ -99,6 +100,11 @@ def add_report_options(parser, *, force=True):
         g.add_argument("--force", action="store_true",
                        help="let --report replace an existing file that is not a netdim "
                        "report")
+    if targets:
+        g.add_argument("--report-targets", metavar="T1,T2,...", default=None,
+                       help="add a cost-against-target chart to the report: the network "
+                       "sized again with every demand given each of these targets (by the "
+                       "model alone; one sizing run per target)")
     return g
 
 
@@ -115,6 +121,15 @@ def check_report_args(args, *, inputs=(), outputs=(), path=None) -> None:
         report (without ``--force``), or in a directory that does not exist.
     """
     path = path or getattr(args, "report", None)
+    if getattr(args, "report_targets", None):
+        if not path:
+            raise ValueError("--report-targets: needs --report FILE.html")
+        if getattr(args, "objective", "cost") != "cost":
+            raise ValueError("--report-targets: applies to --objective cost only")
+        try:
+            parse_targets(args.report_targets)
+        except ValueError as exc:
+            raise ValueError(f"--report-targets: {str(exc).split(': ', 1)[1]}") from None
     if not path:
         return
     require_matplotlib()
@@ -143,13 +158,35 @@ def write_evaluation_report(args, network, ev, *, path=None, sections=()) -> str
     return write_report(page, path)
 
 
-def write_plan_report(args, plan, *, sections=()) -> str | None:
+def write_plan_report(args, plan, *, sections=(), sizing=None) -> str | None:
     """Write the report of a sizing plan to ``args.report``; the path or None.
-    ``sections`` as :func:`write_evaluation_report`."""
+
+    ``sections`` as :func:`write_evaluation_report`. With ``args.report_targets``, the plan's
+    network is sized again at each target (with the options of ``sizing``, a
+    :class:`~netdim.dimension.SizingOptions`) for a cost-against-target section.
+    """
     if not getattr(args, "report", None):
         return None
+    sections = list(sections)
+    if getattr(args, "report_targets", None):
+        kw = {} if sizing is None else {
+            name: getattr(sizing, name) for name in ("model", "solver", "mip_gap",
+                                                     "time_limit", "bound_time")}
+        sweep = cost_against_targets(plan.network, parse_targets(args.report_targets),
+                                     progress=_sweep_progress(args), **kw)
+        sections.insert(0, sweep_section(sweep))
     page = plan_html(plan, kind=args.kind, source=args.file, sections=sections)
     return write_report(page, args.report)
+
+
+def _sweep_progress(args):
+    if getattr(args, "quiet", False):
+        return None
+
+    def progress(fraction, message):
+        print(f"netdim {args.command}: {message}", file=sys.stderr, flush=True)
+
+    return progress
 
 
 def write_sections_report(args, title, sections, *, lead=None) -> str | None:

@@ -79,7 +79,7 @@ def register(subparsers):
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     p.add_argument("-v", "--verbose", action="store_true",
                    help="every progress line (the full trace); default a few summary lines")
-    add_report_options(p, force=False)
+    add_report_options(p, force=False, targets=True)
     p.set_defaults(func=run)
     return p
 
@@ -128,7 +128,7 @@ def run(args) -> int:
     progress.close()
     if args.out:
         write_plan(network, args.out, plan.capacities, force=args.force)
-    write_plan_report(args, plan)
+    write_plan_report(args, plan, sizing=sizing)
     if args.csv:
         write_plan_csv(plan, args.csv)
     if args.json:
