@@ -102,9 +102,10 @@ def _pages(tmp_path):
         out.append((f"report {name}", str(path), {"fig-map", "fig-curves"}, want))
     path = tmp_path / "cli-size.html"
     assert main(["size", str(NETWORKS / "three-villages.yaml"), "--quiet", "--report",
-                 str(path)]) == 0
-    out.append(("size three-villages", str(path), {"fig-map", "fig-curves"},
-                ["ASH-BRY", "BRY-CLV", "ASH-CLV", "How good the plan is"]))
+                 str(path), "--report-targets", "0.01,0.02,0.05"]) == 0
+    out.append(("size three-villages", str(path), {"fig-map", "fig-curves", "fig-cost-target"},
+                ["ASH-BRY", "BRY-CLV", "ASH-CLV", "How good the plan is",
+                 "Cost against target"]))
 
     charts = [
         chart_section("cost", "Cost against target", figures.cost_against_target(
