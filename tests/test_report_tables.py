@@ -163,3 +163,23 @@ def test_bounds_are_named_in_plain_words(kind, words):
     text = bound_plain(kind)
     assert words in text
     assert not text.startswith(("MILP", "loss-flow"))
+
+
+@pytest.mark.parametrize("kind", ["telephone", "parking"])
+def test_text_caution_follows_the_kind(kind, capsys):
+    # The caution a planner's figures rest on: emergency-call capacity for trunk groups,
+    # parking provision and accessible spaces for car parks, follow local codes and licensed
+    # practice (common practice, no source).
+    from netdim.report.text import CAUTION, caution_for
+
+    net = str(ROOT / "networks" / "three-villages.yaml")
+    for argv in (["evaluate", net], ["evaluate", net, "--check", "--seed", "1", "--calls",
+                                     "5000"], ["size", net, "--quiet"]):
+        main([*argv, "--kind", kind])
+        out = capsys.readouterr().out
+        assert out.rstrip().endswith(caution_for(kind)), argv
+        assert CAUTION not in out
+    assert ("emergency" in caution_for(kind)) == (kind == "telephone")
+    assert ("accessible" in caution_for(kind)) == (kind == "parking")
+    with pytest.raises(ValueError, match="kind: unknown kind 'road'"):
+        caution_for("road")

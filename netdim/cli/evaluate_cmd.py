@@ -162,7 +162,7 @@ def run(args) -> int:
         if args.json:
             print(json.dumps(result.to_dict(), indent=2))
         else:
-            text = comparison_text(result)
+            text = comparison_text(result, kind=args.kind)
             print(text, end="" if text.endswith("\n") else "\n")
         return _report_verdicts(result.demand_ids, result.verdicts())
 

@@ -14,7 +14,7 @@ from netdim.report.evaluation import (
     verdict_summary,
     write_text_atomic,
 )
-from netdim.report.text import CAUTION, format_table, prob_column, prob_format
+from netdim.report.text import caution_for, format_table, prob_column, prob_format
 
 __all__ = ["comparison_text", "comparison_csv", "write_comparison_csv", "COMPARISON_COLUMNS"]
 
@@ -25,12 +25,14 @@ COMPARISON_COLUMNS = ("id", "target", "fixed_point", "simulated", "interval_low"
                       "offered_calls", "blocked_calls", "note")
 
 
-def comparison_text(comparison) -> str:
+def comparison_text(comparison, kind=None) -> str:
     """A table of the fixed-point, simulated and exact blocking per demand, with flags.
 
     Parameters
     ----------
     comparison : Comparison
+    kind : {'telephone', 'parking'} or None
+        The words of the caution.
 
     Returns
     -------
@@ -98,7 +100,7 @@ def comparison_text(comparison) -> str:
     sim = c.evaluations.get("simulate")
     if sim is not None and sim.details.get("seed") is not None:
         lines.append(f"Simulation seed {sim.details['seed']}: the same seed repeats the run.")
-    lines += ["", CAUTION]
+    lines += ["", caution_for(kind)]
     return "\n".join(lines)
 
 
