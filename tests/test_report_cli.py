@@ -357,3 +357,23 @@ def test_report_targets_errors(tmp_path, capsys):
         assert main(["size", net, "--quiet", *more]) == 2
         assert capsys.readouterr().err == f"netdim: error: {message}\n"
         assert not os.path.exists(out)
+
+
+def test_evaluate_csv_equals_the_json(tmp_path, capsys):
+    net = str(NETWORKS / "three-villages.yaml")
+    argv = ["evaluate", net, "--method", "simulate", "--seed", "2", "--calls", "20000"]
+    _, d = _json(capsys, [*argv, "--json", "--csv", str(tmp_path)])
+    demands = {r["id"]: r for r in _csv(tmp_path / "demands.csv")}
+    assert set(demands) == {r["id"] for r in d["demands"]}
+    for rec in d["demands"]:
+        row = demands[rec["id"]]
+        for key in ("offered", "carried", "blocking", "target"):
+            assert _same_number(row[key], rec[key]), key
+        assert _same_number(row["blocking_low"], rec["blocking_interval"][0])
+        assert _same_number(row["blocking_high"], rec["blocking_interval"][1])
+        assert row["verdict"] == rec["verdict"] and row["met"] == str(rec["met"]).lower()
+    links = {r["id"]: r for r in _csv(tmp_path / "links.csv")}
+    for rec in d["links"]:
+        row = links[rec["id"]]
+        for key in ("capacity", "offered", "carried", "blocking", "utilisation"):
+            assert _same_number(row[key], rec[key]), key
