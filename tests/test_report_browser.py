@@ -28,6 +28,7 @@ from _chromium import Chromium, find_chromium  # noqa: E402
 from PIL import Image  # noqa: E402  (pillow comes with matplotlib)
 
 import netdim  # noqa: E402
+from netdim.cli import main  # noqa: E402
 from netdim.report import figures  # noqa: E402
 from netdim.report.html import (  # noqa: E402
     chart_section,
@@ -89,6 +90,22 @@ def _pages(tmp_path):
     want += [f"{r['capacity']:,}" for r in p["links"]]
     want += [r["id"] for r in p["demands"]]
     out.append(("campus plan", path, {"fig-map", "fig-curves"}, want))
+
+    # each bundled network's report as the command line writes it
+    for name in ("three-villages", "regional-telephone", "campus-parking"):
+        path = tmp_path / f"cli-{name}.html"
+        src = str(NETWORKS / f"{name}.yaml")
+        assert main(["report", src, "-o", str(path)]) in (0, 1)
+        d = netdim.evaluate(netdim.read_network(src)).to_dict()
+        want = [r["id"] for r in d["demands"]] + [r["id"] for r in d["links"]]
+        want += [f"{100 * r['utilisation']:.1f}" for r in d["links"]]
+        out.append((f"report {name}", str(path), {"fig-map", "fig-curves"}, want))
+    path = tmp_path / "cli-size.html"
+    assert main(["size", str(NETWORKS / "three-villages.yaml"), "--quiet", "--report",
+                 str(path), "--report-targets", "0.01,0.02,0.05"]) == 0
+    out.append(("size three-villages", str(path), {"fig-map", "fig-curves", "fig-cost-target"},
+                ["ASH-BRY", "BRY-CLV", "ASH-CLV", "How good the plan is",
+                 "Cost against target"]))
 
     charts = [
         chart_section("cost", "Cost against target", figures.cost_against_target(

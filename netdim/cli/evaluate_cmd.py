@@ -6,6 +6,7 @@ import json
 import sys
 import time
 
+from netdim.cli.report_cmd import add_report_options, check_report_args, write_evaluation_report
 from netdim.evaluate import (
     COMPARE_OPTIONS,
     HOLDING_LAWS,
@@ -15,7 +16,7 @@ from netdim.evaluate import (
     evaluate,
 )
 from netdim.netfile import read_network
-from netdim.report.comparison import comparison_text
+from netdim.report.comparison import comparison_text, write_comparison_csv
 from netdim.report.evaluation import evaluation_text, write_csv
 from netdim.vocabulary import Verdict
 
@@ -44,7 +45,8 @@ def register(subparsers):
     p.add_argument("--conservative", action="store_true",
                    help="same as --method conservative: un-thinned link loads (product bound)")
     p.add_argument("--json", action="store_true", help="print the result as JSON")
-    p.add_argument("--csv", metavar="DIR", help="also write DIR/demands.csv and DIR/links.csv")
+    p.add_argument("--csv", metavar="DIR", help="also write DIR/demands.csv and DIR/links.csv "
+                   "(with --check: DIR/comparison.csv)")
     p.add_argument("--check", "--compare", dest="check", action="store_true",
                    help="accuracy check: fixed point beside simulation (and exact where small)")
     g = p.add_argument_group("simulation (--method simulate, --check)")
@@ -68,6 +70,7 @@ def register(subparsers):
     g.add_argument("--max-iter", type=int, default=None, metavar="N",
                    help="most iterations (1000)")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    add_report_options(p)
     p.set_defaults(func=run)
     return p
 
@@ -116,8 +119,6 @@ def _check_flags(args, method):
         wrong = [d for d in given if d not in COMPARE_OPTIONS]
         if wrong:
             raise ValueError(f"{_flag(wrong[0])}: does not apply to --check")
-        if args.csv:
-            raise ValueError("--csv: does not apply to --check")
         return given
     for dest in given:
         if dest not in METHOD_OPTIONS[method]:
@@ -145,6 +146,9 @@ def _report_verdicts(ids, verdicts) -> int:
 def run(args) -> int:
     method = _method(args)
     given = _check_flags(args, method)
+    if args.check and args.report:
+        raise ValueError("--report: does not apply to --check")
+    check_report_args(args, inputs=[args.file], outputs=[args.csv])
     network = read_network(args.file)
     opts = {dest: getattr(args, dest) for dest in given}
 
@@ -153,21 +157,24 @@ def run(args) -> int:
         more = {"max_states": opts["max_states"]} if "max_states" in opts else {}
         result = compare_methods(network, network.capacities(), sim,
                                  progress=_progress(args), **more)
+        if args.csv:
+            write_comparison_csv(result, args.csv)
         if args.json:
             print(json.dumps(result.to_dict(), indent=2))
         else:
-            text = comparison_text(result)
+            text = comparison_text(result, kind=args.kind)
             print(text, end="" if text.endswith("\n") else "\n")
         return _report_verdicts(result.demand_ids, result.verdicts())
 
     if method == "simulate":
         opts["progress"] = _progress(args)
     ev = evaluate(network, method=method, **opts)
+    write_evaluation_report(args, network, ev)
     if args.csv:
         write_csv(ev, args.csv)
     if args.json:
         print(json.dumps(ev.to_dict(), indent=2))
     else:
         title = f"{network.name} ({args.file})"
-        print(evaluation_text(ev, title=title), end="")
+        print(evaluation_text(ev, title=title, kind=args.kind, network=network), end="")
     return _report_verdicts(ev.demand_ids, ev.verdicts())

@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 import sys
 
+from netdim.cli.report_cmd import add_report_options, check_report_args, write_plan_report
 from netdim.dimension import (
     DEFAULT_BOUND_TIME,
     DEFAULT_MARGIN,
@@ -17,7 +18,8 @@ from netdim.dimension import (
     dimension,
 )
 from netdim.netfile import check_plan_path, read_network, write_plan
-from netdim.report.plan import format_plan
+from netdim.report.plan import format_plan, write_plan_csv
+from netdim.report.progress import ProgressSummary
 
 __all__ = ["register", "run"]
 
@@ -45,8 +47,11 @@ def register(subparsers):
     p.add_argument("--out", metavar="PLAN.yaml",
                    help="write the plan: the network file as written, with only the "
                    "capacities changed (refused when PLAN.yaml is FILE itself, unless --force)")
+    p.add_argument("--csv", metavar="DIR", help="also write DIR/links.csv and DIR/demands.csv "
+                   "(the plan's tables, plain numbers)")
     p.add_argument("--force", action="store_true",
-                   help="let --out replace the input FILE with the plan")
+                   help="let --out replace the input FILE with the plan, and --report "
+                   "replace a file that is not a netdim report")
     p.add_argument("--gap", "--mip-gap", type=float, default=1e-4, metavar="X",
                    help="relative gap each MILP is solved to (default 1e-4)")
     p.add_argument("--time-limit", type=float, default=None, metavar="S",
@@ -72,6 +77,9 @@ def register(subparsers):
                    "a warning says when this stop fires, and only then does more time "
                    "give a tighter bound")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    p.add_argument("-v", "--verbose", action="store_true",
+                   help="every progress line (the full trace); default a few summary lines")
+    add_report_options(p, force=False, targets=True)
     p.set_defaults(func=run)
     return p
 
@@ -101,6 +109,7 @@ def run(args) -> int:
     sizing, verify = _options(args)
     if args.out:  # before any work: a plan that cannot be written is not worth sizing
         check_plan_path(args.file, args.out, args.force)
+    check_report_args(args, inputs=[args.file], outputs=[args.out, args.csv])
     network = read_network(args.file)
     if not args.verify and network.routing.policy == "alternate" and not args.quiet \
             and sizing.objective == "cost":
@@ -108,19 +117,24 @@ def run(args) -> int:
               "add --verify to check the plan by simulation and calibrate it",
               file=sys.stderr)
 
-    def progress(fraction, message):
-        print(f"netdim size: {message}", file=sys.stderr, flush=True)
+    def emit(line):
+        print(f"netdim size: {line}", file=sys.stderr, flush=True)
 
+    progress = ProgressSummary(emit, verbose=args.verbose)
     plan = dimension(network, model=sizing.model, solver=sizing.solver, mip_gap=sizing.mip_gap,
                      time_limit=sizing.time_limit, objective=sizing.objective,
                      bound_time=sizing.bound_time, verify=verify,
                      progress=None if args.quiet else progress)
+    progress.close()
     if args.out:
         write_plan(network, args.out, plan.capacities, force=args.force)
+    write_plan_report(args, plan, sizing=sizing)
+    if args.csv:
+        write_plan_csv(plan, args.csv)
     if args.json:
         print(json.dumps(plan.to_dict(), indent=2))
     else:
-        print(format_plan(plan))
+        print(format_plan(plan, kind=args.kind))
     for w in plan.warnings:
         print(f"netdim size: warning: {w}", file=sys.stderr)
     if not plan.feasible:

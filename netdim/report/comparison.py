@@ -2,18 +2,37 @@
 
 from __future__ import annotations
 
-from netdim.report.evaluation import VERDICT_TEXT, plural, verdict_summary
-from netdim.report.text import CAUTION, fmt_prob, format_table
+import os
 
-__all__ = ["comparison_text"]
+import numpy as np
+
+from netdim.report.evaluation import (
+    VERDICT_TEXT,
+    csv_number,
+    csv_text,
+    plural,
+    verdict_summary,
+    write_text_atomic,
+)
+from netdim.report.text import caution_for, format_table, prob_column, prob_format
+
+__all__ = ["comparison_text", "comparison_csv", "write_comparison_csv", "COMPARISON_COLUMNS"]
+
+#: Columns of comparison.csv: the ``--json`` demand fields, the interval in two columns
+#: (``--csv`` contract: add columns, never rename).
+COMPARISON_COLUMNS = ("id", "target", "fixed_point", "simulated", "interval_low",
+                      "interval_high", "exact", "outside", "exact_outside", "verdict",
+                      "offered_calls", "blocked_calls", "note")
 
 
-def comparison_text(comparison) -> str:
+def comparison_text(comparison, kind=None) -> str:
     """A table of the fixed-point, simulated and exact blocking per demand, with flags.
 
     Parameters
     ----------
     comparison : Comparison
+    kind : {'telephone', 'parking'} or None
+        The words of the caution.
 
     Returns
     -------
@@ -35,12 +54,17 @@ def comparison_text(comparison) -> str:
     headers.append("flag")
     notes = c.notes()
     rows = []
+    # one format per column; the interval's ends share one
+    target, fixed, simulated = (prob_column(x) for x in (c.target, c.fixed_point,
+                                                         c.simulated))
+    exact = prob_column(c.exact) if c.exact is not None else None
+    f = prob_format(np.asarray(c.interval, float))
+    sep = " to " if "e" in f(0.5) else "-"
     for i, did in enumerate(c.demand_ids):
         lo, hi = c.interval[i]
-        row = [did, fmt_prob(c.target[i]), fmt_prob(c.fixed_point[i]),
-               fmt_prob(c.simulated[i]), f"{fmt_prob(lo)} - {fmt_prob(hi)}"]
-        if c.exact is not None:
-            row.append(fmt_prob(c.exact[i]))
+        row = [did, target[i], fixed[i], simulated[i], f"{f(max(float(lo), 0.0))}{sep}{f(hi)}"]
+        if exact is not None:
+            row.append(exact[i])
         if verdicts is not None:
             row.append(VERDICT_TEXT[str(verdicts[i])])
         flags = []
@@ -76,5 +100,36 @@ def comparison_text(comparison) -> str:
     sim = c.evaluations.get("simulate")
     if sim is not None and sim.details.get("seed") is not None:
         lines.append(f"Simulation seed {sim.details['seed']}: the same seed repeats the run.")
-    lines += ["", CAUTION]
+    lines += ["", caution_for(kind)]
     return "\n".join(lines)
+
+
+def comparison_csv(comparison) -> str:
+    """comparison.csv: one row per demand, :data:`COMPARISON_COLUMNS`, the figures of
+    ``comparison.to_dict()`` (empty where the JSON holds null or leaves a field out)."""
+    rows = []
+    for rec in comparison.to_dict()["demands"]:
+        flat = dict(rec)
+        flat["interval_low"], flat["interval_high"] = rec["interval"]
+        row = []
+        for key in COMPARISON_COLUMNS:
+            v = flat.get(key)
+            if v is None:
+                row.append("")
+            elif isinstance(v, bool):
+                row.append("true" if v else "false")
+            elif isinstance(v, float):
+                row.append(csv_number(v))
+            else:
+                row.append(str(v))
+        rows.append(row)
+    return csv_text(COMPARISON_COLUMNS, rows)
+
+
+def write_comparison_csv(comparison, directory) -> str:
+    """Write ``directory/comparison.csv`` (directory created if needed) through a temporary
+    file renamed into place; its path."""
+    os.makedirs(directory, exist_ok=True)
+    path = os.path.join(directory, "comparison.csv")
+    write_text_atomic(path, comparison_csv(comparison))
+    return path

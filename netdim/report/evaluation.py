@@ -14,7 +14,16 @@ import tempfile
 
 import numpy as np
 
-from netdim.report.text import CAUTION, fmt_num, fmt_prob, format_table
+from netdim.report.text import (
+    caution_for,
+    fixed_column,
+    format_table,
+    interval_column,
+    legend_lines,
+    percent_column,
+    prob_column,
+    prob_format,
+)
 from netdim.vocabulary import Verdict
 
 __all__ = [
@@ -26,6 +35,9 @@ __all__ = [
     "demands_csv",
     "links_csv",
     "write_csv",
+    "csv_text",
+    "write_text_atomic",
+    "csv_number",
     "DEMAND_COLUMNS",
     "LINK_COLUMNS",
     "VERDICT_TEXT",
@@ -87,15 +99,15 @@ def verdict_summary(ids, verdicts, three_way=True) -> list[str]:
     return out
 
 
-def _interval(ev, i, attr):
-    iv = getattr(ev, attr)
-    if iv is None:
-        return None
-    return f"[{fmt_prob(float(iv[i][0]))}, {fmt_prob(float(iv[i][1]))}]"
+_UNITS = {"telephone": "circuits", "parking": "places", None: "units"}
 
 
-def evaluation_text(ev, title=None, limit=None) -> str:
+def evaluation_text(ev, title=None, limit=None, kind=None, network=None) -> str:
     """The report the command line prints.
+
+    One format per column (probabilities in one fixed or one scientific format, loads with
+    two decimals, utilisation in percent with one), units on a second header line, a legend
+    under each table.
 
     Parameters
     ----------
@@ -104,6 +116,10 @@ def evaluation_text(ev, title=None, limit=None) -> str:
         First line (e.g. the network name and file).
     limit : int, optional
         Show at most this many demands and links (the worst); None: all.
+    kind : {'telephone', 'parking'} or None
+        The capacity unit's name and the caution's words.
+    network : Network, optional
+        The network evaluated (multi-rate links count their load in units in use).
     """
     out = []
     if title:
@@ -118,64 +134,80 @@ def evaluation_text(ev, title=None, limit=None) -> str:
     n_d, n_l = len(ev.demand_ids), len(ev.link_ids)
     out.append("")
 
-    with_iv = ev.blocking_interval is not None
+    iv = ev.blocking_interval
     d_idx = demand_order(ev)[:limit]
-    headers = ["demand", "offered E", "blocking"]
-    if with_iv:
-        level = f"{round(100 * ev.confidence)}% interval" if ev.confidence else "interval"
-        headers.append(level)
-    headers += ["target", "verdict"]
+    headers = ["demand", "offered", "blocking", "target", "verdict"]
+    units = ["", "(E)", "", "", ""]
+    if iv is not None:
+        level = f"{100 * ev.confidence:g}%" if ev.confidence else ""
+        units[2] = f"({level} interval)".replace("( ", "(")
+        blocking = interval_column(ev.blocking[d_idx], iv[d_idx])
+    else:
+        blocking = prob_column(ev.blocking[d_idx])
     verdicts = ev.verdicts()
-    rows = []
-    for i in d_idx:
-        row = [ev.demand_ids[i], fmt_num(float(ev.offered[i])), fmt_prob(float(ev.blocking[i]))]
-        if with_iv:
-            row.append(_interval(ev, i, "blocking_interval"))
-        row += [fmt_prob(float(ev.target[i])), VERDICT_TEXT[str(verdicts[i])]]
-        rows.append(row)
+    columns = [[ev.demand_ids[i] for i in d_idx], fixed_column(ev.offered[d_idx]), blocking,
+               prob_column(ev.target[d_idx]), [VERDICT_TEXT[str(verdicts[i])] for i in d_idx]]
     out.append(f"Demands ({n_d}, worst first)" + (f", worst {len(d_idx)} shown"
                                                   if len(d_idx) < n_d else ""))
-    out.append(format_table(headers, rows))
+    out.append(format_table(headers, list(zip(*columns, strict=True)), units=units))
+    legend = ["offered: traffic in erlangs (E); worst first: missed, unclear, met, each by "
+              "blocking over target."]
+    if iv is not None:
+        legend.append("met: the whole interval at or below the target; missed: wholly above; "
+                      "unclear: the interval contains the target.")
+    out.append(legend_lines(*legend))
     out.append("")
 
     l_idx = link_order(ev)[:limit]
     alt = not np.array_equal(ev.link_blocking, ev.link_blocking_alternate)
-    headers = ["link", "capacity", "load", "carried", "blocking"]
+    unit = _UNITS[kind]
+    # multi-rate: a link's load counts units in use, not calls
+    load = "(in use)" if network is not None and network.is_multirate else "(E)"
+    headers = ["link", "capacity", "offered", "carried", "blocking"]
+    units = ["", f"({unit})", load, load, "(first choice)"]
+    columns = [[ev.link_ids[j] for j in l_idx], [str(int(ev.capacity[j])) for j in l_idx],
+               fixed_column(ev.link_offered[l_idx]), fixed_column(ev.link_carried[l_idx])]
+    lb = ev.link_blocking[l_idx]
     if alt:
-        headers.append("alt blocking")
+        la = ev.link_blocking_alternate[l_idx]
+        fmt = prob_format(lb, la)
+        columns += [[fmt(float(x)) for x in lb], [fmt(float(x)) for x in la]]
+        headers.append("blocking")
+        units.append("(overflow)")
+    else:
+        columns.append(prob_column(lb))
     headers.append("utilisation")
-    rows = []
-    util = ev.utilisation
-    for j in l_idx:
-        row = [ev.link_ids[j], str(int(ev.capacity[j])), fmt_num(float(ev.link_offered[j])),
-               fmt_num(float(ev.link_carried[j])), fmt_prob(float(ev.link_blocking[j]))]
-        if alt:
-            row.append(fmt_prob(float(ev.link_blocking_alternate[j])))
-        row.append(f"{100 * util[j]:.1f}%")
-        rows.append(row)
+    units.append("(%)")
+    columns.append(percent_column(ev.utilisation[l_idx]))
     out.append(f"Links ({n_l}, worst first)" + (f", worst {len(l_idx)} shown"
                                                 if len(l_idx) < n_l else ""))
-    out.append(format_table(headers, rows))
+    out.append(format_table(headers, list(zip(*columns, strict=True)), units=units))
+    legend = ["blocking (first choice): what a call meets on the link as its first route"
+              + ("; (overflow): as an alternate route, with the reserved units kept back"
+                 if alt else "") + "; utilisation: carried over capacity."]
+    out.append(legend_lines(*legend))
     out.append("")
 
-    out += verdict_summary(ev.demand_ids, verdicts, three_way=with_iv)
+    out += verdict_summary(ev.demand_ids, verdicts, three_way=iv is not None)
     for w in ev.warnings:
         out.append(f"warning: {w}")
     if ev.alternative is not None:
         alt_ev = ev.alternative
         worst = int(np.argmax(alt_ev.blocking)) if len(alt_ev.blocking) else None
         if worst is not None:
+            fmt = prob_format(alt_ev.blocking, ev.blocking)
             out.append(
-                f"second solution: mean blocking {fmt_prob(float(alt_ev.blocking.mean()))} "
-                f"(worst: {alt_ev.demand_ids[worst]} {fmt_prob(float(alt_ev.blocking[worst]))})"
-                f" against {fmt_prob(float(ev.blocking.mean()))} above"
+                f"second solution: mean blocking {fmt(float(alt_ev.blocking.mean()))} "
+                f"(worst: {alt_ev.demand_ids[worst]} {fmt(float(alt_ev.blocking[worst]))})"
+                f" against {fmt(float(ev.blocking.mean()))} above"
             )
     out.append("")
-    out.append(CAUTION)
+    out.append(caution_for(kind))
     return "\n".join(out) + "\n"
 
 
-def _csv_text(header, rows) -> str:
+def csv_text(header, rows) -> str:
+    """CSV text: a header row, then the rows (cells as given), ``\\n`` line ends."""
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(header)
@@ -183,8 +215,12 @@ def _csv_text(header, rows) -> str:
     return buf.getvalue()
 
 
-def _g(x) -> str:
+def csv_number(x) -> str:
+    """A float as CSV writes it: the shortest text that reads back as the same double."""
     return repr(float(x))
+
+
+_g = csv_number
 
 
 def demands_csv(ev) -> str:
@@ -207,7 +243,7 @@ def demands_csv(ev) -> str:
         if iv is not None:
             row += [_g(iv[i][0]), _g(iv[i][1])]
         rows.append(row)
-    return _csv_text(header, rows)
+    return csv_text(header, rows)
 
 
 def links_csv(ev) -> str:
@@ -225,7 +261,7 @@ def links_csv(ev) -> str:
         if iv is not None:
             row += [_g(iv[j][0]), _g(iv[j][1])]
         rows.append(row)
-    return _csv_text(header, rows)
+    return csv_text(header, rows)
 
 
 def _umask() -> int:
@@ -235,7 +271,7 @@ def _umask() -> int:
     return mask
 
 
-def _write_atomic(path, text):
+def write_text_atomic(path, text):
     """Write ``text`` to ``path`` through a temporary file in the same directory.
 
     The file gets the mode an ordinary ``open(path, 'w')`` would give (0666 less the
@@ -275,6 +311,6 @@ def write_csv(ev, directory) -> tuple[str, str]:
     os.makedirs(directory, exist_ok=True)
     d_path = os.path.join(directory, "demands.csv")
     l_path = os.path.join(directory, "links.csv")
-    _write_atomic(d_path, demands_csv(ev))
-    _write_atomic(l_path, links_csv(ev))
+    write_text_atomic(d_path, demands_csv(ev))
+    write_text_atomic(l_path, links_csv(ev))
     return d_path, l_path

@@ -34,6 +34,7 @@ __all__ = [
     "growth_chart",
     "comparison_chart",
     "LAYOUT_SEED",
+    "require_matplotlib",
 ]
 
 #: Seed of the networkx layout used when the sites have no coordinates.
@@ -58,6 +59,12 @@ def _mpl():
             "install it with: pip install 'netdim[report]'"
         ) from None
     return matplotlib, Figure
+
+
+def require_matplotlib() -> None:
+    """Raise the :class:`~netdim.errors.NetdimError` of a missing matplotlib now, before a
+    long run whose report could not be drawn."""
+    _mpl()
 
 
 _STYLE = {

@@ -44,6 +44,7 @@ from netdim.report.words import (
     KINDS,
     bound_words,
     cautions,
+    cautions_of_kind,
     check_kind,
     method_words,
     routing_words,
@@ -62,6 +63,7 @@ __all__ = [
     "chart_section",
     "combined_verdicts",
     "plan_costs",
+    "cautions_section",
     "write_report",
 ]
 
@@ -310,7 +312,17 @@ def _assumptions(network, ev, seed, extra=()) -> Section:
 
 
 def _cautions(network, kind, evs) -> Section:
-    items = cautions(network, kind, evs)
+    return cautions_section(kind, network, evs)
+
+
+def cautions_section(kind=None, network=None, evaluations=()) -> Section:
+    """The cautions as a section: the general one and those of ``kind``; with a network
+    and its evaluations, those of the methods used too (a study's page ends with it)."""
+    check_kind(kind)
+    if network is None:
+        items = cautions_of_kind(kind)
+    else:
+        items = cautions(network, kind, evaluations)
     return Section("cautions", "Cautions",
                    '<ul class="cautions">' + "".join(f"<li>{_e(c)}</li>" for c in items)
                    + "</ul>")

@@ -23,7 +23,14 @@ __all__ = [
     "facts_html",
     "chart_section",
     "write_report",
+    "check_report_path",
+    "is_report",
+    "GENERATOR",
 ]
+
+#: ``<meta name="generator">`` of every report page: how a later run knows a file is a
+#: report netdim wrote (which it may replace) and not a file of the user's (which it may not).
+GENERATOR = "netdim report"
 
 _STYLE = """
 body{font-family:system-ui,"DejaVu Sans","Liberation Sans",Arial,sans-serif;color:#222;
@@ -164,12 +171,12 @@ def html_document(title, sections, *, lead=None) -> str:
     return (
         "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
         '<meta name="viewport" content="width=device-width, initial-scale=1">\n'
+        f'<meta name="generator" content="{GENERATOR} {_e(_version())}">\n'
         f"<title>{_e(title)}</title>\n<style>{_STYLE}</style>\n</head>\n<body>\n"
         f"<header><h1>{_e(title)}</h1>{lead_html}<nav>{nav}</nav></header>\n{body}\n"
         f"<footer>Made by netdim {_e(_version())}. Figures are planning estimates; "
         "see the cautions.</footer>\n</body>\n</html>\n"
     )
-
 
 
 # -- writing --------------------------------------------------------------------------------
@@ -225,3 +232,68 @@ def write_report(html, path) -> str:
             pass
         raise
     return path
+
+
+def is_report(path) -> bool:
+    """Whether ``path`` is a report page netdim wrote (its head names netdim as generator).
+
+    Only the first 4 KiB are read: the ``<meta>`` comes before any content.
+    """
+    try:
+        with open(path, "rb") as f:
+            head = f.read(4096)
+    except OSError:
+        return False
+    return f'<meta name="generator" content="{GENERATOR} '.encode() in head
+
+
+def _same(a, b) -> bool:
+    try:
+        return os.path.samefile(a, b)
+    except OSError:
+        return os.path.abspath(a) == os.path.abspath(b)
+
+
+def check_report_path(path, *, inputs=(), outputs=(), force=False) -> None:
+    """Refuse, before any work, a report path that would lose something.
+
+    A report may replace an earlier report (a page netdim wrote, see :func:`is_report`). It
+    never replaces a file it was given to read (``inputs``) or another file the same run
+    writes (``outputs``); another existing file only when ``force``.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        Where the report is to go.
+    inputs, outputs : sequence of str
+        Files the run reads, and files (or directories) it writes besides the report.
+    force : bool
+        Allow replacing an existing file that is not a netdim report.
+
+    Raises
+    ------
+    ValueError
+        ``path`` is one of ``inputs`` or ``outputs``, a directory, or an existing file that
+        is not a report and not ``force``.
+    FileNotFoundError
+        The directory of ``path`` does not exist.
+    """
+    path = os.fspath(path)
+    for other in inputs:
+        if other and _same(path, other):
+            raise ValueError(f"{path}: is the input file; the report would replace it "
+                             "(write the report to another file)")
+    for other in outputs:
+        if other and _same(path, other):
+            raise ValueError(f"{path}: is also written by this run; the report needs a "
+                             "file of its own")
+    if os.path.isdir(path):
+        raise ValueError(f"{path}: is a directory; the report needs a file name "
+                         "(such as report.html)")
+    directory = os.path.dirname(os.path.abspath(path))
+    if not os.path.isdir(directory):
+        raise FileNotFoundError(errno.ENOENT, "cannot write the report: no such directory",
+                                directory)
+    if os.path.exists(path) and not force and not is_report(path):
+        raise ValueError(f"{path}: exists and is not a netdim report; refused to write over "
+                         "it (choose another name, or add --force to replace it)")

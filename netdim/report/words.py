@@ -7,7 +7,9 @@ is met, a bound only where the plan carries one.
 
 from __future__ import annotations
 
-from netdim.report.text import CAUTION
+import re
+
+from netdim.report.text import caution_for
 from netdim.vocabulary import Verdict
 
 __all__ = [
@@ -17,7 +19,9 @@ __all__ = [
     "method_words",
     "routing_words",
     "bound_words",
+    "bound_plain",
     "cautions",
+    "cautions_of_kind",
 ]
 
 #: Kinds of network a report can speak of: the name of a capacity unit and a line saying what
@@ -144,7 +148,7 @@ def bound_words(plan, network, costs) -> list[str]:
     and ``unverified_cost`` for a verified plan), so the words and the tables agree.
     """
     d = plan.details
-    kind = d.get("bound") or "no description"
+    kind = bound_plain(d.get("bound")) or "no description"
     if plan.status == "economic":
         return [f"Sized for value carried minus cost: no blocking target is enforced, and "
                 f"there is no lower bound on cost. Value carried minus cost is within "
@@ -175,11 +179,47 @@ def bound_words(plan, network, costs) -> list[str]:
     return out
 
 
+# How the sizing library names its lower bounds (Plan.details['bound']), in plain words.
+_BOUNDS = (
+    (r"MILP at least thinned loads A\(1 - t\)",
+     "the least cost when each link carries only the least load it can see, its demands' "
+     "traffic less all the loss their targets allow, A(1 - t)"),
+    (r"MILP at un-thinned loads",
+     "the least cost when each link is offered its demands' whole traffic, none lost on "
+     "other links"),
+    (r"MILP: capacity >= carried load, whole modules and fixed costs",
+     "the least cost of capacity at least the load each link carries, in whole modules, "
+     "with the fixed costs"),
+    (r"loss-flow LP \((\d+) rounds, (\d+) cuts\)",
+     r"a linear relaxation of the traffic carried and lost on every route and link (\1 "
+     r"rounds, \2 cutting planes)"),
+    (r"loss-flow MILP \((.*)\)",
+     r"a relaxation of the traffic carried and lost on every route and link, in whole "
+     r"modules (\1)"),
+)
+
+
+def bound_plain(kind) -> str:
+    """A lower bound's description (``Plan.details['bound']``) in plain words; an unknown
+    one as it is."""
+    text = str(kind or "")
+    for pattern, words in _BOUNDS:
+        m = re.match(pattern, text)
+        if m:
+            return m.expand(words) + text[m.end():]
+    return text
+
+
+def cautions_of_kind(kind) -> list[str]:
+    """The general caution and those of the network's kind (no method's)."""
+    check_kind(kind)
+    return [caution_for(kind), *_KIND_CAUTIONS[kind]]
+
+
 def cautions(network, kind, evaluations) -> list[str]:
     """The cautions of a report: the general one, those of the network's kind, and those of
     the methods used."""
-    check_kind(kind)
-    out = [CAUTION, *_KIND_CAUTIONS[kind]]
+    out = cautions_of_kind(kind)
     methods = {ev.method for ev in evaluations}
     if "fixed-point" in methods and network.routing.policy == "alternate":
         out.append("Under alternate routing the fixed point treats overflow traffic as if it "
