@@ -18,6 +18,10 @@ PACKAGE = Path(__file__).resolve().parent.parent / "netdim"
 ALLOWED_LOCAL = {
     ("netdim.evaluate.simulate", "netdim.evaluate._simkernel"):
         "the compiled event loop needs numba, about a second to import: only when simulating",
+    ("netdim.cli.report_cmd", "netdim.report.html"):
+        "the page builders import the sizing package (PuLP): only when a report is written",
+    ("netdim.cli.report_cmd", "netdim.report.sweep"):
+        "the cost-against-target sweep sizes the network: only when a report asks for it",
 }
 
 

@@ -19,15 +19,7 @@ from netdim.evaluate import HOLDING_LAWS, METHOD_OPTIONS, METHODS, evaluate
 from netdim.netfile import read_network
 from netdim.report.evaluation import write_csv
 from netdim.report.figures import require_matplotlib
-from netdim.report.html import (
-    cautions_section,
-    combined_verdicts,
-    evaluation_html,
-    html_document,
-    plan_html,
-)
 from netdim.report.page import check_report_path, write_report
-from netdim.report.sweep import cost_against_targets, parse_targets, sweep_section
 from netdim.report.words import verdict_counts_words
 from netdim.vocabulary import Verdict
 
@@ -127,7 +119,7 @@ def check_report_args(args, *, inputs=(), outputs=(), path=None) -> None:
         if getattr(args, "objective", "cost") != "cost":
             raise ValueError("--report-targets: applies to --objective cost only")
         try:
-            parse_targets(args.report_targets)
+            _sweep().parse_targets(args.report_targets)
         except ValueError as exc:
             raise ValueError(f"--report-targets: {str(exc).split(': ', 1)[1]}") from None
     if not path:
@@ -135,6 +127,20 @@ def check_report_args(args, *, inputs=(), outputs=(), path=None) -> None:
     require_matplotlib()
     check_report_path(path, inputs=inputs, outputs=outputs,
                       force=bool(getattr(args, "force", False)))
+
+
+# The page builders import the sizing package (PuLP and the solver seam, 0.2-0.3 s): they are
+# imported when a report is written, so that `evaluate` without --report starts no slower.
+def _html():
+    import netdim.report.html as html
+
+    return html
+
+
+def _sweep():
+    import netdim.report.sweep as sweep
+
+    return sweep
 
 
 def _seed(ev):
@@ -151,7 +157,7 @@ def write_evaluation_report(args, network, ev, *, path=None, sections=()) -> str
     path = path or getattr(args, "report", None)
     if not path:
         return None
-    page = evaluation_html(network, ev, kind=args.kind, seed=_seed(ev), source=args.file,
+    page = _html().evaluation_html(network, ev, kind=args.kind, seed=_seed(ev), source=args.file,
                            measure=getattr(args, "measure", "utilisation"),
                            curves=getattr(args, "curves", 4), title=getattr(args, "title", None),
                            sections=sections)
@@ -172,10 +178,11 @@ def write_plan_report(args, plan, *, sections=(), sizing=None) -> str | None:
         kw = {} if sizing is None else {
             name: getattr(sizing, name) for name in ("model", "solver", "mip_gap",
                                                      "time_limit", "bound_time")}
-        sweep = cost_against_targets(plan.network, parse_targets(args.report_targets),
+        sweeps = _sweep()
+        sweep = sweeps.cost_against_targets(plan.network, sweeps.parse_targets(args.report_targets),
                                      progress=_sweep_progress(args), **kw)
-        sections.insert(0, sweep_section(sweep))
-    page = plan_html(plan, kind=args.kind, source=args.file, sections=sections)
+        sections.insert(0, sweeps.sweep_section(sweep))
+    page = _html().plan_html(plan, kind=args.kind, source=args.file, sections=sections)
     return write_report(page, args.report)
 
 
@@ -194,8 +201,9 @@ def write_sections_report(args, title, sections, *, lead=None) -> str | None:
     evaluation to lead with); the path or None. The cautions of ``args.kind`` close it."""
     if not getattr(args, "report", None):
         return None
-    body = list(sections) + [cautions_section(args.kind)]
-    return write_report(html_document(title, body, lead=lead), args.report)
+    html = _html()
+    body = list(sections) + [html.cautions_section(args.kind)]
+    return write_report(html.html_document(title, body, lead=lead), args.report)
 
 
 # -- netdim report --------------------------------------------------------------------------
@@ -248,6 +256,6 @@ def run(args) -> int:
     if args.csv:
         write_csv(ev, args.csv)
     # The verdicts the page shows: a demand two fixed-point solutions disagree on is unclear.
-    verdicts = combined_verdicts(ev)
+    verdicts = _html().combined_verdicts(ev)
     print(f"{args.output}: {verdict_counts_words(verdicts)}")
     return 0 if all(v == Verdict.MET.value for v in verdicts) else 1
