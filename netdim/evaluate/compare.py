@@ -222,6 +222,24 @@ def compare_methods(network, capacities=None, simulation=None, *, max_states: in
     ----------
     .. [1] F. P. Kelly, "Blocking probabilities in large circuit-switched networks",
        Adv. Appl. Probab. 18 (1986) 473-505.
+
+    Examples
+    --------
+    One trunk group of 10 circuits offered 5 E: the fixed point and the exact method both
+    give Erlang B's E(5, 10) = 0.0183846 (checked with mpmath), inside the interval of a
+    simulation of 100,000 calls (seed 1).
+
+    >>> from netdim.netfile import loads_network
+    >>> net = loads_network('''
+    ... sites: [{id: ALD}, {id: BIR}]
+    ... links: [{id: ALD-BIR, ends: [ALD, BIR], capacity: 10}]
+    ... demands: [{between: [ALD, BIR], traffic: 5.0, target: 0.02}]
+    ... ''')
+    >>> c = compare_methods(net, simulation={"seed": 1, "calls": 100_000})
+    >>> round(float(c.fixed_point[0]), 7), round(float(c.exact[0]), 7)
+    (0.0183846, 0.0183846)
+    >>> c.flagged, c.verdict_method, c.verdicts().tolist()
+    ((), 'exact', ['met'])
     """
     opts = _options(simulation)
     caps = resolve_capacities(network, capacities)

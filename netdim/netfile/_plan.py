@@ -73,6 +73,34 @@ def write_plan(network, path, capacities, *, text=None, force=False) -> None:
         reads as ``network`` (the file changed since it was read).
     OSError
         The file cannot be written; an existing file is left as it was.
+
+    Examples
+    --------
+    The plan keeps the input's text, comments and layout; only the capacity changes.
+
+    >>> import pathlib, tempfile
+    >>> from netdim.netfile import read_network
+    >>> text = '''name: Two hamlets
+    ... sites: [{id: ALD}, {id: BIR}]
+    ... links: [{id: ALD-BIR, ends: [ALD, BIR], capacity: 10}]   # the busy-hour group
+    ... demands: [{between: [ALD, BIR], traffic: 5.0, target: 0.02}]
+    ... '''
+    >>> with tempfile.TemporaryDirectory() as tmp:
+    ...     source = pathlib.Path(tmp, "hamlets.yaml")
+    ...     _ = source.write_text(text, encoding="utf-8")
+    ...     net = read_network(source)
+    ...     write_plan(net, pathlib.Path(tmp, "plan.yaml"), [12])
+    ...     plan = pathlib.Path(tmp, "plan.yaml").read_text(encoding="utf-8")
+    ...     try:
+    ...         write_plan(net, source, [12])
+    ...     except ValueError as exc:
+    ...         refused = str(exc)
+    >>> print(plan.splitlines()[2])
+    links: [{id: ALD-BIR, ends: [ALD, BIR], capacity: 12}]   # the busy-hour group
+    >>> plan == text.replace("capacity: 10", "capacity: 12")
+    True
+    >>> "hamlets.yaml: is the input file" in refused  # over the input only with force=True
+    True
     """
     check_plan_path(network.source, path, force)
     if text is None and network.source and os.path.isfile(network.source):

@@ -200,6 +200,27 @@ def write_network(network: Network, path, capacities=None) -> None:
     The text goes to a temporary file in the same directory, is flushed to disk, and then
     replaces ``path`` in one :func:`os.replace` step, so readers see the old file or the new
     one, never a partial one.
+
+    Examples
+    --------
+    A network written with 12 circuits instead of its own 10, in a temporary directory,
+    and read back.
+
+    >>> import pathlib, tempfile
+    >>> from netdim.netfile import loads_network, read_network
+    >>> net = loads_network('''
+    ... name: Two hamlets
+    ... sites: [{id: ALD}, {id: BIR}]
+    ... links: [{id: ALD-BIR, ends: [ALD, BIR], capacity: 10}]
+    ... demands: [{between: [ALD, BIR], traffic: 5.0, target: 0.02}]
+    ... ''')
+    >>> with tempfile.TemporaryDirectory() as tmp:
+    ...     path = pathlib.Path(tmp, "plan.yaml")
+    ...     write_network(net, path, capacities=[12])
+    ...     again = read_network(path)
+    ...     head = path.read_text(encoding="utf-8").splitlines()[0]
+    >>> head, again.name, again.links[0].capacity, again.demands[0].traffic
+    ('# netdim network file: Two hamlets', 'Two hamlets', 12, 5.0)
     """
     write_atomic(path, dumps_network(network, capacities))
 

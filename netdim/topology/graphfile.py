@@ -204,6 +204,24 @@ def read_topology(path, format=None, *, coordinates=None, site_ids="label",
     -----
     Link lengths are great-circle distances between the ends' coordinates
     (:func:`netdim.topology.geo.great_circle_km`).
+
+    Examples
+    --------
+    Two nodes one degree of longitude apart on the equator: the link's length is
+    ``2 pi R / 360`` = 111.195 km for the mean radius R = 6371.0088 km.
+
+    >>> import pathlib, tempfile
+    >>> gml = '''graph [
+    ...   node [ id 0 label "Alder Ford" Longitude 0.0 Latitude 0.0 ]
+    ...   node [ id 1 label "Birch Hollow" Longitude 1.0 Latitude 0.0 ]
+    ...   edge [ source 0 target 1 ]
+    ... ]'''
+    >>> with tempfile.TemporaryDirectory() as tmp:
+    ...     path = pathlib.Path(tmp, "hamlets.gml")
+    ...     _ = path.write_text(gml, encoding="utf-8")
+    ...     topo = read_topology(path)
+    >>> [site.id for site in topo.sites], topo.links[0].id, round(topo.links[0].length, 3)
+    (['Alder_Ford', 'Birch_Hollow'], 'Alder_Ford-Birch_Hollow', 111.195)
     """
     source = str(path)
     fmt = _format_of(source, format)
