@@ -208,6 +208,20 @@ def write_report(html, path) -> str:
     ------
     OSError
         The directory does not exist or cannot be written, or ``path`` is a directory.
+
+    Examples
+    --------
+    >>> import os, pathlib, tempfile
+    >>> folder = tempfile.mkdtemp()
+    >>> path = write_report("<!DOCTYPE html><title>t</title>", os.path.join(folder, "r.html"))
+    >>> pathlib.Path(path).read_text()
+    '<!DOCTYPE html><title>t</title>'
+    >>> sorted(os.listdir(folder))  # no temporary file left beside it
+    ['r.html']
+    >>> write_report("x", os.path.join(folder, "missing", "r.html"))  # doctest: +ELLIPSIS
+    Traceback (most recent call last):
+    ...
+    FileNotFoundError: [Errno 2] cannot write the report: no such directory: '...missing'
     """
     path = os.fspath(path)
     directory = os.path.dirname(os.path.abspath(path))

@@ -75,6 +75,8 @@ def verdict_counts_words(verdicts) -> str:
     n = len(v)
     missed = v.count(Verdict.MISSED.value)
     unclear = v.count(Verdict.UNCLEAR.value)
+    if n == 1 and not missed and not unclear:
+        return "The one demand meets its target."
     if n and not missed and not unclear:
         return f"All {_plural(n, 'demand')} meet their target."
     parts = []
@@ -83,7 +85,8 @@ def verdict_counts_words(verdicts) -> str:
     if unclear:
         parts.append(f"{unclear} of {n} cannot be judged (unclear)")
     met = n - missed - unclear
-    return "; ".join(parts) + f"; {met} meet it." if parts else "No demands."
+    return "; ".join(parts) + f"; {met} {'meets' if met == 1 else 'meet'} it." if parts else (
+        "No demands.")
 
 
 def method_words(ev, seed=None) -> str:
