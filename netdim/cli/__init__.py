@@ -25,7 +25,8 @@ __all__ = ["main", "build_parser", "EXIT"]
 EXIT = {"ok": 0, "not-met": 1, "bad-input": 2, "not-converged": 3, "closed-pipe": 141}
 
 #: Sub-command modules, in the order ``netdim --help`` lists them.
-COMMAND_MODULES = ("erlang_cmd", "check_cmd", "import_cmd", "evaluate_cmd", "size_cmd")
+COMMAND_MODULES = ("erlang_cmd", "check_cmd", "import_cmd", "evaluate_cmd", "size_cmd",
+                   "failures_cmd")
 
 
 class _Version(argparse.Action):

@@ -1,0 +1,1 @@
+"""Studies around a plan."""

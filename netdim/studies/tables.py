@@ -1,0 +1,100 @@
+"""Studies as text tables and CSV files (the command line prints these strings)."""
+
+from __future__ import annotations
+
+import csv
+import io
+import os
+import tempfile
+
+from netdim.report.text import CAUTION, fmt_prob, format_table
+
+__all__ = ["failures_text", "failures_csv", "write_csv", "verdict_word"]
+
+#: How a verdict reads in a table (capitals where the figures say no).
+_WORDS = {"met": "survives", "missed": "FAILS", "unclear": "unclear"}
+
+
+def verdict_word(verdict, words=None) -> str:
+    return (words or _WORDS)[str(verdict)]
+
+
+def _names(ids, limit=3) -> str:
+    ids = list(ids)
+    if not ids:
+        return "-"
+    more = f" +{len(ids) - limit}" if len(ids) > limit else ""
+    return ", ".join(ids[:limit]) + more
+
+
+def failures_text(study, title=None) -> str:
+    """The table ``netdim failures`` prints: one row per failure, worst first."""
+    target = ("each demand's own target" if study.failure_target is None
+              else f"a failure target of {fmt_prob(study.failure_target)}")
+    out = [title or study.network, f"Single failures ({study.method}), judged against {target}.",
+           ""]
+    intact = study.intact
+    out.append(f"Intact: worst {intact.worst_demand or '-'} {fmt_prob(intact.worst_blocking)}, "
+               f"mean {fmt_prob(intact.mean_blocking)}, {verdict_word(intact.verdict)}.")
+    out.append("")
+    rows = []
+    for r in study.rows:
+        rows.append([f"{r.kind} {r.element}", _names(r.lost), r.worst_demand or "-",
+                     fmt_prob(r.worst_blocking), fmt_prob(r.mean_blocking),
+                     str(len(r.over_target)), verdict_word(r.verdict)])
+    out.append(format_table(["failed", "lost", "worst demand", "worst", "mean",
+                             "over target", "verdict"], rows, align="lllrrrl"))
+    n = len(study.rows)
+    ok = sum(r.survives for r in study.rows)
+    out.append("")
+    summary = f"{ok} of {n} failures survived"
+    unclear = [r.element for r in study.rows if str(r.verdict) == "unclear"]
+    if unclear:
+        summary += f"; unclear: {_names(unclear, 8)}"
+    out.append(summary + ".")
+    if study.not_converged:
+        out.append(f"did not converge: {_names(study.not_converged, 8)}")
+    out.append("")
+    out.append(CAUTION)
+    return "\n".join(out) + "\n"
+
+
+def failures_csv(study) -> tuple[list, list]:
+    """Header and rows of ``failures.csv`` (worst first)."""
+    header = ["kind", "element", "links", "lost", "ended", "worst_demand", "worst_blocking",
+              "mean_blocking", "over_target", "verdict", "status"]
+    rows = [[r.kind, r.element, " ".join(r.links), " ".join(r.lost), " ".join(r.ended),
+             r.worst_demand or "", repr(r.worst_blocking), repr(r.mean_blocking),
+             " ".join(r.over_target), str(r.verdict), r.status] for r in study.rows]
+    return header, rows
+
+
+def _csv_text(header, rows) -> str:
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(header)
+    w.writerows(rows)
+    return buf.getvalue()
+
+
+def write_csv(directory, name, header, rows) -> str:
+    """Write ``directory/name`` (the directory made if needed) whole or not at all: through a
+    temporary file in the same directory, so a file already there is never left half
+    written. Returns the path."""
+    os.makedirs(directory, exist_ok=True)
+    path = os.path.join(directory, name)
+    fd, tmp = tempfile.mkstemp(prefix=".netdim-", suffix=".tmp", dir=directory)
+    try:
+        mask = os.umask(0o022)
+        os.umask(mask)
+        os.fchmod(fd, 0o666 & ~mask)
+        with os.fdopen(fd, "w", encoding="utf-8", newline="") as f:
+            f.write(_csv_text(header, rows))
+        os.replace(tmp, path)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
+    return path
