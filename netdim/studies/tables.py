@@ -9,7 +9,8 @@ import tempfile
 
 from netdim.report.text import CAUTION, fmt_prob, format_table
 
-__all__ = ["failures_text", "failures_csv", "write_csv", "verdict_word"]
+__all__ = ["failures_text", "failures_csv", "growth_text", "growth_csv", "write_csv",
+           "verdict_word"]
 
 #: How a verdict reads in a table (capitals where the figures say no).
 _WORDS = {"met": "survives", "missed": "FAILS", "unclear": "unclear"}
@@ -98,3 +99,63 @@ def write_csv(directory, name, header, rows) -> str:
             pass
         raise
     return path
+
+
+#: How a year's verdict reads.
+_YEAR_WORDS = {"met": "met", "missed": "MISSED", "unclear": "unclear"}
+
+
+def _money(x) -> str:
+    return f"{x:,.1f}"
+
+
+def growth_text(study, title=None) -> str:
+    """The tables ``netdim growth`` prints: the years, then each link's capacity by year."""
+    rates = f"{100 * study.rate:g} % a year"
+    if study.rates:
+        rates += f" ({len(study.rates)} demands at their own rate)"
+    out = [title or study.network,
+           f"Growth plan ({study.model}), traffic {rates}, capacity never falling; "
+           f"in place at the start: the file's {study.start}.", ""]
+    disc = study.discount > 0
+    rows = []
+    for y in study.years:
+        row = [str(y.year), f"{y.offered:.1f}", str(int(y.capacities.sum())),
+               str(int((y.added > 0).sum())), _money(y.cost)]
+        if disc:
+            row.append(_money(y.discounted_cost))
+        row += [y.worst_demand or "-", fmt_prob(y.worst_blocking), y.status,
+                _YEAR_WORDS[str(y.verdict)]]
+        rows.append(row)
+    head = ["year", "offered", "capacity", "links grown", "cost"]
+    if disc:
+        head.append(f"discounted ({100 * study.discount:g} %)")
+    head += ["worst demand", "worst", "plan", "targets"]
+    out.append(format_table(head, rows, align="r" * (len(head) - 4) + "lrll"))
+    total = f"Total cost {_money(study.total_cost)}"
+    if disc:
+        total += f", discounted {_money(study.total_discounted_cost)}"
+    out += ["", total + ".", ""]
+    nxt = study.next_module_year()
+    rows = []
+    for j, lid in enumerate(study.link_ids):
+        caps = [str(int(study.start_capacities[j]))] + [str(int(y.capacities[j]))
+                                                         for y in study.years]
+        year = nxt[lid]
+        rows.append([lid, *caps, "-" if year is None else str(year)])
+    head = ["link", "start", *[f"y{y.year}" for y in study.years], "next module"]
+    out.append(format_table(head, rows))
+    out += ["", CAUTION]
+    return "\n".join(out) + "\n"
+
+
+def growth_csv(study) -> tuple[list, list]:
+    """Header and rows of ``growth.csv``: one row per year and link."""
+    header = ["year", "link", "capacity", "added", "year_cost", "year_discounted_cost",
+              "year_status", "year_verdict"]
+    rows = []
+    for y in study.years:
+        for j, lid in enumerate(study.link_ids):
+            rows.append([y.year, lid, int(y.capacities[j]), int(y.added[j]), repr(y.cost),
+                         repr(y.discounted_cost), y.status, str(y.verdict)])
+    return header, rows
