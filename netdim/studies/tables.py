@@ -9,7 +9,8 @@ import tempfile
 
 from netdim.report.text import CAUTION, fmt_prob, format_table
 
-__all__ = ["failures_text", "failures_csv", "growth_text", "growth_csv", "write_csv",
+__all__ = ["failures_text", "failures_csv", "growth_text", "growth_csv", "compare_text",
+           "compare_csv", "write_csv",
            "verdict_word"]
 
 #: How a verdict reads in a table (capitals where the figures say no).
@@ -158,4 +159,51 @@ def growth_csv(study) -> tuple[list, list]:
         for j, lid in enumerate(study.link_ids):
             rows.append([y.year, lid, int(y.capacities[j]), int(y.added[j]), repr(y.cost),
                          repr(y.discounted_cost), y.status, str(y.verdict)])
+    return header, rows
+
+
+def compare_text(comparison, title=None) -> str:
+    """The table ``netdim compare`` prints: one row per design, in the order given."""
+    target = ("each demand's own target" if comparison.failure_target is None
+              else f"{fmt_prob(comparison.failure_target)}")
+    out = [title or "Designs compared", ""]
+    rows = []
+    for r in comparison.rows:
+        fail = "-" if r.failure_worst is None else \
+            f"{fmt_prob(r.failure_worst)} ({r.failure_element}), " \
+            f"{r.failure_survivors}/{r.links_built} survived"
+        cpe = "-" if r.carried <= 0 else f"{r.cost_per_erlang:.2f}"
+        rows.append([r.name, _money(r.cost), str(r.capacity), f"{r.links_built}/{r.links}",
+                     fmt_prob(r.worst_blocking), fmt_prob(r.mean_blocking), cpe, fail,
+                     f"{100 * r.gap:.1f}%", _YEAR_WORDS[str(r.verdict)]])
+    out.append(format_table(["design", "cost", "capacity", "links built", "worst", "mean",
+                             "cost/E", "worst single-link failure", "gap", "targets"],
+                            rows, align="lrrrrrrrrl"))
+    out.append("")
+    for r in comparison.rows:
+        if r.missing:
+            out.append(f"{r.name} carries no route for: {_names(r.missing, 8)}")
+    cheapest = comparison.cheapest
+    out.append(f"Cheapest meeting every target and carrying every pair: {cheapest}."
+               if cheapest else "No design meets every target and carries every pair.")
+    if any(r.failure_worst is not None for r in comparison.rows):
+        out.append(f"Failures: each built link cut in turn, judged against {target}.")
+    out += ["", CAUTION]
+    return "\n".join(out) + "\n"
+
+
+def compare_csv(comparison) -> tuple[list, list]:
+    header = ["design", "cost", "capacity", "links_built", "links", "worst_demand",
+              "worst_blocking", "mean_blocking", "carried", "cost_per_erlang",
+              "failure_worst_blocking", "failure_element", "gap", "status", "verdict",
+              "missing"]
+    rows = []
+    for r in comparison.rows:
+        d = r.to_dict()
+        rows.append([r.name, repr(r.cost), r.capacity, r.links_built, r.links, r.worst_demand,
+                     repr(r.worst_blocking), repr(r.mean_blocking), repr(r.carried),
+                     "" if d["cost_per_erlang"] is None else repr(d["cost_per_erlang"]),
+                     "" if r.failure_worst is None else repr(r.failure_worst),
+                     r.failure_element or "", repr(r.gap), r.status, str(r.verdict),
+                     " ".join(r.missing)])
     return header, rows
