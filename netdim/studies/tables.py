@@ -10,7 +10,7 @@ import tempfile
 from netdim.report.text import CAUTION, fmt_prob, format_table
 
 __all__ = ["failures_text", "failures_csv", "growth_text", "growth_csv", "compare_text",
-           "compare_csv", "write_csv",
+           "compare_csv", "headroom_text", "headroom_csv", "write_csv",
            "verdict_word"]
 
 #: How a verdict reads in a table (capitals where the figures say no).
@@ -206,4 +206,50 @@ def compare_csv(comparison) -> tuple[list, list]:
                      "" if r.failure_worst is None else repr(r.failure_worst),
                      r.failure_element or "", repr(r.gap), r.status, str(r.verdict),
                      " ".join(r.missing)])
+    return header, rows
+
+
+def _times(m) -> str:
+    return "unbounded" if m is None else f"x{m:.4f}"
+
+
+def headroom_text(study, title=None, offered=None) -> str:
+    """What ``netdim headroom`` prints: the uniform multiplier, then each demand alone."""
+    u = study.uniform
+    out = [title or study.network, f"Headroom of the installed capacities ({study.method}), "
+           f"bracket within {100 * study.tol:g} %.", ""]
+    if u.multiplier is None:
+        out.append(f"Every target holds up to {MAX_SHOWN} times today's traffic (no limit "
+                   "found).")
+    else:
+        out.append(f"Every target holds at {u.multiplier:.4f} times today's traffic and "
+                   f"fails at {u.above:.4f} times; {u.fails_first} fails first.")
+        if u.multiplier < 1:
+            out.append("Some target already fails at today's traffic.")
+    if study.per_demand:
+        out.append("")
+        rows = []
+        for i, h in enumerate(study.per_demand):
+            row = [h.scope]
+            if offered is not None:
+                row.append(f"{offered[i]:.2f}")
+            row += [_times(h.multiplier), _times(h.above), h.fails_first or "-"]
+            rows.append(row)
+        rows.sort(key=lambda r: float("inf") if r[-3] == "unbounded" else float(r[-3][1:]))
+        head = ["demand alone", *(["offered"] if offered is not None else []), "holds at",
+                "fails at", "fails first"]
+        out.append(format_table(head, rows, align="l" + "r" * (len(head) - 2) + "l"))
+    out += ["", CAUTION]
+    return "\n".join(out) + "\n"
+
+
+#: The largest multiplier a headroom search tries (as shown).
+MAX_SHOWN = "1e6"
+
+
+def headroom_csv(study) -> tuple[list, list]:
+    header = ["scope", "multiplier", "above", "fails_first", "evaluations"]
+    rows = [[h.scope, "" if h.multiplier is None else repr(h.multiplier),
+             "" if h.above is None else repr(h.above), h.fails_first or "", h.evaluations]
+            for h in (study.uniform, *study.per_demand)]
     return header, rows
