@@ -10,7 +10,7 @@ import tempfile
 from netdim.report.text import CAUTION, fmt_prob, format_table
 
 __all__ = ["failures_text", "failures_csv", "growth_text", "growth_csv", "compare_text",
-           "compare_csv", "headroom_text", "headroom_csv", "write_csv",
+           "compare_csv", "headroom_text", "headroom_csv", "survivable_text", "write_csv",
            "verdict_word"]
 
 #: How a verdict reads in a table (capitals where the figures say no).
@@ -253,3 +253,21 @@ def headroom_csv(study) -> tuple[list, list]:
              "" if h.above is None else repr(h.above), h.fails_first or "", h.evaluations]
             for h in (study.uniform, *study.per_demand)]
     return header, rows
+
+
+def survivable_text(plan, title=None) -> str:
+    """What ``netdim size --survive`` prints: capacities, costs, then the failures."""
+    study = plan.failures
+    out = [title or study.network,
+           f"Survivable plan ({study.method}): every demand within "
+           f"{fmt_prob(study.failure_target)} under any single-link failure, its own target "
+           "when nothing fails.", ""]
+    rows = [[lid, str(int(c))] for lid, c in zip(plan.link_ids, plan.capacities, strict=True)]
+    out.append(format_table(["link", "capacity"], rows))
+    out += ["", f"Cost {_money(plan.cost)} (intact plan {_money(plan.intact_cost)}, lower "
+                f"bound {_money(plan.lower_bound)}); {plan.rounds} rounds of re-sizing.",
+            f"Intact: {_YEAR_WORDS[str(plan.intact_verdict)]}; {plan.message}.", ""]
+    body = failures_text(study, title="Single-link failures of this plan")
+    out.append(body.rsplit("\n\n", 1)[0])
+    out += ["", CAUTION]
+    return "\n".join(out) + "\n"
