@@ -1,8 +1,11 @@
 """Independent pieces of a study, run one after another or on a local process pool.
 
-Every study hands :func:`run_all` a picklable function of one argument and the items to
-apply it to; results come back in the items' order, so a pool gives the same result as a
-serial run (each piece is deterministic, or seeded the same way in either case).
+Every study hands :func:`run_all` a picklable function of ``(shared, item)``, the data all
+pieces share (the network, capacities, options) and the items; results come back in the
+items' order, so a pool gives the same result as a serial run (each piece is
+deterministic, or seeded the same way in either case). The shared data reaches each worker
+once, not with every item: inherited by a forked worker, or sent once to its initializer
+where processes are spawned.
 """
 
 from __future__ import annotations
@@ -10,10 +13,14 @@ from __future__ import annotations
 import multiprocessing
 from concurrent.futures import ProcessPoolExecutor, as_completed
 
-__all__ = ["run_all", "check_workers"]
+__all__ = ["run_all", "check_workers", "MAX_WORKERS"]
 
 #: Most worker processes a study starts (a guard against a typing mistake).
 MAX_WORKERS = 256
+
+#: The shared data of the sweep a worker serves (set in the parent before a fork, or by
+#: the initializer of a spawned worker).
+_SHARED = None
 
 
 def check_workers(workers) -> int:
@@ -26,24 +33,38 @@ def check_workers(workers) -> int:
     return workers
 
 
-def _say(progress, done, total, what):
-    if progress is not None:
-        progress(done / total if total else 1.0, f"{done}/{total} {what}")
+def _init(shared):
+    global _SHARED
+    _SHARED = shared
 
 
-def run_all(func, items, *, workers=1, progress=None, what="pieces") -> list:
-    """``[func(item) for item in items]``, on ``workers`` processes when more than one.
+def _run_chunk(task):
+    func, chunk = task
+    return [func(_SHARED, item) for item in chunk]
+
+
+def _context():
+    """Fork where the platform has it (a worker starts with this process's imports and
+    compiled kernels, no copy of the data), else spawn."""
+    methods = multiprocessing.get_all_start_methods()
+    return multiprocessing.get_context("fork" if "fork" in methods else "spawn")
+
+
+def run_all(func, items, *, shared=None, workers=1, progress=None, what="pieces") -> list:
+    """``[func(shared, item) for item in items]``, on ``workers`` processes when more than one.
 
     Parameters
     ----------
     func : callable
-        A module-level function (it is pickled to the workers).
+        A module-level function of ``(shared, item)`` (it is pickled to the workers).
     items : sequence
+    shared : object
+        What every piece needs (picklable).
     workers : int
-        1 runs in this process; more start a pool of that many processes (spawned, so that
-        no solver or compiled-code state is copied half-made into a child).
+        1 runs in this process; more start a pool of that many processes. Items go out in
+        chunks (about four per worker), so that few messages carry many pieces.
     progress : callable(fraction, message) or None
-        Called after each piece with the share done.
+        Called after each piece (serial) or chunk (pool) with the share done.
     what : str
         What a piece is, for the progress message.
 
@@ -52,23 +73,34 @@ def run_all(func, items, *, workers=1, progress=None, what="pieces") -> list:
     list
         The results in the order of ``items``.
     """
+    global _SHARED
     items = list(items)
     total = len(items)
     if workers <= 1 or total <= 1:
         out = []
         for item in items:
-            out.append(func(item))
-            _say(progress, len(out), total, what)
+            out.append(func(shared, item))
+            if progress is not None:
+                progress(len(out) / total, f"{len(out)}/{total} {what}")
         return out
     n = min(workers, total)
-    context = multiprocessing.get_context("spawn")
-    results = [None] * total
-    with ProcessPoolExecutor(max_workers=n, mp_context=context) as pool:
-        futures = {pool.submit(func, item): i for i, item in enumerate(items)}
-        done = 0
-        for fut in as_completed(futures):
-            results[futures[fut]] = fut.result()
-            done += 1
-            _say(progress, done, total, what)
-    return results
-
+    size = max(1, -(-total // (4 * n)))
+    chunks = [items[i:i + size] for i in range(0, total, size)]
+    context = _context()
+    results = [None] * len(chunks)
+    previous, _SHARED = _SHARED, shared  # a forked worker inherits it
+    try:
+        init = {} if context.get_start_method() == "fork" else \
+            {"initializer": _init, "initargs": (shared,)}
+        with ProcessPoolExecutor(max_workers=n, mp_context=context, **init) as pool:
+            futures = {pool.submit(_run_chunk, (func, c)): i for i, c in enumerate(chunks)}
+            done = 0
+            for fut in as_completed(futures):
+                i = futures[fut]
+                results[i] = fut.result()
+                done += len(chunks[i])
+                if progress is not None:
+                    progress(done / total, f"{done}/{total} {what}")
+    finally:
+        _SHARED = previous
+    return [r for chunk in results for r in chunk]

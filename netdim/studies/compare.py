@@ -145,9 +145,10 @@ def _pair(d) -> str:
     return f"{a}-{b}"
 
 
-def _size(task) -> DesignRow:
+def _size(shared, task) -> DesignRow:
     """One design sized and failed (module level: a pool worker runs it)."""
-    name, network, sizing, failure_target, failures = task
+    sizing, failure_target, failures = shared
+    name, network = task
     plan = dimension(network, model=sizing.model, solver=sizing.solver,
                      mip_gap=sizing.mip_gap, time_limit=sizing.time_limit,
                      max_iter=sizing.max_iter, local_search=sizing.local_search,
@@ -230,8 +231,8 @@ def compare_designs(designs, *, sizing=None, failure_target=None, failures=True,
         raise ValueError("sizing: designs are compared at least cost (objective 'cost')")
     failure_target = check_target("failure_target", failure_target)
     workers = check_workers(workers)
-    tasks = [(n, net, sizing, failure_target, failures) for n, net in designs]
-    rows = run_all(_size, tasks, workers=workers, progress=progress, what="designs sized")
+    rows = run_all(_size, designs, shared=(sizing, failure_target, failures),
+                   workers=workers, progress=progress, what="designs sized")
     pairs = [{_pair(d) for d in net.demands} for _, net in designs]
     every = set().union(*pairs)
     rows = [DesignRow(**{**r.__dict__, "missing": tuple(sorted(every - p))})

@@ -246,9 +246,10 @@ def fail_elements(network, *, links=(), sites=()):
     return net, failed, tuple(lost), tuple(ended)
 
 
-def _row(task) -> FailureRow:
+def _row(shared, task) -> FailureRow:
     """One failure evaluated (module level: a pool worker runs it)."""
-    network, capacities, kind, element, method, options, target = task
+    network, capacities, method, options, target = shared
+    kind, element = task
     links = (element,) if kind == "link" else ()
     sites = (element,) if kind == "site" else ()
     net, failed, lost, ended = fail_elements(network, links=links, sites=sites)
@@ -354,10 +355,10 @@ def failure_study(network, capacities=None, *, links=None, sites=None, method="f
             except KeyError as exc:
                 raise ValueError(f"{kind}s: {exc.args[0]}") from None
             elements.append((kind, i))
-    tgt = target
-    intact = _row((network, caps, "none", "", method, options, tgt))
-    tasks = [(network, caps, kind, i, method, options, tgt) for kind, i in elements]
-    rows = run_all(_row, tasks, workers=workers, progress=progress, what="failures")
+    shared = (network, caps, method, options, target)
+    intact = _row(shared, ("none", ""))
+    rows = run_all(_row, elements, shared=shared, workers=workers, progress=progress,
+                   what="failures")
     return FailureStudy(network=network.name, method=method, failure_target=target,
                         intact=intact, rows=tuple(sorted(rows, key=_sort_key)),
                         options=dict(options))

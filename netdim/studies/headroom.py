@@ -116,9 +116,9 @@ def _holds(network, caps, which, m, method, options):
     return False, ev.demand_ids[int(np.argmax(ratio))]
 
 
-def _search(task) -> Headroom:
+def _search(shared, which) -> Headroom:
     """Bracket, then bisect in log space (module level: a pool worker runs it)."""
-    network, caps, which, method, options, tol = task
+    network, caps, method, options, tol = shared
     scope = "all" if which is None else network.demands[which].id
     count = [0]
 
@@ -220,12 +220,11 @@ def headroom_study(network, capacities=None, *, method="fixed-point", tol=DEFAUL
         raise ValueError(f"tol: must lie in (0, 0.1], got {tol!r}")
     workers = check_workers(workers)
     caps = resolve_capacities(network, capacities)
-    uniform = _search((network, caps, None, method, options, float(tol)))
+    shared = (network, caps, method, options, float(tol))
+    uniform = _search(shared, None)
     rows = ()
     if per_demand:
-        tasks = [(network, caps, i, method, options, float(tol))
-                 for i in range(len(network.demands))]
-        rows = tuple(run_all(_search, tasks, workers=workers, progress=progress,
-                             what="demands"))
+        rows = tuple(run_all(_search, range(len(network.demands)), shared=shared,
+                             workers=workers, progress=progress, what="demands"))
     return HeadroomStudy(network=network.name, method=method, tol=float(tol),
                          uniform=uniform, per_demand=rows)

@@ -106,9 +106,9 @@ def _with_installed(network, caps):
     return replace(network, links=links)
 
 
-def _size_failure(task):
+def _size_failure(shared, link_id):
     """Capacities for one failure on top of ``caps`` (module level: a pool worker runs it)."""
-    network, caps, link_id, target, sizing = task
+    network, caps, target, sizing = shared
     net, _, lost, _ = fail_elements(_with_installed(network, caps), links=[link_id])
     if lost or net is None:
         return None
@@ -196,8 +196,8 @@ def survivable_plan(network, *, target, sizing=None, rounds=MAX_ROUNDS, workers=
             break
         if progress is not None:
             progress(None, f"round {done}: {len(failing)} failures to size for")
-        tasks = [(network, caps, lid, target, sizing) for lid in failing]
-        grown = [c for c in run_all(_size_failure, tasks, workers=workers) if c is not None]
+        grown = [c for c in run_all(_size_failure, failing, shared=(network, caps, target, sizing),
+                                    workers=workers) if c is not None]
         new = np.maximum.reduce([caps, *grown]) if grown else caps
         if np.array_equal(new, caps):
             break
