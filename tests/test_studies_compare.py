@@ -159,3 +159,11 @@ def test_cli_errors_are_one_line(argv, match, capsys):
     assert main(["compare", str(VILLAGES), *argv]) == 2
     err = capsys.readouterr().err
     assert len(err.strip().splitlines()) == 1 and re.search(match, err)
+
+
+@pytest.mark.slow
+def test_pool_gives_the_serial_rows():
+    net = read_network(VILLAGES)
+    star, _ = build_variant(net, Variant("star", ("ASH",)))
+    designs = [("file", net), ("star", star)]
+    assert compare_designs(designs, workers=2).to_dict() == compare_designs(designs).to_dict()

@@ -12,6 +12,9 @@ from __future__ import annotations
 
 import multiprocessing
 from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures.process import BrokenProcessPool
+
+from netdim.errors import NetdimError
 
 __all__ = ["run_all", "check_workers", "MAX_WORKERS"]
 
@@ -43,14 +46,16 @@ def _run_chunk(task):
     return [func(_SHARED, item) for item in chunk]
 
 
-def _context():
-    """Fork where the platform has it (a worker starts with this process's imports and
-    compiled kernels, no copy of the data), else spawn."""
+def _context(fork):
+    """Fork where asked and the platform has it (a worker starts with this process's
+    imports and compiled kernels, no copy of the data), else spawn. Sizing studies spawn:
+    a solver's thread pool in this process would be copied half-made into a forked child."""
     methods = multiprocessing.get_all_start_methods()
-    return multiprocessing.get_context("fork" if "fork" in methods else "spawn")
+    return multiprocessing.get_context("fork" if fork and "fork" in methods else "spawn")
 
 
-def run_all(func, items, *, shared=None, workers=1, progress=None, what="pieces") -> list:
+def run_all(func, items, *, shared=None, workers=1, progress=None, what="pieces",
+            fork=True) -> list:
     """``[func(shared, item) for item in items]``, on ``workers`` processes when more than one.
 
     Parameters
@@ -67,6 +72,9 @@ def run_all(func, items, *, shared=None, workers=1, progress=None, what="pieces"
         Called after each piece (serial) or chunk (pool) with the share done.
     what : str
         What a piece is, for the progress message.
+    fork : bool
+        Workers may be forked (pieces that evaluate only); False spawns them (pieces that
+        call a MILP solver).
 
     Returns
     -------
@@ -86,7 +94,7 @@ def run_all(func, items, *, shared=None, workers=1, progress=None, what="pieces"
     n = min(workers, total)
     size = max(1, -(-total // (4 * n)))
     chunks = [items[i:i + size] for i in range(0, total, size)]
-    context = _context()
+    context = _context(fork)
     results = [None] * len(chunks)
     previous, _SHARED = _SHARED, shared  # a forked worker inherits it
     try:
@@ -101,6 +109,9 @@ def run_all(func, items, *, shared=None, workers=1, progress=None, what="pieces"
                 done += len(chunks[i])
                 if progress is not None:
                     progress(done / total, f"{done}/{total} {what}")
+    except BrokenProcessPool:
+        raise NetdimError(f"workers: a worker process stopped abruptly ({n} workers); run "
+                          "with one worker to see why") from None
     finally:
         _SHARED = previous
     return [r for chunk in results for r in chunk]

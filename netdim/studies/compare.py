@@ -232,7 +232,7 @@ def compare_designs(designs, *, sizing=None, failure_target=None, failures=True,
     failure_target = check_target("failure_target", failure_target)
     workers = check_workers(workers)
     rows = run_all(_size, designs, shared=(sizing, failure_target, failures),
-                   workers=workers, progress=progress, what="designs sized")
+                   workers=workers, fork=False, progress=progress, what="designs sized")
     pairs = [{_pair(d) for d in net.demands} for _, net in designs]
     every = set().union(*pairs)
     rows = [DesignRow(**{**r.__dict__, "missing": tuple(sorted(every - p))})

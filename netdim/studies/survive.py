@@ -197,7 +197,7 @@ def survivable_plan(network, *, target, sizing=None, rounds=MAX_ROUNDS, workers=
         if progress is not None:
             progress(None, f"round {done}: {len(failing)} failures to size for")
         grown = [c for c in run_all(_size_failure, failing, shared=(network, caps, target, sizing),
-                                    workers=workers) if c is not None]
+                                    workers=workers, fork=False) if c is not None]
         new = np.maximum.reduce([caps, *grown]) if grown else caps
         if np.array_equal(new, caps):
             break
