@@ -222,8 +222,8 @@ def headroom_text(study, title=None, offered=None) -> str:
         out.append(f"Every target holds up to {MAX_SHOWN} times today's traffic (no limit "
                    "found).")
     else:
-        out.append(f"Every target holds at {u.multiplier:.4f} times today's traffic and "
-                   f"fails at {u.above:.4f} times; {u.fails_first} fails first.")
+        out.append(f"Every target holds at {u.multiplier:.5f} times today's traffic and "
+                   f"fails at {u.above:.5f} times; {u.fails_first} fails first.")
         if u.multiplier < 1:
             out.append("Some target already fails at today's traffic.")
     if study.per_demand:
