@@ -25,3 +25,24 @@ def test_lazy_names_load_and_unknown_ones_are_refused():
     assert netdim.failure_study is studies.failure_study
     with pytest.raises(AttributeError, match=r"module 'netdim.studies' has no attribute 'x'"):
         _ = studies.x
+
+
+def test_csv_and_frame_columns_agree(tmp_path):
+    import pathlib
+
+    from netdim.netfile import read_network
+    from netdim.studies import failure_study
+    from netdim.studies.tables import failures_csv, write_csv
+
+    net = read_network(pathlib.Path(__file__).resolve().parent.parent / "networks"
+                       / "three-villages.yaml")
+    study = failure_study(net)
+    header, rows = failures_csv(study)
+    path = write_csv(str(tmp_path), "failures.csv", header, rows)
+    lines = pathlib.Path(path).read_text().splitlines()
+    assert lines[0].split(",") == header and len(lines) == 1 + len(study.rows)
+    # a float written by the csv module reads back to the same double (repr round trip)
+    assert float(lines[1].split(",")[6]) == study.rows[0].worst_blocking
+    pd = pytest.importorskip("pandas")
+    df = study.to_frame()
+    assert isinstance(df, pd.DataFrame) and list(df.columns) == header

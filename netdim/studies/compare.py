@@ -16,6 +16,7 @@ from netdim.dimension import SizingOptions, dimension
 from netdim.studies._judge import check_target, judge, overall
 from netdim.studies._sweep import check_workers, run_all
 from netdim.studies.failures import failure_study
+from netdim.studies.tables import compare_csv, frame
 from netdim.vocabulary import Verdict
 
 __all__ = ["DesignRow", "TopologyComparison", "compare_designs"]
@@ -129,6 +130,10 @@ class TopologyComparison:
     @property
     def all_met(self) -> bool:
         return all(r.verdict == Verdict.MET for r in self.rows)
+
+    def to_frame(self):
+        """The table as a :class:`pandas.DataFrame` (needs pandas), the ``--csv`` columns."""
+        return frame(*compare_csv(self))
 
     def to_dict(self) -> dict:
         """The JSON form (``netdim compare --json``; keys are added, never renamed)."""

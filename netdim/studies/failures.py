@@ -18,6 +18,7 @@ from netdim.errors import ConvergenceError
 from netdim.evaluate import METHODS, evaluate, resolve_capacities
 from netdim.studies._judge import SEVERITY, check_target, judge, overall
 from netdim.studies._sweep import check_workers, run_all
+from netdim.studies.tables import failures_csv, frame
 from netdim.vocabulary import Verdict
 
 __all__ = ["FailureRow", "FailureStudy", "failure_study", "fail_elements", "KINDS"]
@@ -189,6 +190,10 @@ class FailureStudy:
     @property
     def not_converged(self) -> tuple:
         return tuple(r.element for r in self.rows if r.status == "not-converged")
+
+    def to_frame(self):
+        """The table as a :class:`pandas.DataFrame` (needs pandas), the ``--csv`` columns."""
+        return frame(*failures_csv(self))
 
     def to_dict(self) -> dict:
         """The JSON form (``netdim failures --json``; keys are added, never renamed)."""

@@ -16,6 +16,7 @@ import numpy as np
 from netdim._arrays import frozen
 from netdim.dimension import SizingOptions, dimension
 from netdim.studies._judge import judge, overall
+from netdim.studies.tables import frame, growth_csv
 from netdim.vocabulary import Verdict
 
 __all__ = ["GrowthYear", "GrowthStudy", "growth_study", "STARTS", "MAX_YEARS", "file_rates"]
@@ -158,6 +159,10 @@ class GrowthStudy:
         for j, lid in enumerate(self.link_ids):
             out[lid] = next((y.year for y in self.years if y.added[j] > 0), None)
         return out
+
+    def to_frame(self):
+        """The table as a :class:`pandas.DataFrame` (needs pandas), the ``--csv`` columns."""
+        return frame(*growth_csv(self))
 
     def to_dict(self) -> dict:
         """The JSON form (``netdim growth --json``; keys are added, never renamed)."""

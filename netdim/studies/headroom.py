@@ -18,6 +18,7 @@ import numpy as np
 from netdim.evaluate import evaluate, resolve_capacities
 from netdim.studies._judge import judge
 from netdim.studies._sweep import check_workers, run_all
+from netdim.studies.tables import frame, headroom_csv
 from netdim.vocabulary import Verdict
 
 __all__ = ["Headroom", "HeadroomStudy", "headroom_study", "HEADROOM_METHODS", "DEFAULT_TOL"]
@@ -86,6 +87,10 @@ class HeadroomStudy:
         """``met`` when every target holds at today's traffic (multiplier >= 1)."""
         m = self.uniform.multiplier
         return Verdict.MET if m is None or m >= 1.0 else Verdict.MISSED
+
+    def to_frame(self):
+        """The table as a :class:`pandas.DataFrame` (needs pandas), the ``--csv`` columns."""
+        return frame(*headroom_csv(self))
 
     def to_dict(self) -> dict:
         """The JSON form (``netdim headroom --json``; keys are added, never renamed)."""

@@ -9,7 +9,7 @@ import tempfile
 
 from netdim.report.text import CAUTION, fmt_prob, format_table
 
-__all__ = ["failures_text", "failures_csv", "growth_text", "growth_csv", "compare_text",
+__all__ = ["frame", "failures_text", "failures_csv", "growth_text", "growth_csv", "compare_text",
            "compare_csv", "headroom_text", "headroom_csv", "survivable_text", "write_csv",
            "verdict_word"]
 
@@ -66,9 +66,18 @@ def failures_csv(study) -> tuple[list, list]:
     header = ["kind", "element", "links", "lost", "ended", "worst_demand", "worst_blocking",
               "mean_blocking", "over_target", "verdict", "status"]
     rows = [[r.kind, r.element, " ".join(r.links), " ".join(r.lost), " ".join(r.ended),
-             r.worst_demand or "", repr(r.worst_blocking), repr(r.mean_blocking),
+             r.worst_demand or "", r.worst_blocking, r.mean_blocking,
              " ".join(r.over_target), str(r.verdict), r.status] for r in study.rows]
     return header, rows
+
+
+def frame(header, rows):
+    """The rows as a :class:`pandas.DataFrame` (pandas is optional: imported here only)."""
+    try:
+        import pandas as pd  # optional, heavy: only to_frame() needs it
+    except ImportError:
+        raise ImportError("to_frame() needs pandas (pip install pandas)") from None
+    return pd.DataFrame(list(rows), columns=list(header))
 
 
 def _csv_text(header, rows) -> str:
@@ -157,8 +166,8 @@ def growth_csv(study) -> tuple[list, list]:
     rows = []
     for y in study.years:
         for j, lid in enumerate(study.link_ids):
-            rows.append([y.year, lid, int(y.capacities[j]), int(y.added[j]), repr(y.cost),
-                         repr(y.discounted_cost), y.status, str(y.verdict)])
+            rows.append([y.year, lid, int(y.capacities[j]), int(y.added[j]), y.cost,
+                         y.discounted_cost, y.status, str(y.verdict)])
     return header, rows
 
 
@@ -200,11 +209,10 @@ def compare_csv(comparison) -> tuple[list, list]:
     rows = []
     for r in comparison.rows:
         d = r.to_dict()
-        rows.append([r.name, repr(r.cost), r.capacity, r.links_built, r.links, r.worst_demand,
-                     repr(r.worst_blocking), repr(r.mean_blocking), repr(r.carried),
-                     "" if d["cost_per_erlang"] is None else repr(d["cost_per_erlang"]),
-                     "" if r.failure_worst is None else repr(r.failure_worst),
-                     r.failure_element or "", repr(r.gap), r.status, str(r.verdict),
+        rows.append([r.name, r.cost, r.capacity, r.links_built, r.links, r.worst_demand,
+                     r.worst_blocking, r.mean_blocking, r.carried,
+                     d["cost_per_erlang"], r.failure_worst,
+                     r.failure_element or "", r.gap, r.status, str(r.verdict),
                      " ".join(r.missing)])
     return header, rows
 
@@ -249,8 +257,7 @@ MAX_SHOWN = "1e6"
 
 def headroom_csv(study) -> tuple[list, list]:
     header = ["scope", "multiplier", "above", "fails_first", "evaluations"]
-    rows = [[h.scope, "" if h.multiplier is None else repr(h.multiplier),
-             "" if h.above is None else repr(h.above), h.fails_first or "", h.evaluations]
+    rows = [[h.scope, h.multiplier, h.above, h.fails_first or "", h.evaluations]
             for h in (study.uniform, *study.per_demand)]
     return header, rows
 
