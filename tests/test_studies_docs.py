@@ -9,7 +9,7 @@ import importlib
 import pytest
 
 MODULES = ["netdim.studies.failures", "netdim.studies.growth", "netdim.studies.compare",
-           "netdim.studies.headroom"]
+           "netdim.studies.headroom", "netdim.studies.diversity"]
 
 
 @pytest.mark.parametrize("name", MODULES)

@@ -218,3 +218,34 @@ def cli_status(argv):
         return main(argv)
     except SystemExit as exc:
         return exc.code
+
+
+# -- route diversity (Menger: networkx edge connectivity) --------------------------------------
+def test_diversity_counts_disjoint_routes_and_networkx_bounds_them():
+    from netdim.studies.diversity import route_diversity
+
+    net = read_network(REGIONAL)
+    g = nx.Graph([k.ends for k in net.links])
+    for d, rec in zip(net.demands, route_diversity(net), strict=True):
+        # networkx: edge connectivity of the two ends (no parallel links in this file)
+        assert rec.topology_bound == nx.edge_connectivity(g, *d.between)
+        assert rec.disjoint_routes <= rec.topology_bound
+        # two routes sharing no link exist exactly when some pair of routes is disjoint
+        pairs = any(not set(a.links) & set(b.links)
+                    for i, a in enumerate(d.routes) for b in d.routes[i + 1:])
+        assert (rec.disjoint_routes >= 2) == pairs
+
+
+def test_cli_diversity_names_the_demands_short_of_it(tmp_path, capsys):
+    # invented: B hangs off A by one link, so A-B and B-C have one link-disjoint route
+    path = tmp_path / "tail.yaml"
+    path.write_text("name: tail\nrouting: {policy: alternate, max_hops: 2}\nsites: [A, B, C]\n"
+                    "links:\n  - {id: AB, ends: [A, B], capacity: 10}\n"
+                    "  - {id: AC, ends: [A, C], capacity: 10}\n"
+                    "  - {id: AC2, ends: [A, C], capacity: 10}\n"
+                    "demands:\n  - {between: [A, B], traffic: 1}\n"
+                    "  - {between: [A, C], traffic: 1}\n")
+    assert main(["failures", str(path), "--diversity", "2", "--json"]) == 1
+    out = json.loads(capsys.readouterr().out)
+    assert [d["demand"] for d in out["diversity"]["short"]] == ["A-B"]
+    assert out["diversity"]["short"][0]["topology_bound"] == 1

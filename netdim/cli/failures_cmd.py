@@ -6,11 +6,12 @@ import json
 import sys
 
 from netdim.cli._files import add_file_options, file_limits
-from netdim.cli._study_options import add_common, fraction, id_list, progress_for
+from netdim.cli._study_options import add_common, fraction, id_list, positive_int, progress_for
 from netdim.evaluate import METHODS
 from netdim.netfile import read_network
+from netdim.studies.diversity import route_diversity
 from netdim.studies.failures import failure_study
-from netdim.studies.tables import failures_csv, failures_text, write_csv
+from netdim.studies.tables import diversity_text, failures_csv, failures_text, write_csv
 
 __all__ = ["register", "run"]
 
@@ -39,6 +40,9 @@ def register(subparsers):
                    help="evaluation method (default fixed-point)")
     p.add_argument("--seed", type=int, default=None,
                    help="with --method simulate: the seed of every failure's run")
+    p.add_argument("--diversity", type=positive_int, default=None, metavar="K",
+                   help="also name the demands with fewer than K link-disjoint candidate "
+                   "routes (and what the links would allow)")
     add_common(p)
     add_file_options(p)
     p.set_defaults(func=run)
@@ -64,16 +68,30 @@ def run(args) -> int:
             if text.startswith(name + ":"):
                 raise ValueError(f"{args.file}: {flag}{text[len(name):]}") from None
         raise
+    short = []
+    if args.diversity is not None:
+        short = [d for d in route_diversity(network) if d.disjoint_routes < args.diversity]
     if args.csv:
         write_csv(args.csv, "failures.csv", *failures_csv(study))
     if args.json:
-        print(json.dumps(study.to_dict(), indent=2))
+        out = study.to_dict()
+        if args.diversity is not None:
+            out["diversity"] = {"required": args.diversity,
+                                "short": [d.to_dict() for d in short]}
+        print(json.dumps(out, indent=2))
     else:
         print(failures_text(study, title=f"{network.name} ({args.file})"), end="")
+        if args.diversity is not None:
+            print(diversity_text(short, args.diversity))
+    if short:
+        print(f"netdim failures: {len(short)} demands have fewer than {args.diversity} "
+              f"link-disjoint routes: {', '.join(d.demand for d in short)}", file=sys.stderr)
     bad = [r.element for r in study.rows if str(r.verdict) == "missed"]
     if bad:
         print(f"netdim failures: {len(bad)} of {len(study.rows)} failures leave a demand over "
               f"its target: {', '.join(bad)}", file=sys.stderr)
+        return 1
+    if short:
         return 1
     if study.not_converged:
         print(f"netdim failures: did not converge for {', '.join(study.not_converged)}",

@@ -9,9 +9,9 @@ import tempfile
 
 from netdim.report.text import CAUTION, fmt_prob, format_table
 
-__all__ = ["frame", "failures_text", "failures_csv", "growth_text", "growth_csv", "compare_text",
-           "compare_csv", "headroom_text", "headroom_csv", "survivable_text", "write_csv",
-           "verdict_word"]
+__all__ = ["frame", "diversity_text", "failures_text", "failures_csv", "growth_text",
+           "growth_csv", "compare_text", "compare_csv", "headroom_text", "headroom_csv",
+           "survivable_text", "write_csv", "verdict_word"]
 
 #: How a verdict reads in a table (capitals where the figures say no).
 _WORDS = {"met": "survives", "missed": "FAILS", "unclear": "unclear"}
@@ -278,3 +278,13 @@ def survivable_text(plan, title=None) -> str:
     out.append(body.rsplit("\n\n", 1)[0])
     out += ["", CAUTION]
     return "\n".join(out) + "\n"
+
+
+def diversity_text(short, required) -> str:
+    """The demands with fewer than ``required`` link-disjoint candidate routes."""
+    if not short:
+        return f"Every demand has at least {required} link-disjoint candidate routes."
+    rows = [[d.demand, str(d.disjoint_routes) + ("" if d.exact else "+"),
+             str(d.topology_bound)] for d in short]
+    return (f"Demands with fewer than {required} link-disjoint candidate routes:\n"
+            + format_table(["demand", "disjoint routes", "links allow"], rows))
