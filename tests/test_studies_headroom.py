@@ -138,3 +138,16 @@ def test_cli_errors_are_one_line(argv, match, capsys):
     assert status == 2
     err = capsys.readouterr().err
     assert len(err.strip().splitlines()) == 1 and re.search(match, err)
+
+
+@pytest.mark.parametrize("command", [["failures"], ["headroom"], ["growth", "--start",
+                                                                   "capacities",
+                                                                   "--rate", "1%"]])
+def test_cli_file_without_capacities_names_the_file_and_link(command, tmp_path, capsys):
+    path = tmp_path / "bare.yaml"  # invented: a link left to the sizer
+    path.write_text("name: bare\nsites: [A, B]\nlinks:\n  - {id: AB, ends: [A, B]}\n"
+                    "demands:\n  - {between: [A, B], traffic: 1}\n")
+    assert main([command[0], str(path), *command[1:]]) == 2
+    err = capsys.readouterr().err
+    assert len(err.strip().splitlines()) == 1
+    assert re.search(r"bare\.yaml: link 'AB' has no capacity", err)

@@ -67,7 +67,9 @@ def run(args) -> int:
                            ("workers", "--workers")):
             if text.startswith(name + ":"):
                 raise ValueError(f"{args.file}: {flag}{text[len(name):]}") from None
-        raise
+        if text.startswith(args.file):
+            raise
+        raise ValueError(f"{args.file}: {text}") from None
     short = []
     if args.diversity is not None:
         short = [d for d in route_diversity(network) if d.disjoint_routes < args.diversity]

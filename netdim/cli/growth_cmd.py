@@ -59,7 +59,7 @@ def _flagged(exc, where):
     name = text.split(":", 1)[0]
     if name in _FLAGS:
         return ValueError(f"{where}: {_FLAGS[name]}{text[len(name):]}")
-    return exc
+    return exc if text.startswith(where) else ValueError(f"{where}: {text}")
 
 
 def run(args) -> int:

@@ -49,7 +49,9 @@ def run(args) -> int:
         for name, flag in (("tol", "--tol"), ("workers", "--workers")):
             if text.startswith(name + ":"):
                 raise ValueError(f"{args.file}: {flag}{text[len(name):]}") from None
-        raise
+        if text.startswith(args.file):
+            raise
+        raise ValueError(f"{args.file}: {text}") from None
     if args.csv:
         write_csv(args.csv, "headroom.csv", *headroom_csv(study))
     if args.json:
