@@ -48,6 +48,9 @@ def add_common(p, *, workers=True) -> None:
         p.add_argument("--workers", type=positive_int, default=1, metavar="N",
                        help="run the independent evaluations on N processes (default 1); "
                        "the result is the same")
+        p.add_argument("--scheduler", default=None, metavar="ADDRESS",
+                       help="run them on the Dask cluster at ADDRESS instead (e.g. "
+                       "tcp://host:8786; needs netdim[dask]); the result is the same")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
 
 

@@ -81,6 +81,7 @@ def run(args) -> int:
     try:
         result = compare_designs(designs, sizing=sizing, failure_target=args.failure_target,
                                  failures=not args.no_failures, workers=args.workers,
+                                 scheduler=args.scheduler,
                                  progress=progress_for(args, "compare"))
     except ValueError as exc:
         text = str(exc)

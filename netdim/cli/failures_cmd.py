@@ -59,7 +59,7 @@ def run(args) -> int:
         from_target = args.target
         network = read_network(args.file, **file_limits(args))
         study = failure_study(network, links=args.links, sites=args.sites, method=args.method,
-                              target=from_target, workers=args.workers,
+                              target=from_target, workers=args.workers, scheduler=args.scheduler,
                               progress=progress_for(args, "failures"), **options)
     except ValueError as exc:
         text = str(exc)

@@ -43,6 +43,7 @@ def run(args) -> int:
     try:
         study = headroom_study(network, method=args.method, tol=args.tol,
                                per_demand=not args.no_per_demand, workers=args.workers,
+                               scheduler=args.scheduler,
                                progress=progress_for(args, "headroom"))
     except ValueError as exc:
         text = str(exc)

@@ -16,10 +16,13 @@ from concurrent.futures.process import BrokenProcessPool
 
 from netdim.errors import NetdimError
 
-__all__ = ["run_all", "check_workers", "MAX_WORKERS"]
+__all__ = ["run_all", "check_workers", "check_scheduler", "MAX_WORKERS"]
 
 #: Most worker processes a study starts (a guard against a typing mistake).
 MAX_WORKERS = 256
+
+#: Seconds to wait for a Dask scheduler to answer.
+CONNECT_TIMEOUT = 30
 
 #: The shared data of the sweep a worker serves (set in the parent before a fork, or by
 #: the initializer of a spawned worker).
@@ -54,8 +57,56 @@ def _context(fork):
     return multiprocessing.get_context("fork" if fork and "fork" in methods else "spawn")
 
 
+def _dask_piece(shared, func, item):
+    return func(shared, item)
+
+
+def check_scheduler(scheduler):
+    """None, or a Dask scheduler address (``'tcp://host:8786'``) or ``Client``."""
+    if scheduler is None or hasattr(scheduler, "scatter"):
+        return scheduler
+    if not isinstance(scheduler, str) or not scheduler.strip():
+        raise ValueError(f"scheduler: expected an address such as tcp://host:8786, got "
+                         f"{scheduler!r}")
+    return scheduler.strip()
+
+
+def _run_on_dask(func, items, shared, scheduler, progress, what):
+    """The pieces as Dask tasks on the cluster at ``scheduler`` (an address or a Client);
+    the shared data is sent once to every worker."""
+    try:
+        # optional: only a sweep on a Dask cluster needs dask.distributed (netdim[dask])
+        from dask.distributed import Client
+        from dask.distributed import as_completed as dask_completed
+    except ImportError:
+        raise NetdimError("scheduler: a sweep on a Dask cluster needs dask.distributed "
+                          "(pip install 'netdim[dask]')") from None
+    own = not hasattr(scheduler, "scatter")
+    try:
+        client = Client(scheduler, timeout=CONNECT_TIMEOUT) if own else scheduler
+    except (OSError, TimeoutError) as exc:
+        raise NetdimError(f"scheduler: cannot reach {scheduler}: "
+                          f"{' '.join(str(exc).split()) or type(exc).__name__}") from None
+    try:
+        data = client.scatter(shared, broadcast=True)
+        futures = client.map(_dask_piece, [data] * len(items), [func] * len(items), items,
+                             pure=False)
+        order = {f.key: i for i, f in enumerate(futures)}
+        results = [None] * len(items)
+        done = 0
+        for fut in dask_completed(futures):
+            results[order[fut.key]] = fut.result()
+            done += 1
+            if progress is not None:
+                progress(done / len(items), f"{done}/{len(items)} {what}")
+        return results
+    finally:
+        if own:
+            client.close()
+
+
 def run_all(func, items, *, shared=None, workers=1, progress=None, what="pieces",
-            fork=True) -> list:
+            fork=True, scheduler=None) -> list:
     """``[func(shared, item) for item in items]``, on ``workers`` processes when more than one.
 
     Parameters
@@ -75,6 +126,9 @@ def run_all(func, items, *, shared=None, workers=1, progress=None, what="pieces"
     fork : bool
         Workers may be forked (pieces that evaluate only); False spawns them (pieces that
         call a MILP solver).
+    scheduler : str, Client or None
+        Run the pieces on a Dask distributed cluster instead (its address, or a
+        ``dask.distributed.Client``); ``workers`` is then ignored.
 
     Returns
     -------
@@ -84,6 +138,8 @@ def run_all(func, items, *, shared=None, workers=1, progress=None, what="pieces"
     global _SHARED
     items = list(items)
     total = len(items)
+    if scheduler is not None and total:
+        return _run_on_dask(func, items, shared, scheduler, progress, what)
     if workers <= 1 or total <= 1:
         out = []
         for item in items:

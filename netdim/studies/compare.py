@@ -14,7 +14,7 @@ import numpy as np
 
 from netdim.dimension import SizingOptions, dimension
 from netdim.studies._judge import check_target, judge, overall
-from netdim.studies._sweep import check_workers, run_all
+from netdim.studies._sweep import check_scheduler, check_workers, run_all
 from netdim.studies.failures import failure_study
 from netdim.studies.tables import compare_csv, frame
 from netdim.vocabulary import Verdict
@@ -182,7 +182,7 @@ def _size(shared, task) -> DesignRow:
 
 
 def compare_designs(designs, *, sizing=None, failure_target=None, failures=True, workers=1,
-                    progress=None) -> TopologyComparison:
+                    progress=None, scheduler=None) -> TopologyComparison:
     """Size each design and put the plans side by side.
 
     Parameters
@@ -197,6 +197,9 @@ def compare_designs(designs, *, sizing=None, failure_target=None, failures=True,
         Also fail each built link of each plan (the table's failure columns).
     workers : int
         Processes to size the designs on (1: in this process).
+    scheduler : str or dask.distributed.Client, optional
+        Run the pieces on a Dask cluster (its address) instead of a local pool; the result
+        is the same (needs ``netdim[dask]``).
     progress : callable(fraction, message) or None
 
     Returns
@@ -236,8 +239,10 @@ def compare_designs(designs, *, sizing=None, failure_target=None, failures=True,
         raise ValueError("sizing: designs are compared at least cost (objective 'cost')")
     failure_target = check_target("failure_target", failure_target)
     workers = check_workers(workers)
+    scheduler = check_scheduler(scheduler)
     rows = run_all(_size, designs, shared=(sizing, failure_target, failures),
-                   workers=workers, fork=False, progress=progress, what="designs sized")
+                   workers=workers, fork=False, progress=progress, what="designs sized",
+                   scheduler=scheduler)
     pairs = [{_pair(d) for d in net.demands} for _, net in designs]
     every = set().union(*pairs)
     rows = [DesignRow(**{**r.__dict__, "missing": tuple(sorted(every - p))})

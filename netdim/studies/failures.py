@@ -17,7 +17,7 @@ from netdim._arrays import frozen
 from netdim.errors import ConvergenceError
 from netdim.evaluate import METHODS, evaluate, resolve_capacities
 from netdim.studies._judge import SEVERITY, check_target, judge, overall
-from netdim.studies._sweep import check_workers, run_all
+from netdim.studies._sweep import check_scheduler, check_workers, run_all
 from netdim.studies.tables import failures_csv, frame
 from netdim.vocabulary import Verdict
 
@@ -287,7 +287,8 @@ def _sort_key(row: FailureRow):
 
 
 def failure_study(network, capacities=None, *, links=None, sites=None, method="fixed-point",
-                  target=None, workers=1, progress=None, **options) -> FailureStudy:
+                  target=None, workers=1, progress=None, scheduler=None,
+                  **options) -> FailureStudy:
     """Fail each link (or site) in turn, reroute over the remaining routes and evaluate.
 
     Parameters
@@ -306,6 +307,9 @@ def failure_study(network, capacities=None, *, links=None, sites=None, method="f
         the normal one); default: each demand's own target.
     workers : int
         Processes to run the failures on (1: in this process). The rows are the same.
+    scheduler : str or dask.distributed.Client, optional
+        Run the pieces on a Dask cluster (its address) instead of a local pool; the result
+        is the same (needs ``netdim[dask]``).
     progress : callable(fraction, message) or None
     **options
         Passed to :func:`netdim.evaluate.evaluate` (e.g. ``seed`` for simulation: every
@@ -348,6 +352,7 @@ def failure_study(network, capacities=None, *, links=None, sites=None, method="f
                          f"{', '.join(METHODS)}")
     target = check_target("target", target)
     workers = check_workers(workers)
+    scheduler = check_scheduler(scheduler)
     caps = resolve_capacities(network, capacities)
     if links is None and sites is None:
         links = network.link_ids
@@ -363,7 +368,7 @@ def failure_study(network, capacities=None, *, links=None, sites=None, method="f
     shared = (network, caps, method, options, target)
     intact = _row(shared, ("none", ""))
     rows = run_all(_row, elements, shared=shared, workers=workers, progress=progress,
-                   what="failures")
+                   what="failures", scheduler=scheduler)
     return FailureStudy(network=network.name, method=method, failure_target=target,
                         intact=intact, rows=tuple(sorted(rows, key=_sort_key)),
                         options=dict(options))

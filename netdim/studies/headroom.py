@@ -17,7 +17,7 @@ import numpy as np
 
 from netdim.evaluate import evaluate, resolve_capacities
 from netdim.studies._judge import judge
-from netdim.studies._sweep import check_workers, run_all
+from netdim.studies._sweep import check_scheduler, check_workers, run_all
 from netdim.studies.tables import frame, headroom_csv
 from netdim.vocabulary import Verdict
 
@@ -170,7 +170,8 @@ def _search(shared, which) -> Headroom:
 
 
 def headroom_study(network, capacities=None, *, method="fixed-point", tol=DEFAULT_TOL,
-                   per_demand=True, workers=1, progress=None, **options) -> HeadroomStudy:
+                   per_demand=True, workers=1, progress=None, scheduler=None,
+                   **options) -> HeadroomStudy:
     """The largest traffic multiplier at which every target still holds.
 
     Parameters
@@ -185,6 +186,9 @@ def headroom_study(network, capacities=None, *, method="fixed-point", tol=DEFAUL
         Also find, for each demand alone, how far it can grow (the others as they are).
     workers : int
         Processes for the per-demand searches (1: in this process).
+    scheduler : str or dask.distributed.Client, optional
+        Run the pieces on a Dask cluster (its address) instead of a local pool; the result
+        is the same (needs ``netdim[dask]``).
     progress : callable(fraction, message) or None
     **options
         Passed to :func:`netdim.evaluate.evaluate`.
@@ -224,12 +228,14 @@ def headroom_study(network, capacities=None, *, method="fixed-point", tol=DEFAUL
             not 0 < tol <= 0.1:
         raise ValueError(f"tol: must lie in (0, 0.1], got {tol!r}")
     workers = check_workers(workers)
+    scheduler = check_scheduler(scheduler)
     caps = resolve_capacities(network, capacities)
     shared = (network, caps, method, options, float(tol))
     uniform = _search(shared, None)
     rows = ()
     if per_demand:
         rows = tuple(run_all(_search, range(len(network.demands)), shared=shared,
-                             workers=workers, progress=progress, what="demands"))
+                             workers=workers, progress=progress, what="demands",
+                             scheduler=scheduler))
     return HeadroomStudy(network=network.name, method=method, tol=float(tol),
                          uniform=uniform, per_demand=rows)
