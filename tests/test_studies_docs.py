@@ -46,3 +46,25 @@ def test_csv_and_frame_columns_agree(tmp_path):
     pd = pytest.importorskip("pandas")
     df = study.to_frame()
     assert isinstance(df, pd.DataFrame) and list(df.columns) == header
+
+
+def test_progress_bar_only_on_a_terminal(monkeypatch, capsys):
+    import argparse
+    import io
+
+    from netdim.cli._study_options import progress_for
+
+    args = argparse.Namespace(quiet=False)
+    assert progress_for(args, "failures") is None  # pytest's stderr is not a terminal
+    assert progress_for(argparse.Namespace(quiet=True), "failures") is None
+
+    class Tty(io.StringIO):
+        def isatty(self):
+            return True
+
+    err = Tty()
+    monkeypatch.setattr("sys.stderr", err)
+    progress = progress_for(args, "failures")
+    progress(0.5, "1/2 failures")
+    progress(1.0, "2/2 failures")
+    assert "netdim failures" in err.getvalue() and "2/2 failures" in err.getvalue()

@@ -55,10 +55,29 @@ def add_common(p, *, workers=True) -> None:
 
 
 def progress_for(args, command):
-    """Progress lines on stderr for long runs (the first after 2 s, then one every 2 s),
-    none with --quiet or when stderr is not a terminal."""
+    """A progress bar on stderr for a study (tqdm), none with --quiet or when stderr is not
+    a terminal. Without tqdm, a line every 2 s after the first 2 s."""
     if args.quiet or not sys.stderr.isatty():
         return None
+    try:
+        # optional: the bar is tqdm's; without it the study prints plain lines
+        from tqdm import tqdm
+    except ImportError:
+        return _lines(command)
+    bar = tqdm(total=1000, file=sys.stderr, desc=f"netdim {command}", leave=False,
+               bar_format="{desc}: {percentage:3.0f}%|{bar}| {postfix} [{elapsed}<{remaining}]")
+
+    def progress(share, message):
+        if share is not None:
+            bar.update(max(0, round(1000 * share) - bar.n))
+        bar.set_postfix_str(message, refresh=True)
+        if share is not None and share >= 1.0:
+            bar.close()
+
+    return progress
+
+
+def _lines(command):
     start = time.monotonic()
     last = [start]
 
