@@ -77,6 +77,7 @@ def main(argv=None):
     print(f"network: {net.name}, {len(net.sites)} sites, {len(net.links)} links, "
           f"{len(net.demands)} demands; {os.cpu_count()} cores")
     failure_study(net, links=net.link_ids[:2])  # warm: kernels compiled, routes flattened
+    load = os.getloadavg()[0]
     times, cpus, results = {}, {}, {}
     for _ in range(args.repeats):
         for w in args.workers:  # interleaved, so that load on the machine hits all alike
@@ -86,7 +87,7 @@ def main(argv=None):
             cpus.setdefault(w, []).append(_cpu() - c)
             results[w] = study.to_dict()
     base = statistics.median(times[args.workers[0]])
-    print(f"load average before the runs: {os.getloadavg()[0]:.1f} (1 min)")
+    print(f"load average (1 min): {load:.1f} before the runs, {os.getloadavg()[0]:.1f} after")
     print(f"{'workers':>7}  {'median s':>9}  {'cpu s':>7}  {'runs':>5}  {'speed-up':>8}  "
           "same result")
     for w in args.workers:
