@@ -72,6 +72,8 @@ def test_a_looser_failure_target_is_what_the_rows_are_judged_against():
     study = failure_study(net, target=0.07)
     assert study.all_survive and str(study.verdict) == "met"
     assert all(float(r.target[0]) == 0.07 for r in study.rows)
+    # the intact network keeps the demand's own 5 % target
+    assert float(study.intact.target[0]) == 0.05
 
 
 def test_a_demand_with_no_route_left_is_lost_and_never_survives():

@@ -165,7 +165,7 @@ class FailureStudy:
     failure_target : float or None
         The target every demand is judged against after a failure (None: its own).
     intact : FailureRow
-        The network with nothing failed, judged against the same targets.
+        The network with nothing failed, judged against each demand's own target.
     rows : tuple of FailureRow
         One per failed element, worst first (verdict, then lost demands, then worst
         blocking).
@@ -366,7 +366,8 @@ def failure_study(network, capacities=None, *, links=None, sites=None, method="f
                 raise ValueError(f"{kind}s: {exc.args[0]}") from None
             elements.append((kind, i))
     shared = (network, caps, method, options, target)
-    intact = _row(shared, ("none", ""))
+    # the intact network is judged against the normal targets, not the failure target
+    intact = _row((network, caps, method, options, None), ("none", ""))
     rows = run_all(_row, elements, shared=shared, workers=workers, progress=progress,
                    what="failures", scheduler=scheduler)
     return FailureStudy(network=network.name, method=method, failure_target=target,

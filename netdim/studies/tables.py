@@ -15,6 +15,8 @@ __all__ = ["frame", "diversity_text", "failures_text", "failures_csv", "growth_t
 
 #: How a verdict reads in a table (capitals where the figures say no).
 _WORDS = {"met": "survives", "missed": "FAILS", "unclear": "unclear"}
+#: How a verdict against the normal targets reads (a year, a design, the intact network).
+_YEAR_WORDS = {"met": "met", "missed": "MISSED", "unclear": "unclear"}
 
 
 def verdict_word(verdict, words=None) -> str:
@@ -37,7 +39,8 @@ def failures_text(study, title=None) -> str:
            ""]
     intact = study.intact
     out.append(f"Intact: worst {intact.worst_demand or '-'} {fmt_prob(intact.worst_blocking)}, "
-               f"mean {fmt_prob(intact.mean_blocking)}, {verdict_word(intact.verdict)}.")
+               f"mean {fmt_prob(intact.mean_blocking)}, "
+               f"{_YEAR_WORDS[str(intact.verdict)]} (each demand's own target).")
     out.append("")
     rows = []
     for r in study.rows:
@@ -110,9 +113,6 @@ def write_csv(directory, name, header, rows) -> str:
         raise
     return path
 
-
-#: How a year's verdict reads.
-_YEAR_WORDS = {"met": "met", "missed": "MISSED", "unclear": "unclear"}
 
 
 def _money(x) -> str:
