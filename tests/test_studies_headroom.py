@@ -10,6 +10,8 @@ from dataclasses import replace
 import mpmath as mp
 import pytest
 from erlang_mpmath import mp_erlang
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from netdim.cli import main
 from netdim.erlang import traffic_for
@@ -151,3 +153,13 @@ def test_cli_file_without_capacities_names_the_file_and_link(command, tmp_path, 
     err = capsys.readouterr().err
     assert len(err.strip().splitlines()) == 1
     assert re.search(r"bare\.yaml: link 'AB' has no capacity", err)
+
+
+@settings(max_examples=25, deadline=None)
+@given(n=st.integers(1, 80), a=st.floats(0.05, 60.0), target=st.floats(0.001, 0.2))
+def test_one_link_headroom_brackets_the_erlang_b_load(n, a, target):
+    # Erlang's formula in mpmath: E(m A, n) <= target at the multiplier, > target above it
+    h = headroom_study(one_link(n, a, target), per_demand=False).uniform
+    assert mp_erlang(h.multiplier * a, n) <= target * (1 + 1e-9)
+    assert mp_erlang(h.above * a, n) > target * (1 - 1e-9)
+    assert h.above <= h.multiplier * (1 + 1e-4) * (1 + 1e-12)
