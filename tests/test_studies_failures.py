@@ -251,3 +251,34 @@ def test_cli_diversity_names_the_demands_short_of_it(tmp_path, capsys):
     out = json.loads(capsys.readouterr().out)
     assert [d["demand"] for d in out["diversity"]["short"]] == ["A-B"]
     assert out["diversity"]["short"][0]["topology_bound"] == 1
+
+
+# -- verdicts the figures support ----------------------------------------------------------------
+def test_a_simulated_interval_containing_the_target_is_unclear_not_survived():
+    net = parallel_pair()
+    t = float(mp_erlang(4.0, 7))  # mpmath: the blocking the cut of L1 leaves, as the target
+    study = failure_study(net, links=["L1"], method="simulate", target=t, seed=3, calls=20000)
+    row = study.rows[0]
+    # the same run by hand: the interval of the one demand on L2 alone
+    ev = evaluate(routes_without(net, ["L1"]), [0, 7], method="simulate", seed=3, calls=20000)
+    lo, hi = ev.blocking_interval[0]
+    assert lo <= t <= hi  # the run cannot tell, so neither may the study
+    assert str(row.verdict) == "unclear" and not row.survives
+    assert row.unclear == ("AB",) and str(study.verdict) == "unclear"
+
+
+def test_two_fixed_point_solutions_that_disagree_make_a_demand_unclear():
+    from netdim.evaluate import Evaluation
+    from netdim.studies._judge import judge
+
+    def ev(blocking, alternative=None):
+        return Evaluation(method="fixed-point", demand_ids=("X", "Y"), offered=[1.0, 1.0],
+                          blocking=blocking, target=[0.01, 0.01], link_ids=("L",),
+                          capacity=[1], link_offered=[0.0], link_carried=[0.0],
+                          link_blocking=[0.0], link_blocking_alternate=[0.0],
+                          status="bistable", alternative=alternative)
+
+    # X: met in one solution, missed in the other; Y: missed in both (common practice: a
+    # verdict holds only where every solution of the equations agrees)
+    both = ev([0.005, 0.5], alternative=ev([0.05, 0.6]))
+    assert list(judge(both)) == ["unclear", "missed"]
