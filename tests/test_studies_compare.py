@@ -167,3 +167,19 @@ def test_pool_gives_the_serial_rows():
     star, _ = build_variant(net, Variant("star", ("ASH",)))
     designs = [("file", net), ("star", star)]
     assert compare_designs(designs, workers=2).to_dict() == compare_designs(designs).to_dict()
+
+
+def test_installed_capacity_is_counted_and_the_cost_marked():
+    from dataclasses import replace
+
+    from netdim.studies.tables import compare_text
+
+    base = read_network(VILLAGES)
+    net = replace(base, links=tuple(replace(k, installed=4) for k in base.links))
+    cmp = compare_designs([("file", net), ("new", base)], failures=False)
+    # the units in the installed fields, summed here; the plan pays only for additions
+    assert cmp.rows[0].installed == 12 and cmp.rows[1].installed == 0
+    assert cmp.rows[0].cost == dimension(net).cost
+    text = compare_text(cmp)
+    assert f"{cmp.rows[0].cost:,.1f}*" in text and f"{cmp.rows[1].cost:,.1f}*" not in text
+    assert "(file: 12 units)" in text

@@ -54,6 +54,8 @@ class DesignRow:
         target.
     missing : tuple of str
         Site pairs (``A-B``) that other designs carry and this one does not.
+    installed : int
+        Units already installed in the design's file (``cost`` is of what is added).
     """
 
     name: str
@@ -72,6 +74,7 @@ class DesignRow:
     failure_element: str | None = None
     failure_survivors: int | None = None
     missing: tuple = ()
+    installed: int = 0
 
     @property
     def verdict(self) -> Verdict:
@@ -104,6 +107,7 @@ class DesignRow:
             "status": self.status,
             "verdict": str(self.verdict),
             "missing": list(self.missing),
+            "installed": self.installed,
         }
 
 
@@ -169,7 +173,7 @@ def _size(shared, task) -> DesignRow:
         worst_blocking=float(ev.blocking[worst]) if len(ev.blocking) else 0.0,
         mean_blocking=float(ev.offered @ ev.blocking) / offered if offered > 0 else 0.0,
         carried=float(ev.carried.sum()), gap=float(plan.gap), status=str(plan.status),
-        verdicts=tuple(judge(ev)))
+        verdicts=tuple(judge(ev)), installed=int(sum(k.installed for k in network.links)))
     if failures:
         built = [lid for lid, c in zip(network.link_ids, caps, strict=True) if c > 0]
         study = failure_study(plan.network, links=built, target=failure_target,

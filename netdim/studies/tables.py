@@ -182,13 +182,18 @@ def compare_text(comparison, title=None) -> str:
             f"{fmt_prob(r.failure_worst)} ({r.failure_element}), " \
             f"{r.failure_survivors}/{r.links_built} survived"
         cpe = "-" if r.carried <= 0 else f"{r.cost_per_erlang:.2f}"
-        rows.append([r.name, _money(r.cost), str(r.capacity), f"{r.links_built}/{r.links}",
+        rows.append([r.name, _money(r.cost) + ("*" if r.installed else ""), str(r.capacity),
+                     f"{r.links_built}/{r.links}",
                      fmt_prob(r.worst_blocking), fmt_prob(r.mean_blocking), cpe, fail,
                      f"{100 * r.gap:.1f}%", _YEAR_WORDS[str(r.verdict)]])
     out.append(format_table(["design", "cost", "capacity", "links built", "worst", "mean",
                              "cost/E", "worst single-link failure", "gap", "targets"],
                             rows, align="lrrrrrrrrl"))
     out.append("")
+    if any(r.installed for r in comparison.rows):
+        out.append("* cost of what the plan adds to the capacity already installed "
+                   + ", ".join(f"({r.name}: {r.installed} units)" for r in comparison.rows
+                               if r.installed) + ".")
     for r in comparison.rows:
         if r.missing:
             out.append(f"{r.name} carries no route for: {_names(r.missing, 8)}")
