@@ -61,10 +61,22 @@ def test_ring_routes_reach_every_pair_and_costs_follow_distance():
     ratios = sorted(k.cost_per_module / k.length for k in net.links)
     med = (ratios[len(ratios) // 2] if len(ratios) % 2 else
            (ratios[len(ratios) // 2 - 1] + ratios[len(ratios) // 2]) / 2)
+    def dist(ends):
+        a, b = (net.sites[net.site_index(s)] for s in ends)
+        return ((a.x - b.x) ** 2 + (a.y - b.y) ** 2) ** 0.5
+
+    # the file's lengths are km, its coordinates another unit: the median km per unit
+    per_unit = sorted(k.length / dist(k.ends) for k in net.links)
+    km = (per_unit[len(per_unit) // 2] if len(per_unit) % 2 else
+          (per_unit[len(per_unit) // 2 - 1] + per_unit[len(per_unit) // 2]) / 2)
     link = ring.links[0]
-    a, b = (net.sites[net.site_index(s)] for s in link.ends)
-    dist = ((a.x - b.x) ** 2 + (a.y - b.y) ** 2) ** 0.5
-    assert link.cost_per_module == pytest.approx(med * dist, rel=1e-6)
+    assert link.length == pytest.approx(km * dist(link.ends), rel=1e-6)
+    assert link.cost_per_module == pytest.approx(med * km * dist(link.ends), rel=1e-6)
+    # a variant link on the same pair as a file link costs about what the file's does
+    file_link = next(k for k in net.links if k.id == "QML-TN")
+    star, _ = build_variant(net, Variant("star", ("TN",)))
+    same = next(k for k in star.links if set(k.ends) == {"QML", "TN"})
+    assert same.cost_per_module == pytest.approx(file_link.cost_per_module, rel=0.5)
 
 
 def test_parse_variants_reads_the_two_tandems_as_one():

@@ -3,9 +3,10 @@ two tandems.
 
 Each variant keeps the sites, demands, targets and routing policy of the network it is made
 from and replaces its links. Link costs come from the sites' distances when every site has
-coordinates (Euclidean distance in the file's units times the file's median cost per module
-per unit length), else from the file's links (their median module, cost per module and
-fixed cost). Routes are generated as the network file reader does, up to the file's
+coordinates (the Euclidean distance, turned into the file's length unit by the median
+length per coordinate unit of the file's links, times the file's median cost per module per
+unit length), else from the file's links (their median module, cost per module and fixed
+cost). Routes are generated as the network file reader does, up to the file's
 ``max_hops`` or, where a variant needs longer routes, the most links on any demand's
 shortest path.
 """
@@ -126,6 +127,18 @@ def _link_template(network):
     }
 
 
+def _length_scale(network, pos) -> float:
+    """Length per unit of coordinate distance: the median over the file's links that give a
+    length (coordinates and lengths may be in different units), else 1."""
+    ratios = []
+    for k in network.links:
+        a, b = pos[k.ends[0]], pos[k.ends[1]]
+        d = math.hypot(a.x - b.x, a.y - b.y)
+        if k.length and d > 0:
+            ratios.append(k.length / d)
+    return _median(ratios, 1.0)
+
+
 def build_variant(network: Network, variant: Variant) -> tuple:
     """The network with the links of ``variant``, and the demands it cannot route.
 
@@ -155,9 +168,11 @@ def build_variant(network: Network, variant: Variant) -> tuple:
     t = _link_template(network)
     pos = {s.id: s for s in network.sites}
     located = all(s.x is not None and s.y is not None for s in network.sites)
+    scale = _length_scale(network, pos) if located else 1.0
     links = []
     for a, b in pairs:
-        length = (math.hypot(pos[a].x - pos[b].x, pos[a].y - pos[b].y) if located else None)
+        length = (scale * math.hypot(pos[a].x - pos[b].x, pos[a].y - pos[b].y)
+                  if located else None)
         if length is not None and t["cost_per_length"] is not None:
             cost = t["cost_per_length"] * length
             fixed = (t["fixed_per_length"] or 0.0) * length
