@@ -64,6 +64,8 @@ def progress_for(args, command):
         from tqdm import tqdm
     except ImportError:
         return _lines(command)
+    # no monitor thread: a study may fork its workers, and a fork copies no other thread
+    tqdm.monitor_interval = 0
     bar = tqdm(total=1000, file=sys.stderr, desc=f"netdim {command}", leave=False,
                bar_format="{desc}: {percentage:3.0f}%|{bar}| {postfix} [{elapsed}<{remaining}]")
 
