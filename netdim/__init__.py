@@ -56,6 +56,14 @@ Reports
     plan_html           the same for a plan
     write_report        write such a page whole or not at all
 
+Studies
+    failure_study       each link (or site) failed in turn, traffic rerouted, evaluated
+    growth_study        the plan year by year as traffic grows, capacity never falling
+    compare_designs     designs for the same demands, each sized, side by side
+    build_variant       a mesh, star, ring or two-tandem design from a network's sites
+    headroom_study      the largest traffic multiplier the installed capacities carry
+    survivable_plan     capacities for the intact network and every single-link failure
+
 Errors
     NetdimError, NetworkFileError, ConvergenceError, InfeasibleError, ModelTooLargeError
 
@@ -99,6 +107,8 @@ _EXPORTS = {
     **dict.fromkeys(("dimension", "Plan", "MODELS", "SOLVERS", "STATUSES", "OBJECTIVES",
                      "SizingOptions", "VerifyOptions", "Bound", "Baseline"), "netdim.dimension"),
     **dict.fromkeys(("evaluation_html", "plan_html", "write_report"), "netdim.report.html"),
+    **dict.fromkeys(("failure_study", "growth_study", "compare_designs", "headroom_study",
+                     "survivable_plan", "build_variant"), "netdim.studies"),
     **dict.fromkeys(("NetdimError", "NetworkFileError", "ConvergenceError", "InfeasibleError",
                      "ModelTooLargeError"), "netdim.errors"),
 }

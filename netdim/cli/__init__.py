@@ -26,7 +26,7 @@ EXIT = {"ok": 0, "not-met": 1, "bad-input": 2, "not-converged": 3, "closed-pipe"
 
 #: Sub-command modules, in the order ``netdim --help`` lists them.
 COMMAND_MODULES = ("erlang_cmd", "check_cmd", "import_cmd", "evaluate_cmd", "size_cmd",
-                   "report_cmd")
+                   "report_cmd", "failures_cmd", "growth_cmd", "compare_cmd", "headroom_cmd")
 
 
 class _Version(argparse.Action):

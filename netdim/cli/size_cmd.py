@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 import sys
 
+from netdim.cli._survive import add_survive_options, run_survivable
 from netdim.cli.report_cmd import add_report_options, check_report_args, write_plan_report
 from netdim.dimension import (
     DEFAULT_BOUND_TIME,
@@ -80,6 +81,7 @@ def register(subparsers):
     p.add_argument("-v", "--verbose", action="store_true",
                    help="every progress line (the full trace); default a few summary lines")
     add_report_options(p, force=False, targets=True)
+    add_survive_options(p)
     p.set_defaults(func=run)
     return p
 
@@ -111,6 +113,8 @@ def run(args) -> int:
         check_plan_path(args.file, args.out, args.force)
     check_report_args(args, inputs=[args.file], outputs=[args.out, args.csv])
     network = read_network(args.file)
+    if args.survive is not None:
+        return run_survivable(args, network, sizing)
     if not args.verify and network.routing.policy == "alternate" and not args.quiet \
             and sizing.objective == "cost":
         print("netdim size: note: under alternate routing the fixed point is optimistic; "
