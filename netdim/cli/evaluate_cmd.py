@@ -16,6 +16,7 @@ from netdim.evaluate import (
 )
 from netdim.netfile import read_network
 from netdim.report.comparison import comparison_text
+from netdim.report.day_text import day_text
 from netdim.report.evaluation import evaluation_text, write_csv
 from netdim.vocabulary import Verdict
 
@@ -23,7 +24,7 @@ __all__ = ["register", "run"]
 
 # The flags that are options of some method, by argparse dest (= the library's keyword).
 _OPTION_DESTS = ("seed", "calls", "precision", "holding_law", "cv", "max_states", "tol",
-                 "max_iter")
+                 "max_iter", "days")
 
 
 def register(subparsers):
@@ -67,6 +68,11 @@ def register(subparsers):
     g.add_argument("--tol", type=float, default=None, help="convergence tolerance (1e-10)")
     g.add_argument("--max-iter", type=int, default=None, metavar="N",
                    help="most iterations (1000)")
+    g = p.add_argument_group("demand over the day (a file with rates: --method day, the "
+                             "default there, day-exact, day-fpa, day-mol, day-simulate)")
+    g.add_argument("--days", type=int, default=None, metavar="N",
+                   help="days to simulate (--method day-simulate; default: enough for "
+                   "--calls arrivals)")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     p.set_defaults(func=run)
     return p
@@ -76,12 +82,12 @@ def _flag(dest) -> str:
     return "--" + dest.replace("_", "-")
 
 
-def _method(args) -> str:
+def _method(args, network) -> str:
     if args.conservative:
         if args.method not in (None, "conservative"):
             raise ValueError(f"--conservative: conflicts with --method {args.method}")
         return "conservative"
-    return args.method or "fixed-point"
+    return args.method or ("fixed-point" if network.day is None else "day")
 
 
 def _progress(args):
@@ -122,6 +128,9 @@ def _check_flags(args, method):
     for dest in given:
         if dest not in METHOD_OPTIONS[method]:
             takers = [m for m in METHODS if dest in METHOD_OPTIONS[m]]
+            # name the takers of the same kind (busy-hour or over the day) where there are
+            same = [m for m in takers if m.startswith("day") == method.startswith("day")]
+            takers = same or takers
             ok = " or ".join(f"--method {m}" for m in takers)
             raise ValueError(f"{_flag(dest)}: applies to {ok} only, not --method {method}")
     return given
@@ -143,10 +152,13 @@ def _report_verdicts(ids, verdicts) -> int:
 
 
 def run(args) -> int:
-    method = _method(args)
-    given = _check_flags(args, method)
     network = read_network(args.file)
+    method = _method(args, network)
+    given = _check_flags(args, method)
     opts = {dest: getattr(args, dest) for dest in given}
+    if args.check and network.day is not None:
+        raise ValueError(f"--check: {args.file} has demand over the day (rates); check the "
+                         "day with --method day-simulate beside --method day")
 
     if args.check:
         sim = {k: v for k, v in opts.items() if k != "max_states"}
@@ -160,7 +172,7 @@ def run(args) -> int:
             print(text, end="" if text.endswith("\n") else "\n")
         return _report_verdicts(result.demand_ids, result.verdicts())
 
-    if method == "simulate":
+    if method in ("simulate", "day-simulate"):
         opts["progress"] = _progress(args)
     ev = evaluate(network, method=method, **opts)
     if args.csv:
@@ -170,4 +182,6 @@ def run(args) -> int:
     else:
         title = f"{network.name} ({args.file})"
         print(evaluation_text(ev, title=title), end="")
+        if ev.day is not None:
+            print(day_text(ev), end="")
     return _report_verdicts(ev.demand_ids, ev.verdicts())

@@ -1,0 +1,66 @@
+"""Text of an evaluation over the day (issue 20): per demand the worst period and the lost
+share, per link the occupancy over the day.
+
+Printed after the common evaluation table, whose ``blocking`` column is then each demand's
+figure on its ``target_basis``.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from netdim.report.text import fmt_num, fmt_prob, format_table
+
+__all__ = ["day_text", "clock"]
+
+
+def clock(hours: float) -> str:
+    """Hours from the start of the day as ``+H:MM``."""
+    minutes = int(round(hours * 60))
+    return f"+{minutes // 60}:{minutes % 60:02d}"
+
+
+def _iv(pair) -> str:
+    return f"[{fmt_prob(float(pair[0]))}, {fmt_prob(float(pair[1]))}]"
+
+
+def day_text(ev) -> str:
+    """Tables of the day's figures of ``ev`` (an Evaluation with ``day`` set)."""
+    r = ev.day
+    hours = np.asarray(r.period_hours)
+    starts = np.cumsum(hours) - hours
+    sim = hasattr(r, "peak_blocking_interval")
+    out = [f"Over the day ({len(hours)} periods of {fmt_num(float(hours[0]))} h; period 0 "
+           "starts at +0:00)"]
+    headers = ["demand", "worst period", "starts", "blocking there"]
+    if sim:
+        headers.append(f"{round(100 * r.confidence)}% interval")
+    headers.append("lost share")
+    if sim:
+        headers.append(f"{round(100 * r.confidence)}% interval")
+    rows = []
+    for i, did in enumerate(ev.demand_ids):
+        p = int(r.peak_period[i])
+        row = [did, str(p), clock(float(starts[p])), fmt_prob(float(r.peak_blocking[i]))]
+        if sim:
+            row.append(_iv(r.peak_blocking_interval[i]))
+        row.append(fmt_prob(float(r.lost_fraction[i])))
+        if sim:
+            row.append(_iv(r.lost_fraction_interval[i]))
+        rows.append(row)
+    out.append(format_table(headers, rows))
+    out.append("")
+    headers = ["link", "capacity", "peak mean occupancy", "at", "peak 95% point"
+               if abs(r.quantile - 0.95) < 1e-12 else f"peak {100 * r.quantile:g}% point",
+               "worst period full"]
+    rows = []
+    for j, lid in enumerate(ev.link_ids):
+        rows.append([lid, str(int(r.capacity[j])), fmt_num(float(r.peak_occupancy[j])),
+                     clock(float(r.peak_time[j])),
+                     str(int(np.max(r.occupancy_quantile[j], initial=0))),
+                     fmt_prob(float(np.max(r.link_blocking[j], initial=0.0)))])
+    out.append(format_table(headers, rows))
+    out.append("")
+    out.append("Day profiles must be measured (counts by period, on ordinary days); special "
+               "days (events, holidays, term dates) differ and need their own profile.")
+    return "\n".join(out) + "\n"
