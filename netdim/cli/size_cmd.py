@@ -17,6 +17,7 @@ from netdim.dimension import (
     dimension,
 )
 from netdim.netfile import check_plan_path, read_network, write_plan
+from netdim.report.day_text import day_plan_text
 from netdim.report.plan import format_plan
 
 __all__ = ["register", "run"]
@@ -119,6 +120,8 @@ def run(args) -> int:
         write_plan(network, args.out, plan.capacities, force=args.force)
     if args.json:
         print(json.dumps(plan.to_dict(), indent=2))
+    elif plan.details.get("day"):
+        print(day_plan_text(format_plan(plan), plan), end="")
     else:
         print(format_plan(plan))
     for w in plan.warnings:

@@ -11,7 +11,7 @@ import numpy as np
 
 from netdim.report.text import fmt_num, fmt_prob, format_table
 
-__all__ = ["day_text", "clock"]
+__all__ = ["day_text", "day_plan_text", "clock"]
 
 
 def clock(hours: float) -> str:
@@ -64,3 +64,24 @@ def day_text(ev) -> str:
     out.append("Day profiles must be measured (counts by period, on ordinary days); special "
                "days (events, holidays, term dates) differ and need their own profile.")
     return "\n".join(out) + "\n"
+
+
+def day_plan_text(plan_text: str, plan) -> str:
+    """The plan report of a plan sized over the day: ``plan_text`` (the common report) with
+    its lower-bound and gap lines replaced by what holds (no bound is proved over the day),
+    then the day's table of the plan's evaluation."""
+    out = []
+    for line in plan_text.split("\n"):
+        if line.startswith(("gap ", "about the gap")):
+            continue
+        if line.startswith("lower bound"):
+            out.append("lower bound    none over the day (netdim's bounds are proved for "
+                       "busy-hour demand only)")
+            bh = plan.details.get("busy_hour_cost")
+            if bh is not None:
+                caps = ", ".join(str(c) for c in plan.details.get("busy_hour_capacities", []))
+                out.append(f"busy-hour way  {fmt_num(float(bh))}  (max rate x holding per "
+                           f"demand; capacities {caps})")
+            continue
+        out.append(line)
+    return "\n".join(out).rstrip("\n") + "\n\n" + day_text(plan.evaluation)
