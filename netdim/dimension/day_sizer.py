@@ -152,16 +152,67 @@ def size_over_day(network, options: SizingOptions, *, verify=None, progress=None
     warnings = list(ev.warnings)
     verification = None
     if verify is not None and not ev.unmet:
-        say(None, "simulating the plan over the day")
-        verification = evaluate(network, choices.capacity(k), method="day-simulate",
-                                calls=verify.calls, seed=_seed(verify.seed), progress=progress)
+        k, ev, verification, rounds = _calibrate(network, choices, k, ev, kmin, verify,
+                                                 day_eval, say, progress)
         details["verify_seed"] = int(verification.details.get("seed", 0))
         details["verify_days"] = int(verification.details.get("days", 0))
+        details["verify_rounds"] = int(rounds)
+        details["verify_margin"] = float(verify.margin)
+        details["unverified_cost"] = float(cost)
+        details["day_evaluations"] = int(count[0])
+        cost = choices.cost(k)
+        if ev.unmet:
+            status = PlanStatus.INFEASIBLE
+            message = ("calibrated by simulation over the day, the targets cannot be met "
+                       f"within the links' bounds: {', '.join(ev.unmet)}")
+        else:
+            message = (f"every target met over the day ({ev.method}) and checked by "
+                       f"simulation ({rounds} calibration round"
+                       f"{'' if rounds == 1 else 's'}); cost {cost:g}; sized the busy-hour "
+                       f"way it would cost {bh.cost:g}")
     return make_plan(network, network, choices, k, ev, lower_bound=0.0,
                      gap=1.0 if cost > 0 else 0.0, status=status, message=message,
                      iterations=static.iterations, solver=options.solver,
                      seconds=time.perf_counter() - t_start, baseline=base, model=ev.method,
                      details=details, warnings=warnings, verification=verification)
+
+
+def _calibrate(network, choices, k, ev, kmin, verify, day_eval, say, progress):
+    """Simulate the plan over the day; where a demand's simulated figure is above
+    ``target x (1 - margin)``, tighten its working target by the ratio and add modules
+    until the approximation meets the working targets; up to ``verify.rounds`` rounds.
+
+    Returns (modules, evaluation against the true targets, last simulation, rounds)."""
+    target = np.array([d.target for d in network.demands], dtype=float)
+    working = target.copy()
+    rounds = 0
+    while True:
+        say(None, f"simulating the plan over the day (round {rounds})")
+        sim = evaluate(network, choices.capacity(k), method="day-simulate",
+                       calls=verify.calls, seed=_seed(verify.seed), progress=progress)
+        goal = target * (1.0 - verify.margin)
+        over = np.asarray(sim.blocking) > goal
+        if not over.any() or rounds >= verify.rounds:
+            return k, ev, sim, rounds
+        rounds += 1
+        ratio = np.where(over, goal / np.maximum(np.asarray(sim.blocking), 1e-300), 1.0)
+        approx = np.maximum(np.asarray(ev.blocking), 1e-12)
+        # the approximation's figure times the simulated excess: where the plan must get to
+        working = np.where(over, np.minimum(working, approx * ratio), working)
+        tight = replace(network, demands=tuple(
+            replace(d, target=float(w)) for d, w in zip(network.demands, working, strict=True)))
+        method = ev.method
+
+        def tight_eval(m, net=tight, method=method):
+            day_eval(m)  # counted against the work limit
+            return evaluate(net, choices.capacity(m), method=method)
+
+        k, tev, stuck = _repair(tight, choices, k, tight_eval(k), tight_eval, say)
+        if not stuck:
+            k, tev = _step_down(choices, k, tev, kmin, tight_eval, say)
+        ev = evaluate(network, choices.capacity(k), method=method)
+        if stuck:
+            return k, ev, sim, rounds
 
 
 def _seed(seed):
@@ -174,23 +225,32 @@ def _links_of(network, i):
     return sorted({j for r in routes for j in r.links})
 
 
+def _excess(ev):
+    """How far the demands are above their targets, relative (0 when all are met)."""
+    b, t = np.asarray(ev.blocking), np.asarray(ev.target)
+    return float(np.sum(np.maximum(b - t, 0.0) / t))
+
+
 def _repair(network, choices: SizingChoices, k, ev, day_eval, say):
-    """Add modules where a day target is missed; (modules, evaluation, stuck)."""
+    """Add modules where a day target is missed, each time the module that takes the most
+    excess blocking away per unit of cost; (modules, evaluation, stuck)."""
     while ev.unmet:
-        full = ev.day.link_blocking
-        best, best_score = None, -1.0
-        for did in ev.unmet:
-            i = ev.demand_ids.index(did)
-            p = int(ev.day.peak_period[i])
-            for j in _links_of(network, i):
-                if k[j] < choices.max_modules[j] and full[j, p] > best_score:
-                    best, best_score = j, float(full[j, p])
-        if best is None:
+        now, cost = _excess(ev), choices.cost(k)
+        cands = sorted({j for did in ev.unmet
+                        for j in _links_of(network, ev.demand_ids.index(did))
+                        if k[j] < choices.max_modules[j]})
+        if not cands:
             return k, ev, True
-        k = k.copy()
-        k[best] += 1
-        say(None, f"over the day: link '{network.links[best].id}' +1 module")
-        ev = day_eval(k)
+        best = None
+        for j in cands:
+            trial = k.copy()
+            trial[j] += 1
+            tev = day_eval(trial)
+            gain = (now - _excess(tev)) / max(choices.cost(trial) - cost, 1e-12)
+            if best is None or gain > best[0]:
+                best = (gain, j, trial, tev)
+        _, j, k, ev = best
+        say(None, f"over the day: link '{network.links[j].id}' +1 module")
     return k, ev, False
 
 
