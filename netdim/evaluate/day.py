@@ -36,6 +36,11 @@ _APPROX_NOTE = ("{m} is an approximation of the day (within 15 % of the exact ch
                 "with --method day-simulate")
 
 
+_ALTERNATE_NOTE = ("under alternate routing the day approximations are optimistic: on the "
+                   "campus day the worst-hour blocking came out up to 45 % below the "
+                   "simulation's (docs/measurements/daily.md); size with --verify")
+
+
 def day_method_for(network) -> str:
     """``'day-exact'`` when the exact chain applies (one link, one holding time for all its
     demands, single-rate), else ``'day-fpa'``."""
@@ -109,6 +114,8 @@ def evaluate_day(network, capacities, method="day", *, steps_per_period=4, quant
         r = day_reduced_load(network, rates, capacities, method=method[4:], **common)
         status = EvaluationStatus.CONVERGED
         warnings.append(_APPROX_NOTE.format(m=method))
+        if network.routing.policy == "alternate":
+            warnings.append(_ALTERNATE_NOTE)
     elif method == "day-simulate":
         r = simulate_day(network, rates, capacities, seed=seed, calls=calls, days=days,
                          confidence=confidence, progress=progress, **common)
