@@ -298,7 +298,9 @@ class Network:
         if not factor >= 0:
             raise ValueError(f"factor: must be >= 0, got {factor!r}")
         demands = tuple(replace(d, traffic=d.traffic * factor) for d in self.demands)
-        return replace(self, demands=demands)
+        day = self.day if self.day is None else replace(
+            self.day, rates=tuple(tuple(r * factor for r in row) for row in self.day.rates))
+        return replace(self, demands=demands, day=day)
 
     def usable_links(self) -> np.ndarray:
         """Per link (bool array), whether a route the routing policy uses crosses it: every

@@ -7,7 +7,7 @@ Journal 54 (1975) 625-661; from memory), computed here by quadrature with
 ``scipy.integrate.solve_ivp``, independent of netdim's closed form.
 """
 
-import textwrap
+import pathlib
 
 import numpy as np
 import pytest
@@ -15,7 +15,7 @@ import yaml
 from scipy.integrate import solve_ivp
 
 from netdim.errors import NetworkFileError
-from netdim.netfile import dumps_network, loads_network, write_plan
+from netdim.netfile import dumps_network, loads_network, read_network, write_plan
 
 PARK = """\
 name: park
@@ -29,14 +29,6 @@ demands:
     holding: 2
 """
 ISSUE_RATES = [5, 10, 30, 45, 40, 30, 20, 15, 10, 5, 2, 0]
-
-
-def _with(extra_demand="", defaults="", second=""):
-    text = PARK + textwrap.indent(textwrap.dedent(extra_demand), "    ")
-    text += textwrap.dedent(second)
-    if defaults:
-        text += f"defaults: {defaults}\n"
-    return text
 
 
 def test_plain_file_has_no_day():
@@ -168,3 +160,16 @@ def test_plan_file_keeps_day_fields(tmp_path):
     assert data["demands"][0]["rates"] == ISSUE_RATES
     assert data["defaults"] == {"cyclic": True, "target_basis": "peak"}
     assert loads_network(out.read_text()).day == net.day
+
+
+def test_scaled_network_scales_the_day():
+    net = loads_network(PARK).scaled(2.0)
+    assert net.day.rates[0][3] == 90.0  # 45/h doubled
+    assert net.demands[0].traffic == pytest.approx(2 * loads_network(PARK).demands[0].traffic)
+
+
+def test_bundled_campus_day_reads():
+    path = pathlib.Path(__file__).resolve().parent.parent / "examples" / "campus_day.yaml"
+    net = read_network(path)
+    assert net.day.n_periods == 14 and not net.day.cyclic
+    assert net.day.rate_array().shape == (4, 14)

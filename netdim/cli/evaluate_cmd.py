@@ -16,7 +16,7 @@ from netdim.evaluate import (
 )
 from netdim.netfile import read_network
 from netdim.report.comparison import comparison_text
-from netdim.report.day_text import day_text
+from netdim.report.day_text import with_day_text
 from netdim.report.evaluation import evaluation_text, write_csv
 from netdim.vocabulary import Verdict
 
@@ -181,7 +181,6 @@ def run(args) -> int:
         print(json.dumps(ev.to_dict(), indent=2))
     else:
         title = f"{network.name} ({args.file})"
-        print(evaluation_text(ev, title=title), end="")
-        if ev.day is not None:
-            print(day_text(ev), end="")
+        text = evaluation_text(ev, title=title)
+        print(text if ev.day is None else with_day_text(text, ev), end="")
     return _report_verdicts(ev.demand_ids, ev.verdicts())

@@ -121,7 +121,7 @@ def run(args) -> int:
     if args.json:
         print(json.dumps(plan.to_dict(), indent=2))
     elif plan.details.get("day"):
-        print(day_plan_text(format_plan(plan), plan), end="")
+        print(day_plan_text(format_plan(plan), plan).rstrip("\n"))
     else:
         print(format_plan(plan))
     for w in plan.warnings:

@@ -9,9 +9,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from netdim.report.text import fmt_num, fmt_prob, format_table
+from netdim.report.text import CAUTION, fmt_num, fmt_prob, format_table
 
-__all__ = ["day_text", "day_plan_text", "clock"]
+__all__ = ["day_text", "day_plan_text", "with_day_text", "clock"]
 
 
 def clock(hours: float) -> str:
@@ -84,4 +84,13 @@ def day_plan_text(plan_text: str, plan) -> str:
                            f"demand; capacities {caps})")
             continue
         out.append(line)
-    return "\n".join(out).rstrip("\n") + "\n\n" + day_text(plan.evaluation)
+    return with_day_text("\n".join(out).rstrip("\n") + "\n", plan.evaluation)
+
+
+def with_day_text(text: str, ev) -> str:
+    """``text`` (a report ending with the caution) with the day's tables of ``ev`` put
+    before the caution."""
+    head, sep, tail = text.rpartition(CAUTION)
+    if not sep:
+        return text.rstrip("\n") + "\n\n" + day_text(ev)
+    return head.rstrip("\n") + "\n\n" + day_text(ev) + "\n" + sep + tail
