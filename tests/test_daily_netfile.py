@@ -129,6 +129,9 @@ BAD = {
                          10, "demand 'cars'", r"cyclic false disagrees with defaults.cyclic"),
     "multirate": (PARK.replace("holding: 2\n", "holding: 2\n    bandwidth: 2\n"),
                   8, "demand 'cars'", r"rates: bandwidth 2: a day profile takes single-rate"),
+    "start_over_capacity": (PARK.replace("holding: 2\n", "holding: 2\n    start: 71\n"),
+                            10, "demand 'cars'",
+                            r"start: 71 calls in progress on link 'P' exceed its capacity 70"),
     "too_much_traffic": (PARK.replace("[5, 10, 30,", "[5, 1e9, 30,"),
                          8, "demand 'cars'", r"rates: largest rate x holding = 2e\+09 erlangs"),
 }

@@ -52,6 +52,16 @@ def test_day_basis():
     assert forward_day(WAVE, n, 2.0)[1] <= 0.01 < forward_day(WAVE, n - 1, 2.0)[1]
 
 
+def test_start_above_the_day_size():
+    # 85 cars at the start: the park must hold them (and then the chain from 85 decides)
+    plan = dimension(loads_network(PARK.replace("BASIS", "    start: 85\n")))
+    n = int(plan.capacities[0])
+    assert n >= 85
+    assert forward_day(WAVE, n, 2.0, start=85)[0].max() <= 0.01
+    if n > 85:
+        assert forward_day(WAVE, n - 1, 2.0, start=85)[0].max() > 0.01
+
+
 def test_module_and_max_capacity_respected():
     text = PARK.replace("BASIS", "").replace("ends: [GATE, PARK]}",
                                              "ends: [GATE, PARK], module: 5, max_capacity: 75}")

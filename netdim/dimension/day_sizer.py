@@ -117,7 +117,8 @@ def size_over_day(network, options: SizingOptions, *, verify=None, progress=None
         return evaluate(network, choices.capacity(k), method=method)
 
     k = np.asarray(static.modules, dtype=np.int64).copy()
-    kmin = min_modules(static_net, choices)
+    kmin = np.maximum(min_modules(static_net, choices), _start_modules(network, choices))
+    k = np.maximum(k, kmin)
     ev = day_eval(k)
     k, ev, stuck = _repair(network, choices, k, ev, day_eval, say)
     if not stuck:
@@ -213,6 +214,16 @@ def _calibrate(network, choices, k, ev, kmin, verify, day_eval, say, progress):
         ev = evaluate(network, choices.capacity(k), method=method)
         if stuck:
             return k, ev, sim, rounds
+
+
+def _start_modules(network, choices):
+    """Fewest modules per link that hold the calls in progress at the start of the day."""
+    need = np.zeros(len(network.links), dtype=np.int64)
+    for d, s in zip(network.demands, network.day.start, strict=True):
+        if s and d.routes:
+            for j in d.routes[0].links:
+                need[j] += s
+    return np.minimum(choices.modules_for(need), choices.max_modules)
 
 
 def _seed(seed):

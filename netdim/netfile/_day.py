@@ -38,7 +38,7 @@ _RATE_LIMIT = 1e10  # calls per hour, as the reader's limit on `rate`
 _UNITS_LIMIT = 10_000_000
 
 
-def parse_day(reader, data, demands, max_traffic):
+def parse_day(reader, data, demands, max_traffic, links=()):
     """The day profile of a network file.
 
     Parameters
@@ -51,6 +51,8 @@ def parse_day(reader, data, demands, max_traffic):
         has traffic 0 there).
     max_traffic : float
         Largest traffic (erlangs) accepted, as for ``rate`` and ``traffic``.
+    links : sequence of Link
+        To check the calls in progress at the start against the capacities given.
 
     Returns
     -------
@@ -100,8 +102,24 @@ def parse_day(reader, data, demands, max_traffic):
         return demands, None
     if bad:
         return demands, None  # problems reported; the profile is not built from them
-    return _profile(reader, demands, rows, profiled, (d_period, d_cyclic, d_basis),
-                    max_traffic)
+    out, day = _profile(reader, demands, rows, profiled, (d_period, d_cyclic, d_basis),
+                        max_traffic)
+    if day is not None and any(day.start):
+        _check_start(reader, demands, rows, day, links)
+    return out, day
+
+
+def _check_start(reader, demands, rows, day, links):
+    """Calls in progress at the start fit the links of their first routes."""
+    busy = {}
+    for d, r, s in zip(demands, rows, day.start, strict=True):
+        for j in (d.routes[0].links if d.routes and s else ()):
+            busy[j] = busy.get(j, 0) + s
+            cap = links[j].capacity if j < len(links) else None
+            if cap is not None and busy[j] > cap:
+                reader.add(line_of(r["m"], "start"), r["item"],
+                           f"start: {busy[j]} calls in progress on link "
+                           f"{show(links[j].id)} exceed its capacity {cap}")
 
 
 def _profile(reader, demands, rows, profiled, defaults, max_traffic):

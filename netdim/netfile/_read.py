@@ -182,7 +182,7 @@ def _build(reader, data, default_name):
     if not isinstance(data.get("links"), Seq):
         unreadable.add(_NO_LINKS)  # reported once, not again as "no route" per demand
     demands = parse_demands(reader, data, site_ids, links, unreadable, defaults, routing)
-    demands, day = parse_day(reader, data, demands, MAX_TRAFFIC)
+    demands, day = parse_day(reader, data, demands, MAX_TRAFFIC, links)
     extra = {k: v for k, v in data.items()
              if k in _KEPT_TOP or (isinstance(k, str) and k.startswith("x-"))}
     return Network(
