@@ -210,11 +210,25 @@ def test_cli_evaluate_day(tmp_path, capsys):
     assert d["demands"][0]["peak_period"] == 5
 
 
+def test_cli_day_check(tmp_path, capsys):
+    path = write(tmp_path, park())
+    assert main(["evaluate", path, "--check", "--seed", "3", "--days", "300", "--quiet",
+                 "--json"]) == 1
+    d = json.loads(capsys.readouterr().out)
+    rec = d["demands"][0]
+    assert d["verdict_method"] == "day-exact" and rec["verdict"] == "missed"
+    b, _ = forward_day(WAVE, 70, 2.0)
+    assert rec["day-exact"] == pytest.approx(b.max(), rel=1e-9)
+    assert {"day-fpa", "day-mol", "day-simulate", "interval", "day-fpa_inside"} <= set(rec)
+    assert main(["evaluate", path, "--check", "--seed", "3", "--days", "50", "--quiet"]) == 1
+    out = capsys.readouterr().out
+    assert "Accuracy check over the day" in out and "outside the simulation's interval" in out
+    assert main(["evaluate", path, "--check", "--tol", "1e-9"]) == 2
+    assert "--tol: does not apply to --check on a day profile" in capsys.readouterr().err
+
+
 def test_cli_refusals(tmp_path, capsys):
     path = write(tmp_path, park())
-    assert main(["evaluate", path, "--check"]) == 2
-    err = capsys.readouterr().err
-    assert "--check: " in err and "has demand over the day" in err and err.count("\n") == 1
     assert main(["evaluate", path, "--days", "5"]) == 2
     assert "--days: applies to --method day-simulate only" in capsys.readouterr().err
     bad = write(tmp_path, park(rates=[5, -1]))

@@ -14,9 +14,11 @@ from netdim.evaluate import (
     compare_methods,
     evaluate,
 )
+from netdim.evaluate.day_compare import CHECK_OPTIONS as DAY_CHECK_OPTIONS
+from netdim.evaluate.day_compare import compare_day_methods
 from netdim.netfile import read_network
 from netdim.report.comparison import comparison_text
-from netdim.report.day_text import with_day_text
+from netdim.report.day_text import day_check_text, with_day_text
 from netdim.report.evaluation import evaluation_text, write_csv
 from netdim.vocabulary import Verdict
 
@@ -151,14 +153,34 @@ def _report_verdicts(ids, verdicts) -> int:
     return 1 if missed or unclear else 0
 
 
+def _day_check(args, network) -> int:
+    """``--check`` on a file with demand over the day: the day methods beside the day's
+    simulation."""
+    if args.method is not None or args.conservative:
+        raise ValueError("--check: compares the methods itself; leave out --method")
+    wrong = [d for d in _given(args) if d not in DAY_CHECK_OPTIONS]
+    if wrong:
+        raise ValueError(f"{_flag(wrong[0])}: does not apply to --check on a day profile "
+                         f"(it takes {', '.join(_flag(d) for d in DAY_CHECK_OPTIONS)})")
+    if args.csv:
+        raise ValueError("--csv: does not apply to --check")
+    opts = {d: getattr(args, d) for d in DAY_CHECK_OPTIONS if getattr(args, d) is not None}
+    result = compare_day_methods(network, network.capacities(), progress=_progress(args),
+                                 **opts)
+    if args.json:
+        print(json.dumps(result.to_dict(), indent=2))
+    else:
+        print(day_check_text(result, title=f"{network.name} ({args.file})"), end="")
+    return _report_verdicts(result.demand_ids, result.verdicts())
+
+
 def run(args) -> int:
     network = read_network(args.file)
+    if args.check and network.day is not None:
+        return _day_check(args, network)
     method = _method(args, network)
     given = _check_flags(args, method)
     opts = {dest: getattr(args, dest) for dest in given}
-    if args.check and network.day is not None:
-        raise ValueError(f"--check: {args.file} has demand over the day (rates); check the "
-                         "day with --method day-simulate beside --method day")
 
     if args.check:
         sim = {k: v for k, v in opts.items() if k != "max_states"}

@@ -31,10 +31,11 @@ OPTIONS = ("steps_per_period", "quantile")
 SIM_OPTIONS = ("seed", "calls", "days", "confidence", "steps_per_period", "quantile",
                "progress")
 
-_APPROX_NOTE = ("{m} is an approximation of the day (within 15 % of the exact chain where "
-                "measured, docs/measurements/daily.md); check a verdict near its target "
-                "with --method day-simulate")
-
+_APPROX_NOTE = ("{m} is an approximation of the day ({how} on the measured single park, "
+                "docs/measurements/daily.md); check a verdict near its target with "
+                "--method day-simulate")
+_HOW = {"day-fpa": "within 15 % of the exact chain",
+        "day-mol": "up to 27 % below the exact chain"}
 
 _ALTERNATE_NOTE = ("under alternate routing the day approximations are optimistic: on the "
                    "campus day the worst-hour blocking came out up to 45 % below the "
@@ -113,7 +114,7 @@ def evaluate_day(network, capacities, method="day", *, steps_per_period=4, quant
     elif method in ("day-fpa", "day-mol"):
         r = day_reduced_load(network, rates, capacities, method=method[4:], **common)
         status = EvaluationStatus.CONVERGED
-        warnings.append(_APPROX_NOTE.format(m=method))
+        warnings.append(_APPROX_NOTE.format(m=method, how=_HOW[method]))
         if network.routing.policy == "alternate":
             warnings.append(_ALTERNATE_NOTE)
     elif method == "day-simulate":

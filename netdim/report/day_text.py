@@ -11,7 +11,7 @@ import numpy as np
 
 from netdim.report.text import CAUTION, fmt_num, fmt_prob, format_table
 
-__all__ = ["day_text", "day_plan_text", "with_day_text", "clock"]
+__all__ = ["day_text", "day_plan_text", "with_day_text", "day_check_text", "clock"]
 
 
 def clock(hours: float) -> str:
@@ -94,3 +94,34 @@ def with_day_text(text: str, ev) -> str:
     if not sep:
         return text.rstrip("\n") + "\n\n" + day_text(ev)
     return head.rstrip("\n") + "\n\n" + day_text(ev) + "\n" + sep + tail
+
+
+def day_check_text(cmp, title=None) -> str:
+    """The day methods side by side (a :class:`~netdim.evaluate.day_compare.DayComparison`)."""
+    out = [title] if title else []
+    level = f"{round(100 * cmp.confidence)}%"
+    out.append(f"Accuracy check over the day: each demand's figure on its target basis, "
+               f"simulated over {cmp.days} days (seed {cmp.seed}) with {level} intervals; "
+               f"verdicts by {cmp.verdict_method}")
+    out.append("")
+    methods = [m for m in cmp.figures if m != "day-simulate"]
+    headers = ["demand", "basis", "target", "simulated", f"{level} interval"]
+    headers += [m[4:] for m in methods] + ["verdict"]
+    rows = []
+    v = cmp.verdicts()
+    for i, did in enumerate(cmp.demand_ids):
+        row = [did, cmp.target_basis[i], fmt_prob(float(cmp.target[i])),
+               fmt_prob(float(cmp.figures["day-simulate"][i])), _iv(cmp.interval[i])]
+        for m in methods:
+            mark = "" if cmp.inside(m)[i] else " *"
+            row.append(fmt_prob(float(cmp.figures[m][i])) + mark)
+        row.append(str(v[i]))
+        rows.append(row)
+    out.append(format_table(headers, rows))
+    out.append("")
+    out.append("* outside the simulation's interval")
+    for w in cmp.warnings:
+        out.append(f"warning: {w}")
+    out.append("")
+    out.append(CAUTION)
+    return "\n".join(out) + "\n"
