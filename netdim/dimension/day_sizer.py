@@ -45,6 +45,8 @@ __all__ = ["size_over_day", "DAY_MODELS", "MAX_DAY_EVALUATIONS", "NO_BOUND"]
 DAY_MODELS = {"fixed-point": "day", "exact": "day-exact"}
 #: Most evaluations over the day one sizing may make.
 MAX_DAY_EVALUATIONS = 5_000
+#: Most links tried for one added module in the repair.
+_MAX_TRIALS = 4
 #: What the plan says about its bound.
 NO_BOUND = ("none over the day: netdim's lower bounds are proved for stationary (busy-hour) "
             "demand and do not hold for demand that varies over the day; 0 is the only "
@@ -252,8 +254,12 @@ def _repair(network, choices: SizingChoices, k, ev, day_eval, say):
                         if k[j] < choices.max_modules[j]})
         if not cands:
             return k, ev, True
+        # trial modules on the few links full longest in the missing demands' worst periods
+        full = ev.day.link_blocking
+        periods = [int(ev.day.peak_period[ev.demand_ids.index(did)]) for did in ev.unmet]
+        cands.sort(key=lambda j: -max(float(full[j, p]) for p in periods))
         best = None
-        for j in cands:
+        for j in cands[:_MAX_TRIALS]:
             trial = k.copy()
             trial[j] += 1
             tev = day_eval(trial)
@@ -266,20 +272,26 @@ def _repair(network, choices: SizingChoices, k, ev, day_eval, say):
 
 
 def _step_down(choices: SizingChoices, k, ev, kmin, day_eval, say):
-    """Take modules away while every day target holds, dearest module first."""
+    """Take modules away while every day target holds, dearest module first.
+
+    A link that cannot give up a module is not tried again: taking modules from the others
+    only raises the blockings (the monotonicity the whole search relies on), so at most
+    one failed trial per link."""
     order = np.argsort(-np.asarray(choices.cost_per_module, dtype=float), kind="stable")
-    changed = True
-    while changed:
-        changed = False
+    done = k <= kmin
+    while not done.all():
         for j in order:
-            if k[j] <= kmin[j]:
+            if done[j]:
                 continue
             trial = k.copy()
             trial[j] -= 1
             tev = day_eval(trial)
             if tev.all_met:
-                k, ev, changed = trial, tev, True
+                k, ev = trial, tev
+                done[j] = k[j] <= kmin[j]
                 say(None, f"over the day: link {int(j) + 1} -1 module")
+            else:
+                done[j] = True
     return k, ev
 
 
