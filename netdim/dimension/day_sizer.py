@@ -45,8 +45,6 @@ __all__ = ["size_over_day", "DAY_MODELS", "MAX_DAY_EVALUATIONS", "NO_BOUND"]
 DAY_MODELS = {"fixed-point": "day", "exact": "day-exact"}
 #: Most evaluations over the day one sizing may make.
 MAX_DAY_EVALUATIONS = 5_000
-#: Most links tried for one added module in the repair.
-_MAX_TRIALS = 4
 #: What the plan says about its bound.
 NO_BOUND = ("none over the day: netdim's lower bounds are proved for stationary (busy-hour) "
             "demand and do not hold for demand that varies over the day; 0 is the only "
@@ -119,8 +117,11 @@ def size_over_day(network, options: SizingOptions, *, verify=None, progress=None
         return evaluate(network, choices.capacity(k), method=method)
 
     k = np.asarray(static.modules, dtype=np.int64).copy()
-    kmin = np.maximum(min_modules(static_net, choices), _start_modules(network, choices))
-    k = np.maximum(k, kmin)
+    floor = _start_modules(network, choices)
+    kmin = np.maximum(min_modules(static_net, choices), floor)
+    # only the calls in progress at the start force capacity: a link the busy-hour plan
+    # left unbuilt stays unbuilt unless the repair needs it
+    k = np.maximum(k, floor)
     ev = day_eval(k)
     k, ev, stuck = _repair(network, choices, k, ev, day_eval, say)
     if not stuck:
@@ -254,12 +255,115 @@ def _repair(network, choices: SizingChoices, k, ev, day_eval, say):
                         if k[j] < choices.max_modules[j]})
         if not cands:
             return k, ev, True
-        # trial modules on the few links full longest in the missing demands' worst periods
-        full = ev.day.link_blocking
-        periods = [int(ev.day.peak_period[ev.demand_ids.index(did)]) for did in ev.unmet]
-        cands.sort(key=lambda j: -max(float(full[j, p]) for p in periods))
         best = None
-        for j in cands[:_MAX_TRIALS]:
+        for j in cands:
+            trial = k.copy()
+            trial[j] += 1
+            tev = day_eval(trial)
+            gain = (now - _excess(tev)) / max(choices.cost(trial) - cost, 1e-12)
+            if best is None or gain > best[0]:
+                best = (gain, j, trial, tev)
+        _, j, k, ev = best
+        say(None, f"over the day: link '{network.links[j].id}' +1 module")
+    return k, ev, False
+
+
+def _step_down(choices: SizingChoices, k, ev, kmin, day_eval, say):
+    """Take modules away while every day target holds, dearest module first, pass after
+    pass until none can go (a link that could not give one up is tried again in the next
+    pass: under alternate routing taking capacity from one link can help another)."""
+    order = np.argsort(-np.asarray(choices.cost_per_module, dtype=float), kind="stable")
+    changed = True
+    while changed:
+        changed = False
+        for j in order:
+            if k[j] <= kmin[j]:
+                continue
+            trial = k.copy()
+            trial[j] -= 1
+            tev = day_eval(trial)
+            if tev.all_met:
+                k, ev, changed = trial, tev, True
+                say(None, f"over the day: link {int(j) + 1} -1 module")
+    return k, ev
+
+
+def _calibrate(network, choices, k, ev, kmin, verify, day_eval, say, progress):
+    """Simulate the plan over the day; where a demand's simulated figure is above
+    ``target x (1 - margin)``, tighten its working target by the ratio and add modules
+    until the approximation meets the working targets; up to ``verify.rounds`` rounds.
+
+    Returns (modules, evaluation against the true targets, last simulation, rounds)."""
+    target = np.array([d.target for d in network.demands], dtype=float)
+    working = target.copy()
+    rounds = 0
+    while True:
+        say(None, f"simulating the plan over the day (round {rounds})")
+        sim = evaluate(network, choices.capacity(k), method="day-simulate",
+                       calls=verify.calls, seed=_seed(verify.seed), progress=progress)
+        goal = target * (1.0 - verify.margin)
+        over = np.asarray(sim.blocking) > goal
+        if not over.any() or rounds >= verify.rounds:
+            return k, ev, sim, rounds
+        rounds += 1
+        ratio = np.where(over, goal / np.maximum(np.asarray(sim.blocking), 1e-300), 1.0)
+        approx = np.maximum(np.asarray(ev.blocking), 1e-12)
+        # the approximation's figure times the simulated excess: where the plan must get to
+        working = np.where(over, np.minimum(working, approx * ratio), working)
+        tight = replace(network, demands=tuple(
+            replace(d, target=float(w)) for d, w in zip(network.demands, working, strict=True)))
+        method = ev.method
+
+        def tight_eval(m, net=tight, method=method):
+            day_eval(m)  # counted against the work limit
+            return evaluate(net, choices.capacity(m), method=method)
+
+        k, tev, stuck = _repair(tight, choices, k, tight_eval(k), tight_eval, say)
+        if not stuck:
+            k, tev = _step_down(choices, k, tev, kmin, tight_eval, say)
+        ev = evaluate(network, choices.capacity(k), method=method)
+        if stuck:
+            return k, ev, sim, rounds
+
+
+def _start_modules(network, choices):
+    """Fewest modules per link that hold the calls in progress at the start of the day."""
+    need = np.zeros(len(network.links), dtype=np.int64)
+    for d, s in zip(network.demands, network.day.start, strict=True):
+        if s and d.routes:
+            for j in d.routes[0].links:
+                need[j] += s
+    return np.minimum(choices.modules_for(need), choices.max_modules)
+
+
+def _seed(seed):
+    return seed if isinstance(seed, int) and not isinstance(seed, bool) else None
+
+
+def _links_of(network, i):
+    d = network.demands[i]
+    routes = d.routes if network.routing.policy == "alternate" else d.routes[:1]
+    return sorted({j for r in routes for j in r.links})
+
+
+def _excess(ev):
+    """How far the demands are above their targets, relative (0 when all are met)."""
+    b, t = np.asarray(ev.blocking), np.asarray(ev.target)
+    return float(np.sum(np.maximum(b - t, 0.0) / t))
+
+
+def _repair(network, choices: SizingChoices, k, ev, day_eval, say):
+    """Add modules where a day target is missed, each time the module that takes the most
+    excess blocking away per unit of cost; (modules, evaluation, stuck)."""
+    while ev.unmet:
+        now, cost = _excess(ev), choices.cost(k)
+        cands = sorted({j for did in ev.unmet
+                        for j in _links_of(network, ev.demand_ids.index(did))
+                        if k[j] < choices.max_modules[j]})
+        if not cands:
+            return k, ev, True
+        best = None
+        for j in cands:
             trial = k.copy()
             trial[j] += 1
             tev = day_eval(trial)
