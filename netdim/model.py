@@ -29,6 +29,7 @@ __all__ = [
     "Incidence",
     "incidence",
     "POLICIES",
+    "DayProfile",
 ]
 
 #: Routing policies understood by every evaluator.
@@ -207,6 +208,8 @@ class Network:
     source: str | None = field(default=None, compare=False)
     default_holding: float = 1.0
     extra: dict = field(default_factory=dict, compare=False, hash=False)
+    #: Demand over the day (issue 20): None when every demand gives one busy-hour figure.
+    day: DayProfile | None = None
     # Arrays the evaluators derive from this (immutable) network, built on first use and
     # kept with it, so a sizer's many evaluations of one network prepare them once. Owned
     # by netdim.evaluate; a copy made with dataclasses.replace starts empty.
@@ -295,7 +298,9 @@ class Network:
         if not factor >= 0:
             raise ValueError(f"factor: must be >= 0, got {factor!r}")
         demands = tuple(replace(d, traffic=d.traffic * factor) for d in self.demands)
-        return replace(self, demands=demands)
+        day = self.day if self.day is None else replace(
+            self.day, rates=tuple(tuple(r * factor for r in row) for row in self.day.rates))
+        return replace(self, demands=demands, day=day)
 
     def usable_links(self) -> np.ndarray:
         """Per link (bool array), whether a route the routing policy uses crosses it: every
@@ -567,3 +572,38 @@ def incidence(network: Network, first_only: bool = False) -> Incidence:
         first_route=arr(first_route, np.int64),
         n_links=len(network.links),
     )
+
+
+@dataclass(frozen=True)
+class DayProfile:
+    """Demand that varies over the day: one arrival rate per demand and period.
+
+    Attributes
+    ----------
+    rates : tuple of tuple of float
+        Arrivals per hour, one row per demand (network order), one value per period; a
+        demand the file gives one ``rate`` or ``traffic`` for repeats it in every period.
+    period : float
+        Hours per period (one clock for the whole network).
+    cyclic : bool
+        The day repeats: the state at its start equals the state at its end.
+    start : tuple of int
+        Calls of each demand in progress at the start of the day (all 0 when cyclic).
+    target_basis : tuple of str
+        Per demand, what its ``target`` applies to: ``'peak'`` (the worst period) or
+        ``'day'`` (the share of the day's arrivals lost).
+    """
+
+    rates: tuple[tuple[float, ...], ...]
+    period: float = 1.0
+    cyclic: bool = False
+    start: tuple[int, ...] = ()
+    target_basis: tuple[str, ...] = ()
+
+    @property
+    def n_periods(self) -> int:
+        return len(self.rates[0]) if self.rates else 0
+
+    def rate_array(self) -> np.ndarray:
+        """Rates as a (demands, periods) float array."""
+        return np.array(self.rates, dtype=float).reshape(len(self.rates), -1)

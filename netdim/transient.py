@@ -29,13 +29,21 @@ Wiley (1968), ch. XVII (birth-death processes, Kolmogorov forward equations).
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
 import numpy as np
 
 from netdim._arrays import frozen
 from netdim._transient_solvers import cyclic_start, run_day
+from netdim.day_profile import (
+    TARGET_BASES,
+    check_holding,
+    check_rates,
+    day_grid,
+    offered_load,
+    period_lengths,
+    worst_period,
+)
 from netdim.erlang import servers_for
 from netdim.errors import InfeasibleError, ModelTooLargeError
 
@@ -55,8 +63,6 @@ __all__ = [
 
 #: Solvers of :func:`day_loss`.
 METHODS = ("uniformization", "ode")
-#: What a blocking target applies to: the worst period of the day, or the day's lost share.
-TARGET_BASES = ("peak", "day")
 #: Largest resource :func:`day_loss` accepts (the work grows like n squared per hour).
 MAX_SERVERS = 100_000
 
@@ -207,99 +213,14 @@ class DaySizing:
 # helpers shared with the network approximation
 
 
-def period_lengths(period, n_periods: int) -> np.ndarray:
-    """Hours of each period from one length or one per period.
-
-    Raises
-    ------
-    ValueError
-        A length that is not a finite number > 0, or the wrong count.
-    """
-    arr = np.asarray(period, dtype=float)
-    if arr.ndim == 0:
-        arr = np.full(n_periods, float(arr))
-    if arr.shape != (n_periods,):
-        raise ValueError(
-            f"period: expected one length or {n_periods} (one per period), got shape {arr.shape}"
-        )
-    bad = ~(np.isfinite(arr) & (arr > 0))
-    if bad.any():
-        raise ValueError(f"period: must be a number of hours > 0, got {float(arr[bad][0])!r}")
-    return arr
-
-
-def day_grid(hours, steps: int) -> np.ndarray:
-    """Grid times (hours from the start): 0, then ``steps`` equal steps in every period."""
-    starts = np.cumsum(hours) - hours
-    return np.concatenate([[0.0], *(t0 + np.linspace(0.0, dt, steps + 1)[1:]
-                                    for t0, dt in zip(starts, hours, strict=True))])
-
-
-def offered_load(rates, holding, period=1.0, *, start=0.0, cyclic=False,
-                 steps_per_period=4) -> np.ndarray:
-    """Offered traffic over the day: the mean busy units of an infinite resource.
-
-    Within a period ``m(t) = m0 exp(-t / h) + lambda h (1 - exp(-t / h))`` [1]_; from
-    ``m0 = start``, or, for a cyclic day, the ``m0`` that the day returns to (closed form).
-    On the grid of :func:`day_grid`. Its peak, not ``max(rates) * holding``, is the busy-hour
-    traffic of a varying day.
-
-    References
-    ----------
-    .. [1] D. L. Jagerman, Bell System Technical Journal 54 (1975) 625-661.
-    """
-    lam, h = _check_rates(rates), _check_holding(holding)
-    hours = period_lengths(period, lam.size)
-    decay = np.exp(-hours / h)
-    m = float(start)
-    if cyclic:
-        keep, add = 1.0, 0.0  # m(T) = keep m0 + add, linear in m0
-        for d, lam_p in zip(decay, lam, strict=True):
-            keep, add = keep * d, add * d + lam_p * h * (1.0 - d)
-        m = add / (1.0 - keep)
-    out = [m]
-    for lam_p, dt in zip(lam, hours, strict=True):
-        e = np.exp(-np.linspace(0.0, dt, steps_per_period + 1)[1:] / h)
-        out.extend(m * e + lam_p * h * (1.0 - e))
-        m = out[-1]
-    return np.array(out)
-
-
-def worst_period(blocking, offered) -> int:
-    """Index of the largest blocking among periods with arrivals (among all if none)."""
-    b = np.asarray(blocking, dtype=float)
-    busy = np.asarray(offered, dtype=float) > 0
-    if busy.any():
-        return int(np.flatnonzero(busy)[np.argmax(b[busy])])
-    return int(np.argmax(b))
-
-
 def _basis_value(result: DayLoss, basis: str) -> float:
     return result.peak_blocking if basis == "peak" else result.lost_fraction
-
-
-def _check_rates(rates) -> np.ndarray:
-    arr = np.asarray(rates, dtype=float)
-    if arr.ndim != 1 or arr.size == 0:
-        raise ValueError(f"rates: expected a list of one rate per period, got shape {arr.shape}")
-    bad = ~(np.isfinite(arr) & (arr >= 0))
-    if bad.any():
-        i = int(np.flatnonzero(bad)[0])
-        raise ValueError(f"rates: period {i}: must be a finite rate >= 0, got {arr[i]!r}")
-    return arr
 
 
 def _check_int(name, x, minimum) -> int:
     if isinstance(x, bool) or not isinstance(x, (int, np.integer)) or x < minimum:
         raise ValueError(f"{name}: must be a whole number >= {minimum}, got {x!r}")
     return int(x)
-
-
-def _check_holding(holding) -> float:
-    h = float(holding)
-    if not (math.isfinite(h) and h > 0):
-        raise ValueError(f"holding: must be a number of hours > 0, got {holding!r}")
-    return h
 
 
 def _start_vector(start, n, cyclic) -> np.ndarray | None:
@@ -380,13 +301,13 @@ def day_loss(rates, servers, holding, period=1.0, *, start=0, cyclic=False,
     >>> round(r.peak_blocking, 4)    # constant demand: Erlang B(90 E, 107)
     0.0088
     """
-    lam = _check_rates(rates)
+    lam = check_rates(rates)
     n = _check_int("servers", servers, 0)
     if n > MAX_SERVERS:
         raise ModelTooLargeError(
             f"servers: {n} is over the limit of {MAX_SERVERS} for the exact transient chain"
         )
-    h = _check_holding(holding)
+    h = check_holding(holding)
     hours = period_lengths(period, lam.size)
     if method not in METHODS:
         raise ValueError(f"method: unknown method {method!r}; choose one of {', '.join(METHODS)}")
@@ -491,8 +412,8 @@ def day_servers(rates, holding, target, period=1.0, *, target_basis="peak", star
     >>> s.servers, s.busy_hour_servers
     (78, 107)
     """
-    lam = _check_rates(rates)
-    h = _check_holding(holding)
+    lam = check_rates(rates)
+    h = check_holding(holding)
     if not (isinstance(target, (int, float)) and 0 < target < 1):
         raise ValueError(f"target: must lie in (0, 1), got {target!r}")
     if target_basis not in TARGET_BASES:

@@ -25,7 +25,8 @@ MODULES = ["netdim", "netdim.erlang", "netdim._erlang_tables", "netdim.engset", 
 #: required of them).
 FILE_MODULES = ["netdim.netfile._read", "netdim.netfile._write", "netdim.netfile._plan",
                 "netdim.topology.graphfile", "netdim.topology.build", "netdim.evaluate.compare",
-                "netdim.report.html", "netdim.report.page"]
+                "netdim.report.html", "netdim.report.page", "netdim.studies.variants",
+                "netdim.studies.survive"]
 #: Public functions whose Examples are still to come.
 NOT_YET: set[str] = set()
 ROOT = pathlib.Path(__file__).resolve().parents[1]

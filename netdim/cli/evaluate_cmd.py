@@ -15,8 +15,11 @@ from netdim.evaluate import (
     compare_methods,
     evaluate,
 )
+from netdim.evaluate.day_compare import CHECK_OPTIONS as DAY_CHECK_OPTIONS
+from netdim.evaluate.day_compare import compare_day_methods
 from netdim.netfile import read_network
 from netdim.report.comparison import comparison_text, write_comparison_csv
+from netdim.report.day_text import day_check_text, with_day_text
 from netdim.report.evaluation import evaluation_text, write_csv
 from netdim.vocabulary import Verdict
 
@@ -24,7 +27,7 @@ __all__ = ["register", "run"]
 
 # The flags that are options of some method, by argparse dest (= the library's keyword).
 _OPTION_DESTS = ("seed", "calls", "precision", "holding_law", "cv", "max_states", "tol",
-                 "max_iter")
+                 "max_iter", "days")
 
 
 def register(subparsers):
@@ -69,6 +72,11 @@ def register(subparsers):
     g.add_argument("--tol", type=float, default=None, help="convergence tolerance (1e-10)")
     g.add_argument("--max-iter", type=int, default=None, metavar="N",
                    help="most iterations (1000)")
+    g = p.add_argument_group("demand over the day (a file with rates: --method day, the "
+                             "default there, day-exact, day-fpa, day-mol, day-simulate)")
+    g.add_argument("--days", type=int, default=None, metavar="N",
+                   help="days to simulate (--method day-simulate; default: enough for "
+                   "--calls arrivals)")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     add_report_options(p)
     p.set_defaults(func=run)
@@ -79,12 +87,12 @@ def _flag(dest) -> str:
     return "--" + dest.replace("_", "-")
 
 
-def _method(args) -> str:
+def _method(args, network) -> str:
     if args.conservative:
         if args.method not in (None, "conservative"):
             raise ValueError(f"--conservative: conflicts with --method {args.method}")
         return "conservative"
-    return args.method or "fixed-point"
+    return args.method or ("fixed-point" if network.day is None else "day")
 
 
 def _progress(args):
@@ -123,6 +131,9 @@ def _check_flags(args, method):
     for dest in given:
         if dest not in METHOD_OPTIONS[method]:
             takers = [m for m in METHODS if dest in METHOD_OPTIONS[m]]
+            # name the takers of the same kind (busy-hour or over the day) where there are
+            same = [m for m in takers if m.startswith("day") == method.startswith("day")]
+            takers = same or takers
             ok = " or ".join(f"--method {m}" for m in takers)
             raise ValueError(f"{_flag(dest)}: applies to {ok} only, not --method {method}")
     return given
@@ -143,13 +154,36 @@ def _report_verdicts(ids, verdicts) -> int:
     return 1 if missed or unclear else 0
 
 
+def _day_check(args, network) -> int:
+    """``--check`` on a file with demand over the day: the day methods beside the day's
+    simulation."""
+    if args.method is not None or args.conservative:
+        raise ValueError("--check: compares the methods itself; leave out --method")
+    wrong = [d for d in _given(args) if d not in DAY_CHECK_OPTIONS]
+    if wrong:
+        raise ValueError(f"{_flag(wrong[0])}: does not apply to --check on a day profile "
+                         f"(it takes {', '.join(_flag(d) for d in DAY_CHECK_OPTIONS)})")
+    if args.csv:
+        raise ValueError("--csv: does not apply to --check")
+    opts = {d: getattr(args, d) for d in DAY_CHECK_OPTIONS if getattr(args, d) is not None}
+    result = compare_day_methods(network, network.capacities(), progress=_progress(args),
+                                 **opts)
+    if args.json:
+        print(json.dumps(result.to_dict(), indent=2))
+    else:
+        print(day_check_text(result, title=f"{network.name} ({args.file})"), end="")
+    return _report_verdicts(result.demand_ids, result.verdicts())
+
+
 def run(args) -> int:
-    method = _method(args)
-    given = _check_flags(args, method)
     if args.check and args.report:
         raise ValueError("--report: does not apply to --check")
     check_report_args(args, inputs=[args.file], outputs=[args.csv])
     network = read_network(args.file)
+    if args.check and network.day is not None:
+        return _day_check(args, network)
+    method = _method(args, network)
+    given = _check_flags(args, method)
     opts = {dest: getattr(args, dest) for dest in given}
 
     if args.check:
@@ -166,7 +200,7 @@ def run(args) -> int:
             print(text, end="" if text.endswith("\n") else "\n")
         return _report_verdicts(result.demand_ids, result.verdicts())
 
-    if method == "simulate":
+    if method in ("simulate", "day-simulate"):
         opts["progress"] = _progress(args)
     ev = evaluate(network, method=method, **opts)
     write_evaluation_report(args, network, ev)
@@ -176,5 +210,6 @@ def run(args) -> int:
         print(json.dumps(ev.to_dict(), indent=2))
     else:
         title = f"{network.name} ({args.file})"
-        print(evaluation_text(ev, title=title, kind=args.kind, network=network), end="")
+        text = evaluation_text(ev, title=title, kind=args.kind, network=network)
+        print(text if ev.day is None else with_day_text(text, ev), end="")
     return _report_verdicts(ev.demand_ids, ev.verdicts())

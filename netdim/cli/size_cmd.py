@@ -19,6 +19,7 @@ from netdim.dimension import (
     dimension,
 )
 from netdim.netfile import check_plan_path, read_network, write_plan
+from netdim.report.day_text import day_plan_text
 from netdim.report.plan import format_plan, write_plan_csv
 from netdim.report.progress import ProgressSummary
 
@@ -137,6 +138,8 @@ def run(args) -> int:
         write_plan_csv(plan, args.csv)
     if args.json:
         print(json.dumps(plan.to_dict(), indent=2))
+    elif plan.details.get("day"):
+        print(day_plan_text(format_plan(plan, kind=args.kind), plan).rstrip("\n"))
     else:
         print(format_plan(plan, kind=args.kind))
     for w in plan.warnings:

@@ -6,6 +6,7 @@ from __future__ import annotations
 import time
 
 from netdim.dimension.calibrate import calibrate_by_simulation
+from netdim.dimension.day_sizer import size_over_day
 from netdim.dimension.net_value import size_for_net_value
 from netdim.dimension.options import DEFAULT_BOUND_TIME, SizingOptions, VerifyOptions
 from netdim.dimension.plan import Plan
@@ -86,6 +87,10 @@ def dimension(network, *, model="fixed-point", solver="highs", mip_gap=1e-4, tim
 
     Notes
     -----
+    A network with demand over the day (``network.day``) is sized by
+    :func:`~netdim.dimension.day_sizer.size_over_day`: every target on its
+    ``target_basis`` over the day, no lower bound claimed.
+
     The loop, the link dropping, the local search, the bounds and the calibration are
     described in ``docs/design/sizing.md``; the bounds' proofs in ``docs/theory/``.
 
@@ -111,6 +116,10 @@ def dimension(network, *, model="fixed-point", solver="highs", mip_gap=1e-4, tim
     t_start = time.perf_counter()
     sizing, verify = _dimension_iv(model, solver, mip_gap, time_limit, max_iter, local_search,
                                    objective, bound_time, verify)
+    if network.day is not None:
+        # demand over the day (issue 20): busy-hour sizing, then adjusted over the day
+        return size_over_day(network, sizing, verify=verify, progress=progress,
+                             t_start=t_start)
     choices, base = prepare(network, sizing)
     if sizing.objective == "net-value":
         plan = size_for_net_value(network, choices, model=sizing.model, solver=sizing.solver,

@@ -16,6 +16,7 @@ from __future__ import annotations
 from functools import partial
 
 from netdim.evaluate import compare as _compare
+from netdim.evaluate import day as _day
 from netdim.evaluate import exact as _exact
 from netdim.evaluate import fixed_point as _fixed_point
 from netdim.evaluate import simulate as _simulate
@@ -48,6 +49,8 @@ _REGISTRY = {
     "conservative": partial(_fixed_point.fixed_point, conservative=True),
     "exact": _exact.exact,
     "simulate": _simulate.simulate,
+    # demand over the day (issue 20): the network's day profile
+    **{m: partial(_day.evaluate_day, method=m) for m in _day.DAY_METHODS},
 }
 
 #: Evaluation methods, as named on the command line and in ``evaluate(method=...)``.
@@ -59,6 +62,7 @@ METHOD_OPTIONS = {
     "conservative": _fixed_point.CONSERVATIVE_OPTIONS,
     "exact": _exact.OPTIONS,
     "simulate": _simulate.OPTIONS,
+    **{m: _day.SIM_OPTIONS if m == "day-simulate" else _day.OPTIONS for m in _day.DAY_METHODS},
 }
 
 #: The options :func:`compare_methods` takes besides capacities (the simulation's and the
@@ -66,7 +70,7 @@ METHOD_OPTIONS = {
 COMPARE_OPTIONS = _compare.OPTIONS
 
 
-def evaluate(network, capacities=None, method: str = "fixed-point", **options) -> Evaluation:
+def evaluate(network, capacities=None, method: str | None = None, **options) -> Evaluation:
     """Evaluate every demand's end-to-end blocking.
 
     Parameters
@@ -74,7 +78,12 @@ def evaluate(network, capacities=None, method: str = "fixed-point", **options) -
     network : Network
     capacities : array_like of int, optional
         One per link, in link order; default: the capacities in the network file.
-    method : {'fixed-point', 'conservative', 'exact', 'simulate'}
+    method : {'fixed-point', 'conservative', 'exact', 'simulate', 'day', 'day-exact', \
+'day-fpa', 'day-mol', 'day-simulate'}, optional
+        Default ``fixed-point``, or ``day`` for a network with a day profile
+        (``network.day``: demands with ``rates``); the ``day`` methods evaluate over the day
+        (:mod:`netdim.evaluate.day`), the others the busy hour (a profiled demand's traffic
+        is then the peak of its offered load over the day).
         ``fixed-point``: the reduced-load (Erlang fixed-point) approximation [1]_.
         ``conservative``: each link sees its un-thinned load (the product bound [2]_).
         ``exact``: product form or Markov chain [3]_, small networks only.
@@ -131,6 +140,8 @@ def evaluate(network, capacities=None, method: str = "fixed-point", **options) -
     ...
     ValueError: method: unknown method 'guess'; choose one of fixed-point, conservative, ...
     """
+    if method is None:
+        method = "fixed-point" if network.day is None else "day"
     try:
         run = _REGISTRY[method]
     except (KeyError, TypeError):

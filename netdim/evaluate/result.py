@@ -96,6 +96,10 @@ class Evaluation:
         A second solution of the fixed-point equations when they have more than one.
     details : dict
         Method-specific extra figures (e.g. calls simulated, states enumerated).
+    day : object or None
+        Demand over the day (issue 20): the day's figures (:mod:`netdim.evaluate.day`), whose
+        ``to_dict()`` gives per demand and per link records merged into the JSON records;
+        ``blocking`` is then each demand's figure on its ``target_basis``.
     """
 
     method: str
@@ -119,6 +123,7 @@ class Evaluation:
     confidence: float | None = None
     alternative: Evaluation | None = None
     details: dict = field(default_factory=dict, compare=False)
+    day: object | None = field(default=None, compare=False)
 
     def __post_init__(self):
         for name in ("offered", "blocking", "target", "link_offered", "link_carried",
@@ -237,7 +242,13 @@ class Evaluation:
             if self.blocking_interval is not None:
                 rec["blocking_interval"] = [float(v) for v in self.blocking_interval[i]]
             out.append(rec)
+        if self.day is not None:
+            for rec, extra in zip(out, self._day_dict()["demands"], strict=True):
+                rec.update({k: v for k, v in extra.items() if k != "id"})
         return out
+
+    def _day_dict(self) -> dict:
+        return self.day.to_dict()
 
     def link_records(self) -> list[dict]:
         out = []
@@ -255,6 +266,10 @@ class Evaluation:
             if self.link_blocking_interval is not None:
                 rec["blocking_interval"] = [float(v) for v in self.link_blocking_interval[j]]
             out.append(rec)
+        if self.day is not None:
+            for rec, extra in zip(out, self._day_dict()["links"], strict=True):
+                rec["blocking_by_period"] = extra["blocking_by_period"]
+                rec["occupancy"] = extra["occupancy"]
         return out
 
     def to_dict(self) -> dict:
@@ -277,6 +292,9 @@ class Evaluation:
                 "demands": self.alternative.demand_records(),
                 "links": self.alternative.link_records(),
             }
+        if self.day is not None:
+            d["day"] = {k: v for k, v in self._day_dict().items()
+                        if k not in ("demands", "links")}
         if self.details:
             d["details"] = {k: v for k, v in self.details.items() if _jsonable(v)}
         return d

@@ -21,6 +21,8 @@ The format (see README and the demo files in ``networks/``)::
           - [NORTH-SOUTH]
           - [NORTH-HUB, {link: HUB-SOUTH, holding: 0.25}]
     defaults: {target: 0.01, holding: 1.0}
+    # demand over the day (instead of traffic/rate in a demand; see netdim.netfile._day):
+    #   rates: [5, 10, 30]  period: 1  start: 0  cyclic: false  target_basis: peak | day
     routing: {policy: fixed, max_hops: 2, reservation: 0, max_routes: 4}
 
 Reading checks the whole file and reports every problem found (up to

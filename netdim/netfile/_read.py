@@ -12,8 +12,10 @@ from dataclasses import replace
 
 from netdim.errors import NetworkFileError
 from netdim.model import Network
+from netdim.netfile._day import parse_day
 from netdim.netfile._fields import FieldReader, kind
 from netdim.netfile._sections import (
+    MAX_TRAFFIC,
     parse_defaults,
     parse_demands,
     parse_links,
@@ -225,6 +227,7 @@ def _build(reader, data, default_name):
     if not isinstance(data.get("links"), Seq):
         unreadable.add(_NO_LINKS)  # reported once, not again as "no route" per demand
     demands = parse_demands(reader, data, site_ids, links, unreadable, defaults, routing)
+    demands, day = parse_day(reader, data, demands, MAX_TRAFFIC, links)
     extra = {k: v for k, v in data.items()
              if k in _KEPT_TOP or (isinstance(k, str) and k.startswith("x-"))}
     return Network(
@@ -236,4 +239,5 @@ def _build(reader, data, default_name):
         default_target=defaults["target"],
         default_holding=defaults["holding"],
         extra=plain_data(extra),
+        day=day,
     )

@@ -47,8 +47,10 @@ LINK_KEYS = (
 )
 DEMAND_KEYS = (
     "id", "between", "traffic", "rate", "holding", "bandwidth", "target", "value", "routes",
+    # demand over the day (read by netdim.netfile._day)
+    "rates", "period", "start", "cyclic", "target_basis",
 )
-DEFAULT_KEYS = ("target", "holding")
+DEFAULT_KEYS = ("target", "holding", "period", "cyclic", "target_basis")
 ROUTING_KEYS = ("policy", "max_hops", "reservation", "max_routes")
 STEP_KEYS = ("link", "holding")
 
@@ -344,6 +346,19 @@ def _generated(reader, row, found, routing, link_pos, unreadable):
 def _traffic(reader, m, item, holding, defaults):
     has_t = m.get("traffic") is not None
     has_r = m.get("rate") is not None
+    if m.get("rates") is not None:
+        # a day profile: netdim.netfile._day reads it and sets the traffic
+        if has_t or has_r:
+            reader.add(line_of(m, "rates"), item,
+                       "give rates (arrivals per hour in each period) or "
+                       f"{'traffic' if has_t else 'rate'}, not both")
+            return BAD
+        if m.get("holding") is None and not defaults["holding_given"]:
+            reader.add(line_of(m, "rates"), item,
+                       "rates needs holding (mean hours per call): add holding here or "
+                       "defaults.holding")
+            return BAD
+        return 0.0
     if has_t and has_r:
         reader.add(line_of(m, "rate"), item,
                    "give traffic (erlangs) or rate (per hour), not both")

@@ -107,7 +107,23 @@ def network_to_dict(network: Network, capacities=None) -> dict:
     finder = RouteFinder(graph, r.max_hops, r.max_routes)
     ids = network.link_ids
     out["demands"] = [_demand_dict(network, d, finder, ids) for d in network.demands]
+    if network.day is not None:
+        _day_fields(out, network.day)
     return out
+
+
+def _day_fields(out, day):
+    """The day profile (issue 20): rates for every demand, the clock in defaults."""
+    out["defaults"]["period"] = _num(day.period)
+    if day.cyclic:
+        out["defaults"]["cyclic"] = True
+    for i, entry in enumerate(out["demands"]):
+        entry.pop("traffic", None)
+        entry["rates"] = _FlowList(_num(x) for x in day.rates[i])
+        if day.start and day.start[i]:
+            entry["start"] = int(day.start[i])
+        if day.target_basis and day.target_basis[i] != "peak":
+            entry["target_basis"] = day.target_basis[i]
 
 
 def check_capacities(network, capacities):

@@ -171,6 +171,22 @@ def survivable_plan(network, *, target, sizing=None, rounds=MAX_ROUNDS, workers=
     ----------
     .. [1] ITU-T Recommendation E.529, "Network dimensioning using end-to-end GOS
        objectives".
+
+    Examples
+    --------
+    Two parallel groups for 4 E at a 1 % target, each to carry it alone within 5 % when the
+    other fails: the one that is left needs at least 8 circuits, since Erlang B gives
+    E(4, 8) = 0.0304 <= 0.05 < E(4, 7) = 0.0627 (mpmath).
+
+    >>> from netdim.model import Demand, Link, Network, Route, Site
+    >>> net = Network("pair", (Site("A"), Site("B")),
+    ...               (Link("L1", ("A", "B"), 0, cost_per_module=1.0),
+    ...                Link("L2", ("A", "B"), 0, cost_per_module=1.0)),
+    ...               (Demand("AB", ("A", "B"), 4.0, target=0.01,
+    ...                       routes=(Route((0,), (1.0,)), Route((1,), (1.0,)))),))
+    >>> plan = survivable_plan(net, target=0.05)
+    >>> [int(c) for c in plan.capacities], str(plan.verdict)
+    ([10, 8], 'met')
     """
     target = check_target("target", target)
     if target is None:

@@ -158,6 +158,23 @@ def build_variant(network: Network, variant: Variant) -> tuple:
     ValueError
         A site the variant names that is not defined, or a network with fewer than two
         sites.
+
+    Examples
+    --------
+    A star on hub A over three sites: two links, and B-C's one route now goes through the
+    hub (the only path, as networkx's shortest path on the star would give).
+
+    >>> from netdim.model import Demand, Link, Network, Route, Site
+    >>> net = Network("three", (Site("A"), Site("B"), Site("C")),
+    ...               (Link("A-B", ("A", "B"), 5, cost_per_module=1.0),
+    ...                Link("B-C", ("B", "C"), 5, cost_per_module=1.0)),
+    ...               (Demand("BC", ("B", "C"), 2.0, target=0.01,
+    ...                       routes=(Route((1,), (1.0,)),)),))
+    >>> star, left_out = build_variant(net, Variant("star", ("A",)))
+    >>> [k.id for k in star.links], left_out
+    (['A-B', 'A-C'], ())
+    >>> [[star.links[i].id for i in r.links] for r in star.demands[0].routes]
+    [['A-B', 'A-C']]
     """
     if len(network.sites) < 2:
         raise ValueError(f"variants: network '{network.name}' has fewer than two sites")

@@ -17,7 +17,11 @@ Prints:
 4. the exact chain's time for 100 to 1000 units and 24 or 96 periods, both solvers, from
    empty and cyclic (goal: fast enough to be the default for one resource);
 5. the network methods' time on the bundled networks (alternate routing) and on the
-   regional network with first routes only.
+   regional network with first routes only;
+6. the simulation over the day (thinning) against the exact chain on the issue's park, and
+   against the network methods on the campus day (examples/campus_day.yaml) at its file's
+   capacities and at a tighter plan: point, 95 % interval, ratio method / simulated, inside
+   or not; times (``--sim-days`` days per run).
 
 Medians of ``--repeats`` runs; ``--quick`` skips the slow ODE timings at 1000 units.
 """
@@ -40,6 +44,7 @@ from netdim.daily_loads import day_reduced_load, day_single_resource
 from netdim.erlang import servers_for
 from netdim.evaluate import evaluate
 from netdim.model import Demand, Link, Network, Route, Routing, Site
+from netdim.netfile import loads_network
 from netdim.transient import day_loss, day_servers
 
 WAVE = [5, 10, 30, 45, 40, 30, 20, 15, 10, 5, 2, 0]
@@ -294,11 +299,61 @@ def speed_networks(repeats):
     print()
 
 
+def simulation_checks(days):
+    print(f"6. Simulation over the day ({days} days a run, seed 1): 95 % intervals")
+    sim_net = loads_network(PARK_FILE)
+    ex = day_loss(WAVE, 70, 2.0)
+    t0 = time.perf_counter()
+    sim = evaluate(sim_net, method="day-simulate", seed=1, days=days).day
+    t_sim = time.perf_counter() - t0
+    print(f"   park at 70 spaces, simulated in {t_sim:.1f} s ({sim.arrivals} arrivals)")
+    rows = [("worst period 5", ex.blocking[5], sim.blocking[0, 5], sim.blocking_interval[0, 5]),
+            ("lost fraction", ex.lost_fraction, sim.lost_fraction[0],
+             sim.lost_fraction_interval[0])]
+    for name, e, s_, iv in rows:
+        inside = "inside" if iv[0] <= e <= iv[1] else "OUTSIDE"
+        print(f"   {name:>15}: exact {e:.5f}  simulated {s_:.5f} [{iv[0]:.5f}, {iv[1]:.5f}] "
+              f"exact {inside}")
+    campus = read_network(ROOT / "examples" / "campus_day.yaml")
+    for label, caps in (("file capacities", campus.capacities()),
+                        ("plan 80/80/140/0/0", np.array([80, 80, 140, 0, 0]))):
+        t0 = time.perf_counter()
+        sim = evaluate(campus, caps, method="day-simulate", seed=1, days=days)
+        t_sim = time.perf_counter() - t0
+        figures = {}
+        for m in ("day-fpa", "day-mol"):
+            t0 = time.perf_counter()
+            figures[m] = (evaluate(campus, caps, method=m), time.perf_counter() - t0)
+        print(f"   campus day, {label}: simulated {t_sim:.1f} s, fpa "
+              f"{figures['day-fpa'][1]:.2f} s, mol {figures['day-mol'][1]:.2f} s")
+        print(f"{'demand':>20} {'simulated':>9} {'95% interval':>20} {'fpa':>8} {'ratio':>6} "
+              f"{'in':>3} {'mol':>8} {'ratio':>6} {'in':>3}")
+        for i, did in enumerate(campus.demand_ids):
+            lo, hi = sim.blocking_interval[i]
+            line = f"{did:>20} {sim.blocking[i]:>9.5f} [{lo:.5f}, {hi:.5f}]"
+            for m in ("day-fpa", "day-mol"):
+                b = float(figures[m][0].blocking[i])
+                ratio = b / sim.blocking[i] if sim.blocking[i] > 0 else float("nan")
+                line += f" {b:>8.5f} {ratio:>6.3f} {'yes' if lo <= b <= hi else 'no':>3}"
+            print(line)
+    print()
+
+
+PARK_FILE = ("name: park\nsites: [G, P]\nlinks:\n  - {id: P, ends: [G, P], capacity: 70}\n"
+             f"demands:\n  - {{id: cars, between: [G, P], rates: {WAVE}, holding: 2}}\n")
+
+
 def main():
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--repeats", type=int, default=3)
     ap.add_argument("--quick", action="store_true")
+    ap.add_argument("--sim-days", type=int, default=1000)
+    ap.add_argument("--only-simulation", action="store_true",
+                    help="print section 6 only")
     args = ap.parse_args()
+    if args.only_simulation:
+        simulation_checks(args.sim_days)
+        return
     day_loss([1.0], 2, 1.0)  # compile (or load) the numba kernel outside the timings
     print(f"Erlang B at the busy hour, 90 E, 1 %: {servers_for(90.0, 0.01)} servers\n")
     park_figures(args.repeats)
@@ -309,6 +364,7 @@ def main():
     two_parks_constant(args.repeats)
     speed_exact(args.repeats, args.quick)
     speed_networks(args.repeats)
+    simulation_checks(args.sim_days)
 
 
 if __name__ == "__main__":
