@@ -20,9 +20,12 @@ Loss formulas (one resource)
     overflow_blocking   blocking of a final group offered overflow streams
     kaufman_roberts     blocking of each class on a multi-rate link
     reservation_link    blocking of each stream on a link with trunk reservation
+    day_loss            blocking of one group over a day of varying arrival rates
+    day_servers         fewest servers meeting a target over such a day
 
 Model and files
     Site, Link, Route, Demand, Routing, Network    the immutable network model
+    DayProfile          a network's arrival rates by period over the day
     read_network        read and validate a network file
     loads_network       the same from text
     write_network       write a network file (a network built in Python)
@@ -37,6 +40,7 @@ Evaluation
     FixedPoint          the reduced-load fixed point prepared once, for many capacities
     SimulationOptions   the simulation's options as one object
     compare_methods     two methods side by side on one network
+    day_reduced_load    the fixed point over the day, period by period (evaluate's 'day')
     Comparison          its result
     Verdict, VERDICTS   met, missed or unclear: a demand against its target
     EvaluationStatus    how an evaluation's figures were obtained
@@ -95,7 +99,10 @@ _EXPORTS = {
     **dict.fromkeys(("overflow_moments", "equivalent_random", "overflow_blocking"),
                     "netdim.overflow"),
     **dict.fromkeys(("kaufman_roberts", "reservation_link"), "netdim.linkmodels"),
-    **dict.fromkeys(("Site", "Link", "Route", "Demand", "Routing", "Network"), "netdim.model"),
+    **dict.fromkeys(("Site", "Link", "Route", "Demand", "Routing", "Network", "DayProfile"),
+                    "netdim.model"),
+    **dict.fromkeys(("day_loss", "day_servers"), "netdim.transient"),
+    "day_reduced_load": "netdim.daily_loads",
     **dict.fromkeys(("read_network", "loads_network", "write_network", "write_plan"),
                     "netdim.netfile"),
     **dict.fromkeys(("read_topology", "import_topology"), "netdim.topology"),
