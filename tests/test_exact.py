@@ -2,13 +2,18 @@
 
 import itertools
 import math
+import pathlib
 
 import numpy as np
 import pytest
 
-from netdim.errors import ModelTooLargeError
-from netdim.evaluate.exact import count_states, exact
+from netdim.errors import ConvergenceError, ModelTooLargeError
+from netdim.evaluate import exact as exact_module
+from netdim.evaluate.exact import MAX_ITERATIONS, MIN_ITERATIONS, count_states, exact
 from netdim.model import Demand, Network, Route
+from netdim.netfile import loads_network
+
+NETWORKS = pathlib.Path(__file__).resolve().parent.parent / "networks"
 
 
 @pytest.mark.parametrize("a,c", [(5.0, 10), (2.0, 1), (20.0, 25), (0.5, 3)])
@@ -207,3 +212,41 @@ def test_estimate_beyond_a_float_is_reported():
     with pytest.raises(ModelTooLargeError, match="has more than 1e308 states, more than the limit"):
         exact(net)
     assert count_states(net, limit=1000) == 10**309
+
+
+def _villages(holding):
+    """Three villages with smaller groups (3,382 states, solved iteratively) and the first
+    demand's calls held ``holding`` hours beside the others' 0.05."""
+    text = (NETWORKS / "three-villages.yaml").read_text()
+    text = text.replace("capacity: 8,", "capacity: 6,").replace("capacity: 7,", "capacity: 5,")
+    text = text.replace("capacity: 6, cost_per_module: 4.0", "capacity: 5, cost_per_module: 4.0")
+    text = text.replace("{between: [ASH, BRY], traffic: 3.5}",
+                        f"{{between: [ASH, BRY], traffic: 3.5, holding: {holding}}}")
+    return loads_network(text)
+
+
+def test_a_stiff_chain_is_not_called_exact():
+    """Holding times 2e5 apart make the chain stiff: the iterative solver stagnates. Before,
+    it ran 20,000 iterations whatever the chain's size (minutes on 11k states, issue 19),
+    and at a tolerance of 1e-5 it could print blockings off the direct LU solution as
+    "exact" (0.27 % at a residual of 4e-8, issue 12). Now its work is a count of nonzeros
+    touched, and a residual above 1e-9 is a ConvergenceError naming the way round."""
+    net = _villages(9999)
+    with pytest.raises(ConvergenceError,
+                       match=r"exact: balance residual .* on 3382 states, above 1e-09 \(holding "
+                             r"times from 0\.05 h to 1e\+04 h make the chain stiff\); use "
+                             r"method 'simulate'") as err:
+        exact(net)
+    assert MIN_ITERATIONS <= err.value.iterations < MAX_ITERATIONS
+
+
+@pytest.mark.parametrize("holding", [50, 500])
+def test_a_slow_demand_within_reach_is_solved_to_the_direct_solution(holding, monkeypatch):
+    """Holding 50 h or 500 h beside 0.05 h converges: it agrees with scipy's sparse LU
+    (spsolve, used here on the whole chain) to 1e-10 relative."""
+    net = _villages(holding)
+    got = exact(net)
+    monkeypatch.setattr(exact_module, "DIRECT_LIMIT", 10**9)
+    direct = exact(net)
+    assert got.details["states"] == 3382 and got.details["solver"] == "markov-chain"
+    np.testing.assert_allclose(got.blocking, direct.blocking, rtol=1e-10)
