@@ -60,6 +60,11 @@ DIRECT_LIMIT = 3000
 SOLVER_WORK = 400_000_000
 MIN_ITERATIONS = 1_000
 MAX_ITERATIONS = 20_000
+#: Largest ratio of holding times the iterative solve is trusted with. Beyond it the chain
+#: nearly falls apart into fast and slow parts and BiCGSTAB can end at a tiny residual and
+#: a wrong distribution (holding 1e-15 h beside 0.05 h: residual 2e-14, blockings 1e-18
+#: where the direct LU gives 4e-3); at 1e4 it agreed with LU to 1e-8 (evaluate.md).
+STIFF_LIMIT = 1e4
 
 
 class _Space:
@@ -447,6 +452,7 @@ def exact(network, capacities=None, max_states: int = 200_000, solver: str = "au
                 f"exact: network '{network.name}' has too many call types ({space.n_vars}) "
                 "for the Markov chain; use method 'simulate'"
             )
+        _refuse_stiff(network, len(states))
         q, out = _generator(space, states, keys, strides)
         pi, residual, iterations = _solve_chain(q, out)
         name = "markov-chain"
@@ -465,12 +471,34 @@ def exact(network, capacities=None, max_states: int = 200_000, solver: str = "au
     return _measure(network, caps, space, states, pi, residual, name, warns, iterations)
 
 
+def _holding_span(network):
+    """Shortest and longest mean holding time (hours) of the demands that offer traffic."""
+    held = [h for d in network.demands if d.traffic > 0 for r in d.routes for h in r.holdings
+            if h > 0]
+    return (min(held), max(held)) if held else (1.0, 1.0)
+
+
 def _stiffness(network) -> str:
     """A note on holding times far apart (what makes the chain hard to solve), or ''."""
-    held = [h for d in network.demands for r in d.routes for h in r.holdings if h > 0]
-    if not held or max(held) < 100 * min(held):
+    lo, hi = _holding_span(network)
+    if hi < 100 * lo:
         return ""
-    return f" (holding times from {min(held):.3g} h to {max(held):.3g} h make the chain stiff)"
+    return f" (holding times from {lo:.3g} h to {hi:.3g} h make the chain stiff)"
+
+
+def _refuse_stiff(network, n_states: int) -> None:
+    """Refuse a chain too large for the direct solve whose holding times are too far apart
+    for the iterative one to be trusted (see STIFF_LIMIT)."""
+    lo, hi = _holding_span(network)
+    if n_states <= DIRECT_LIMIT or hi <= STIFF_LIMIT * lo:
+        return
+    raise ModelTooLargeError(
+        f"exact: network '{network.name}' has holding times from {lo:.3g} h to {hi:.3g} h, "
+        f"more than {STIFF_LIMIT:.0e} apart, on {n_states} states (beyond the direct "
+        f"solver's {DIRECT_LIMIT}): the iterative solve cannot be trusted on so stiff a "
+        "chain; use method 'fixed-point' (or evaluate the fast and slow demands as separate "
+        "networks)"
+    )
 
 
 def _measure(network, caps, space, states, pi, residual, solver, warns, iterations=1):
