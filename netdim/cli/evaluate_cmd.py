@@ -6,6 +6,7 @@ import json
 import sys
 import time
 
+from netdim.cli._files import add_file_options, file_limits
 from netdim.evaluate import (
     COMPARE_OPTIONS,
     HOLDING_LAWS,
@@ -68,6 +69,7 @@ def register(subparsers):
     g.add_argument("--max-iter", type=int, default=None, metavar="N",
                    help="most iterations (1000)")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    add_file_options(p)
     p.set_defaults(func=run)
     return p
 
@@ -145,7 +147,7 @@ def _report_verdicts(ids, verdicts) -> int:
 def run(args) -> int:
     method = _method(args)
     given = _check_flags(args, method)
-    network = read_network(args.file)
+    network = read_network(args.file, **file_limits(args))
     opts = {dest: getattr(args, dest) for dest in given}
 
     if args.check:

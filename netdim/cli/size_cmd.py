@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 import sys
 
+from netdim.cli._files import add_file_options, file_limits
 from netdim.dimension import (
     DEFAULT_BOUND_TIME,
     DEFAULT_MARGIN,
@@ -72,6 +73,7 @@ def register(subparsers):
                    "a warning says when this stop fires, and only then does more time "
                    "give a tighter bound")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    add_file_options(p)
     p.set_defaults(func=run)
     return p
 
@@ -101,7 +103,7 @@ def run(args) -> int:
     sizing, verify = _options(args)
     if args.out:  # before any work: a plan that cannot be written is not worth sizing
         check_plan_path(args.file, args.out, args.force)
-    network = read_network(args.file)
+    network = read_network(args.file, **file_limits(args))
     if not args.verify and network.routing.policy == "alternate" and not args.quiet \
             and sizing.objective == "cost":
         print("netdim size: note: under alternate routing the fixed point is optimistic; "
