@@ -155,3 +155,16 @@ def test_check_max_file_size(small, capsys):
         main(["check", "--max-file-size", "lots", str(small)])
     assert info.value.code == 2
     assert "expected a size such as 32M" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("command", [["evaluate"], ["size", "--quiet"]])
+def test_evaluate_and_size_take_the_file_size_limit_too(small, capsys, command):
+    """`--max-file-size` applies to every command that reads a network file (issue 19),
+    with the same one-line refusal as `check`'s."""
+    assert main([*command, "--max-file-size", "100", str(small)]) == 2
+    err = capsys.readouterr().err
+    assert err == (f"{small}: cannot read: the file has {small.stat().st_size} bytes, more "
+                   "than the limit of 100 bytes (--max-file-size to raise it)\n")
+    assert main([*command, "--max-file-size", "1M", str(NETWORKS / "three-villages.yaml"),
+                 "--json"]) == 0
+    capsys.readouterr()

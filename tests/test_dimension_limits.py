@@ -6,6 +6,8 @@ one-link answers; the limits are the documented constants of netdim.dimension.ch
 
 from __future__ import annotations
 
+import json
+import pathlib
 import tracemalloc
 
 import numpy as np
@@ -21,6 +23,8 @@ from netdim.dimension.choices import (
 )
 from netdim.errors import ModelTooLargeError
 from netdim.model import Demand, Link, Network, Route, Site
+
+NETWORKS = pathlib.Path(__file__).resolve().parent.parent / "networks"
 
 
 def one_link(traffic, module=1, target=0.01):
@@ -96,3 +100,18 @@ def test_one_heavy_link_among_many_does_not_cost_its_table_times_the_links(erlan
     assert table.g(1, 3) == pytest.approx(-np.log1p(-erlang_b_ref(1.0, 3)), rel=1e-12)
     assert table.g(0, 50_000) == pytest.approx(-np.log1p(-erlang_b_ref(5e4, 50_000)),
                                                rel=1e-9)
+
+
+def test_a_module_larger_than_the_links_headroom_leaves_it_as_installed(tmp_path, capsys):
+    """A link whose module is larger than its room to grow (module 1e7, installed 8, at most
+    30) can only stay as installed; sizing says so at once instead of tabulating Erlang B to
+    1e7 circuits for the bound (issue 19, fuzz finding odd_number: over 30 s before)."""
+    text = (NETWORKS / "three-villages.yaml").read_text().replace(
+        "{id: ASH-BRY, ends: [ASH, BRY], capacity: 8,",
+        "{id: ASH-BRY, ends: [ASH, BRY], capacity: 8, installed: 8, module: 10000000,")
+    path = tmp_path / "net.yaml"
+    path.write_text(text)
+    status = main(["size", str(path), "--json", "--quiet", "--bound-time", "5"])
+    out = json.loads(capsys.readouterr().out)
+    assert status in (0, 1)
+    assert {x["id"]: x["capacity"] for x in out["links"]}["ASH-BRY"] == 8

@@ -25,27 +25,16 @@ sys.path.insert(0, str(HERE / "fuzz"))
 from mutations import BASES, MUTATIONS, mutated  # noqa: E402
 from run_fuzz import COMMANDS, judge, run_in_process  # noqa: E402
 
-# Cases outside file reading that the fuzz run (tests/fuzz/run_fuzz.py, 514 files) found
-# failing or too slow for a one-minute test, left out here until their owners fix them (the
-# report lists them, with the smallest files):
-# - evaluate --method exact: no answer in 10 s, or MemoryError, on small files whose states
-#   the state limit should refuse up front (evaluation);
-# - size on huge modules, huge traffic, extreme holding times or capacities, routes of many
-#   links: no answer in 10 s or MemoryError (sizing: work estimates before the MILP);
-# - simulate with holding times 1e-15 beside 1, or capacities of millions (evaluation);
-# - fixed-point / conservative with capacities of millions: over 10 s (evaluation);
-# - every command but check on big_file (60k demands): slow evaluation and sizing; check
-#   reads them in seconds, which is what this test is about.
+# Cases left out. The fuzz run of round 3 (tests/fuzz/run_fuzz.py, 514 files, 6 commands;
+# docs/measurements/netfile.md) found only simulate on extreme_holding still slow: a demand
+# held 9999 h (or 1e-9 h beside 0.05 h) needs a warm-up of about 4e8 arrivals, under the
+# stated limit of 1e9, so the run takes minutes. Sizing is fuzzed on three villages only
+# (seconds a case on the larger networks, too slow for a one-minute test; run_fuzz.py sizes
+# every base). Every command but check on big_file (60k demands) is slow by its size; check
+# reads them in seconds, which is what this test is about.
 SLOW_MUTATIONS = {"big_file"}
-KNOWN = {("exact", m) for m in MUTATIONS} | {
-    ("size", "huge_module"), ("size", "scale_number"), ("size", "extreme_holding"),
-    ("size", "big_capacity"), ("size", "odd_number"), ("size", "long_routes"),
-    ("size", "to_json"), ("size", "encoding"), ("size", "odd_value"), ("size", "wrong_type"),
-    ("size", "delete_key"), ("size", "duplicate_item"), ("size", "shuffle_routes"),
-    ("simulate", "extreme_holding"), ("simulate", "big_capacity"),
-    ("simulate", "scale_number"),
-    ("fixed-point", "big_capacity"), ("conservative", "big_capacity"),
-}
+KNOWN = {("simulate", "extreme_holding")}
+SIZE_BASES = {"three-villages"}
 
 
 def _cases():
@@ -56,6 +45,8 @@ def _cases():
                 if (command, mutation) in KNOWN:
                     continue
                 if mutation in SLOW_MUTATIONS and command != "check":
+                    continue
+                if command == "size" and base not in SIZE_BASES:
                     continue
                 out.append((base, mutation, command))
     return out

@@ -14,6 +14,7 @@ import math
 import numpy as np
 import pytest
 
+from netdim.dimension import loss_cuts as lc
 from netdim.dimension.loss_cuts import (
     erlang_cut_offsets,
     reservation_cut_offsets,
@@ -122,3 +123,21 @@ def test_erlang_loss_rate_not_jointly_convex(erlang_b_ref):
     # two points lies above the chord), so tangent planes in (nu, s) are not valid cuts.
     lam = [s * erlang_b_ref(float(s), s) for s in (10, 20, 30)]
     assert lam[1] > (lam[0] + lam[2]) / 2
+
+
+@pytest.mark.parametrize("installed, module, max_modules", [(8, 10**7, 0), (30, 10**6, 1),
+                                                            (0, 30, 3)])
+def test_hull_grid_holds_only_allowed_capacities(monkeypatch, installed, module, max_modules):
+    """The grid of the hull faces tabulates Erlang B only up to the link's largest allowed
+    capacity ``installed + module * max_modules`` (issue 19: a module of 1e7 on a link with no
+    room for one tabulated 1e7 rows and ran for minutes)."""
+    seen = []
+    real = lc.erlang_table
+
+    def spy(nu, smax, rows=None):
+        seen.append(int(smax))
+        return real(nu, smax, rows)
+
+    monkeypatch.setattr(lc, "erlang_table", spy)
+    lc.erlang_hull_faces(5.0, installed, module, max_modules)
+    assert seen and max(seen) <= installed + module * max_modules

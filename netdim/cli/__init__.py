@@ -14,7 +14,14 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import os
 import sys
+
+# One BLAS thread unless the user says otherwise (before numpy loads): the solvers' vector
+# operations are too small to gain from threads, and on a busy machine OpenBLAS's waiting
+# threads made the exact method's iterative solve 60 times slower in processor time
+# (docs/measurements/evaluate.md).
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
 import netdim  # lazy (PEP 562): nothing is loaded until a name is used
 from netdim.errors import ConvergenceError, NetdimError, NetworkFileError

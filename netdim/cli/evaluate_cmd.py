@@ -6,6 +6,7 @@ import json
 import sys
 import time
 
+from netdim.cli._files import add_file_options, file_limits
 from netdim.cli.report_cmd import add_report_options, check_report_args, write_evaluation_report
 from netdim.evaluate import (
     COMPARE_OPTIONS,
@@ -79,6 +80,7 @@ def register(subparsers):
                    "--calls arrivals)")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     add_report_options(p)
+    add_file_options(p)
     p.set_defaults(func=run)
     return p
 
@@ -179,7 +181,7 @@ def run(args) -> int:
     if args.check and args.report:
         raise ValueError("--report: does not apply to --check")
     check_report_args(args, inputs=[args.file], outputs=[args.csv])
-    network = read_network(args.file)
+    network = read_network(args.file, **file_limits(args))
     if args.check and network.day is not None:
         return _day_check(args, network)
     method = _method(args, network)

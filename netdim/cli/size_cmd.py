@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 import sys
 
+from netdim.cli._files import add_file_options, file_limits
 from netdim.cli._survive import add_survive_options, run_survivable
 from netdim.cli.report_cmd import add_report_options, check_report_args, write_plan_report
 from netdim.dimension import (
@@ -83,6 +84,7 @@ def register(subparsers):
                    help="every progress line (the full trace); default a few summary lines")
     add_report_options(p, force=False, targets=True)
     add_survive_options(p)
+    add_file_options(p)
     p.set_defaults(func=run)
     return p
 
@@ -113,7 +115,7 @@ def run(args) -> int:
     if args.out:  # before any work: a plan that cannot be written is not worth sizing
         check_plan_path(args.file, args.out, args.force)
     check_report_args(args, inputs=[args.file], outputs=[args.out, args.csv])
-    network = read_network(args.file)
+    network = read_network(args.file, **file_limits(args))
     if args.survive is not None:
         return run_survivable(args, network, sizing)
     if not args.verify and network.routing.policy == "alternate" and not args.quiet \

@@ -297,7 +297,9 @@ def reservation_hull_faces(weights, vmax, installed, module, max_modules, first,
 def _hull_grid(vmax, inst, mod, kmax, first):
     top = inst + mod * int(kmax)
     hi = min(top, int(np.ceil(first + vmax + 8 * np.sqrt(first + vmax + 1) + 20)))
-    top_k = max((hi - inst) // mod, 1)
+    # never past the link's last allowed module count: a module larger than the link's
+    # headroom (kmax 0) would otherwise put a capacity of a whole module on the grid
+    top_k = min(max((hi - inst) // mod, 1), int(kmax))
     kk = np.unique(np.r_[np.arange(0, top_k + 1, max(1, top_k // _ENV_LEVELS)), top_k])
     return inst + mod * kk, np.linspace(0.0, vmax, _ENV_GRID + 1)
 

@@ -44,11 +44,27 @@ MAX_BYTES = 1 << 30
 _WALKS = 4096
 
 #: Balance residual (relative) above which the exact result carries a warning.
-RESIDUAL_WARN = 1e-9
-#: Balance residual (relative) above which the exact method raises ConvergenceError.
-RESIDUAL_FAIL = 1e-5
+RESIDUAL_WARN = 1e-11
+#: Balance residual (relative) above which the exact method raises ConvergenceError. A
+#: solve that converges ends near 1e-15; one that stagnates can stop at a small residual
+#: and a wrong answer: at 4.2e-8 a stiff chain's blocking was 0.27 % off the direct LU
+#: solution (docs/measurements/evaluate.md), so "exact" is promised only below 1e-9.
+RESIDUAL_FAIL = 1e-9
 #: Largest chain solved by a direct sparse LU (beyond: BiCGSTAB).
 DIRECT_LIMIT = 3000
+#: Work allowed to the iterative solver, in nonzeros of the chain touched (an iteration
+#: touches each nonzero about twice), with at least ``MIN_ITERATIONS`` iterations: a count,
+#: not a time, so one input gives one answer (or one refusal) on any machine. Well-scaled
+#: chains converge in tens of iterations (three villages: 66 on 11,402 states); a stiff one
+#: (holding times 1e5 apart) stagnates, and went on for 20,000 iterations before.
+SOLVER_WORK = 400_000_000
+MIN_ITERATIONS = 1_000
+MAX_ITERATIONS = 20_000
+#: Largest ratio of holding times the iterative solve is trusted with. Beyond it the chain
+#: nearly falls apart into fast and slow parts and BiCGSTAB can end at a tiny residual and
+#: a wrong distribution (holding 1e-15 h beside 0.05 h: residual 2e-14, blockings 1e-18
+#: where the direct LU gives 4e-3); at 1e4 it agreed with LU to 1e-8 (evaluate.md).
+STIFF_LIMIT = 1e4
 
 
 class _Space:
@@ -256,6 +272,11 @@ def _admits(free, route, bandwidth, res, rank):
     return np.all(free[:, links] - bandwidth >= res[links], axis=1)
 
 
+def iteration_limit(nnz: int) -> int:
+    """Iterations the chain's iterative solver may take on a matrix of ``nnz`` nonzeros."""
+    return int(min(MAX_ITERATIONS, max(MIN_ITERATIONS, SOLVER_WORK // max(2 * nnz, 1))))
+
+
 def _solve_chain(q, out):
     """Stationary distribution from global balance ``pi Q = 0``, ``sum(pi) = 1``.
 
@@ -295,8 +316,8 @@ def _solve_chain(q, out):
     def tick(_):
         count[0] += 1
 
-    x, _ = bicgstab(a.tocsr(), rhs, M=prec, rtol=1e-13, atol=0.0, maxiter=20_000,
-                    callback=tick)
+    x, _ = bicgstab(a.tocsr(), rhs, M=prec, rtol=1e-13, atol=0.0,
+                    maxiter=iteration_limit(a.nnz), callback=tick)
     pi, res = finish(x)
     if pi is None:
         raise ConvergenceError(
@@ -431,13 +452,15 @@ def exact(network, capacities=None, max_states: int = 200_000, solver: str = "au
                 f"exact: network '{network.name}' has too many call types ({space.n_vars}) "
                 "for the Markov chain; use method 'simulate'"
             )
+        _refuse_stiff(network, len(states))
         q, out = _generator(space, states, keys, strides)
         pi, residual, iterations = _solve_chain(q, out)
         name = "markov-chain"
         if residual > RESIDUAL_FAIL:
             raise ConvergenceError(
                 f"exact: balance residual {residual:.2e} after {iterations} iterations on "
-                f"{len(pi)} states; use method 'simulate'",
+                f"{len(pi)} states, above {RESIDUAL_FAIL:g}{_stiffness(network)}; use "
+                "method 'simulate'",
                 iterations=iterations,
                 residual=residual,
             )
@@ -446,6 +469,36 @@ def exact(network, capacities=None, max_states: int = 200_000, solver: str = "au
             warns.append(msg)
             _warnings.warn(msg, RuntimeWarning, stacklevel=2)
     return _measure(network, caps, space, states, pi, residual, name, warns, iterations)
+
+
+def _holding_span(network):
+    """Shortest and longest mean holding time (hours) of the demands that offer traffic."""
+    held = [h for d in network.demands if d.traffic > 0 for r in d.routes for h in r.holdings
+            if h > 0]
+    return (min(held), max(held)) if held else (1.0, 1.0)
+
+
+def _stiffness(network) -> str:
+    """A note on holding times far apart (what makes the chain hard to solve), or ''."""
+    lo, hi = _holding_span(network)
+    if hi < 100 * lo:
+        return ""
+    return f" (holding times from {lo:.3g} h to {hi:.3g} h make the chain stiff)"
+
+
+def _refuse_stiff(network, n_states: int) -> None:
+    """Refuse a chain too large for the direct solve whose holding times are too far apart
+    for the iterative one to be trusted (see STIFF_LIMIT)."""
+    lo, hi = _holding_span(network)
+    if n_states <= DIRECT_LIMIT or hi <= STIFF_LIMIT * lo:
+        return
+    raise ModelTooLargeError(
+        f"exact: network '{network.name}' has holding times from {lo:.3g} h to {hi:.3g} h, "
+        f"more than {STIFF_LIMIT:.0e} apart, on {n_states} states (beyond the direct "
+        f"solver's {DIRECT_LIMIT}): the iterative solve cannot be trusted on so stiff a "
+        "chain; use method 'fixed-point' (or evaluate the fast and slow demands as separate "
+        "networks)"
+    )
 
 
 def _measure(network, caps, space, states, pi, residual, solver, warns, iterations=1):
