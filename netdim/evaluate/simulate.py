@@ -401,15 +401,17 @@ def simulate(
     if s.total_rate > 0:
         _work_check(s, need, cap if opts.precision is not None else n_calls)
         covered = n_calls / s.total_rate
-        if covered < s.max_holding * opts.batches:
+        if covered < SPAN_HOLDINGS * s.max_holding * opts.batches:
             # batches shorter than the longest holding are correlated: on one link, calls
             # of 0.05 h beside calls of 500 h, 4 of 12 intervals of 200,000-call runs held
             # the Erlang B value (docs/measurements/issues-12-19.md)
             warns.append(f"simulate: each of the {opts.batches} batches covers "
                          f"{covered / opts.batches:.3g} h, less than the longest mean holding "
-                         f"time ({s.max_holding:.3g} h); the intervals (and verdicts) may be "
-                         f"too narrow; simulate at least "
-                         f"{math.ceil(s.max_holding * opts.batches * s.total_rate)} calls")
+                         f"time ({s.max_holding:.3g} h) x {SPAN_HOLDINGS}; the intervals are "
+                         f"taken over groups of batches spanning that, so they are wide (with "
+                         f"fewer than two groups, [0, 1]: unclear); simulate at least "
+                         f"{math.ceil(SPAN_HOLDINGS * s.max_holding * opts.batches * s.total_rate)}"
+                         f" calls")
     seed_used, rng = _seed(opts.seed)
     batch = max(1, n_calls // opts.batches)
     per_batch = []
@@ -433,7 +435,7 @@ def simulate(
                 progress(frac, f"simulated {done} of {goal} calls")
         if opts.precision is None:
             break
-        est, iv = _demand_interval(per_batch, opts.confidence)[:2]
+        est, iv = _demand_interval(per_batch, opts.confidence, s.max_holding)[:2]
         wide = np.maximum(iv[:, 1] - est, est - iv[:, 0])
         precise = (wide > 0) & (wide <= opts.precision * np.maximum(est, PRECISION_FLOOR))
         if np.all(precise | ~judged):
@@ -453,9 +455,48 @@ def _structure(network) -> _Structure:
     return memo(network, "evaluate.sim_structure", _Structure)
 
 
-def _demand_interval(per_batch, conf):
-    arrivals = np.array([c.arrivals for c in per_batch])
-    blocked = np.array([c.blocked for c in per_batch])
+#: A batch (or group of batches) must cover this many of the longest mean holding times.
+SPAN_HOLDINGS = 5
+
+
+def _groups(per_batch, span):
+    """Consecutive batches joined until each covers ``SPAN_HOLDINGS`` x ``span`` hours.
+
+    Batches shorter than the longest mean holding time are correlated (a call held for
+    hours spans many of them), and batch means over them give intervals that are too
+    narrow: one link, calls of 0.05 h beside calls of 500 h, 200,000 calls in 20 batches,
+    held the Erlang B value in 4 of 12 seeded intervals (docs/measurements/issues-12-19.md).
+    Groups of five longest holding times are the batches then (Law and Kelton, cited by
+    :func:`~netdim.evaluate.intervals.batch_means`: batches long against the correlation
+    time); fewer than two groups leave nothing to judge by, and the interval is [0, 1]. In
+    that example, 2,000,000 calls (33,333 h): the groups' intervals held 0.0431 in 9 of 12
+    seeds, against 5 of 8 for the 20 batches of 1,667 h each; 200,000 calls: [0, 1].
+    """
+    span = SPAN_HOLDINGS * span
+    out, current, hours = [], [], 0.0
+    for i, c in enumerate(per_batch):
+        current.append(i)
+        hours += c.hours
+        if hours >= span:
+            out.append(current)
+            current, hours = [], 0.0
+    if current:
+        if out:
+            out[-1].extend(current)  # the short tail joins the last whole group
+        else:
+            out.append(current)
+    return out
+
+
+def _stack(per_batch, field, groups):
+    rows = np.array([getattr(c, field) for c in per_batch])
+    return np.array([rows[g].sum(axis=0) for g in groups])
+
+
+def _demand_interval(per_batch, conf, span=0.0):
+    groups = _groups(per_batch, span)
+    arrivals = _stack(per_batch, "arrivals", groups)
+    blocked = _stack(per_batch, "blocked", groups)
     est, half = batch_means(blocked, arrivals, conf)
     iv = blocking_interval(est, half, blocked.sum(axis=0), arrivals.sum(axis=0), conf)
     return est, iv, half, arrivals.sum(axis=0), blocked.sum(axis=0)
@@ -465,9 +506,10 @@ def _result(network, caps, s, per_batch, opts, warns, warmup, cv, seed) -> Evalu
     n_d, n_l = s.n_demands, s.n_links
     conf = opts.confidence
     if per_batch:
-        est, iv, half, n_arr, n_blk = _demand_interval(per_batch, conf)
-        fc_att = np.array([c.fc_att for c in per_batch])
-        lb, lhalf = batch_means([c.fc_blk for c in per_batch], fc_att, conf)
+        est, iv, half, n_arr, n_blk = _demand_interval(per_batch, conf, s.max_holding)
+        groups = _groups(per_batch, s.max_holding)
+        fc_att = _stack(per_batch, "fc_att", groups)
+        lb, lhalf = batch_means(_stack(per_batch, "fc_blk", groups), fc_att, conf)
         tot = fc_att.sum(axis=0)
         sq = sum(c.fc_att2 for c in per_batch)
         # Kish's effective number of attempts per link: weights are bandwidth x holding
