@@ -12,6 +12,7 @@ from netdim.evaluate import (
     METHOD_OPTIONS,
     METHODS,
     compare_methods,
+    default_method,
     evaluate,
 )
 from netdim.netfile import read_network
@@ -40,13 +41,16 @@ def register(subparsers):
     )
     p.add_argument("file", metavar="FILE", help="network file (YAML)")
     p.add_argument("--method", choices=METHODS, default=None,
-                   help="evaluation method (default fixed-point)")
+                   help="evaluation method (default: peaked-fixed-point under alternate "
+                   "routing with single-unit calls, where it follows the bursts of overflow "
+                   "traffic; fixed-point otherwise)")
     p.add_argument("--conservative", action="store_true",
                    help="same as --method conservative: un-thinned link loads (product bound)")
     p.add_argument("--json", action="store_true", help="print the result as JSON")
     p.add_argument("--csv", metavar="DIR", help="also write DIR/demands.csv and DIR/links.csv")
     p.add_argument("--check", "--compare", dest="check", action="store_true",
-                   help="accuracy check: fixed point beside simulation (and exact where small)")
+                   help="accuracy check: the fixed point (and under alternate routing the "
+                   "peaked fixed point) beside simulation, and exact where small")
     g = p.add_argument_group("simulation (--method simulate, --check)")
     g.add_argument("--seed", type=int, default=None,
                    help="random seed (reproducible run; without one a seed is drawn and "
@@ -63,7 +67,7 @@ def register(subparsers):
     g = p.add_argument_group("exact method (--method exact, --check)")
     g.add_argument("--max-states", type=int, default=None, metavar="N",
                    help="refuse networks with more states than this")
-    g = p.add_argument_group("fixed point")
+    g = p.add_argument_group("fixed point (plain and peaked)")
     g.add_argument("--tol", type=float, default=None, help="convergence tolerance (1e-10)")
     g.add_argument("--max-iter", type=int, default=None, metavar="N",
                    help="most iterations (1000)")
@@ -146,6 +150,8 @@ def run(args) -> int:
     method = _method(args)
     given = _check_flags(args, method)
     network = read_network(args.file)
+    if args.method is None and not args.conservative:
+        method = default_method(network)
     opts = {dest: getattr(args, dest) for dest in given}
 
     if args.check:

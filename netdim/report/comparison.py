@@ -26,7 +26,10 @@ def comparison_text(comparison) -> str:
     """
     c = comparison
     level = f"{100 * c.confidence:g}%"
-    headers = ["demand", "target", "fixed point", "simulated", f"{level} interval"]
+    headers = ["demand", "target", "fixed point"]
+    if c.peaked is not None:
+        headers.append("peaked")
+    headers += ["simulated", f"{level} interval"]
     if c.exact is not None:
         headers.append("exact")
     verdicts = c.verdicts() if c.evaluations else None
@@ -37,8 +40,10 @@ def comparison_text(comparison) -> str:
     rows = []
     for i, did in enumerate(c.demand_ids):
         lo, hi = c.interval[i]
-        row = [did, fmt_prob(c.target[i]), fmt_prob(c.fixed_point[i]),
-               fmt_prob(c.simulated[i]), f"{fmt_prob(lo)} - {fmt_prob(hi)}"]
+        row = [did, fmt_prob(c.target[i]), fmt_prob(c.fixed_point[i])]
+        if c.peaked is not None:
+            row.append(fmt_prob(c.peaked[i]))
+        row += [fmt_prob(c.simulated[i]), f"{fmt_prob(lo)} - {fmt_prob(hi)}"]
         if c.exact is not None:
             row.append(fmt_prob(c.exact[i]))
         if verdicts is not None:
@@ -46,6 +51,8 @@ def comparison_text(comparison) -> str:
         flags = []
         if c.outside[i]:
             flags.append("fixed point outside")
+        if c.peaked_outside is not None and c.peaked_outside[i]:
+            flags.append("peaked outside")
         if c.exact_outside is not None and c.exact_outside[i]:
             flags.append("exact outside")
         if notes[i]:
@@ -64,6 +71,10 @@ def comparison_text(comparison) -> str:
     else:
         lines.append(f"The fixed point lies within the simulation's {level} interval "
                      f"for {'the one demand' if n == 1 else 'every demand'}.")
+    if c.peaked is not None:
+        n_pk = int(c.peaked_outside.sum())
+        lines.append(f"The peaked fixed point (overflow's bursts followed) lies outside the "
+                     f"interval for {n_pk} of {plural(n, 'demand')}.")
     quiet = sum(1 for x in notes if x)
     if quiet:
         lines.append(f"{plural(quiet, 'demand')}: the simulation saw no blocked call (or no "

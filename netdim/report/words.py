@@ -90,6 +90,11 @@ def method_words(ev, seed=None) -> str:
                 f"independent, each offered the traffic thinned by the other links of its "
                 f"routes; {ev.iterations} iterations, largest change at the last "
                 f"{ev.residual:.1e}")
+    elif ev.method == "peaked-fixed-point":
+        text = (f"reduced-load approximation with the peakedness of overflow: each stream "
+                f"offered to a link carries its mean and variance, overflow meets the "
+                f"blocking of an equivalent random group's bursts; {ev.iterations} "
+                f"iterations, largest change at the last {ev.residual:.1e}")
     elif ev.method == "conservative":
         text = ("conservative product bound: each link offered its whole un-thinned load, so "
                 "the blocking is at or above the fixed point's")
