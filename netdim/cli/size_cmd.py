@@ -16,6 +16,7 @@ from netdim.dimension import (
     VerifyOptions,
     dimension,
 )
+from netdim.evaluate import default_method
 from netdim.netfile import check_plan_path, read_network, write_plan
 from netdim.report.plan import format_plan
 
@@ -33,8 +34,10 @@ def register(subparsers):
         "when an evaluation does not converge.",
     )
     p.add_argument("file", metavar="FILE", help="network file (YAML)")
-    p.add_argument("--model", choices=MODELS, default="fixed-point",
-                   help="what the plan must satisfy (exact: small networks only)")
+    p.add_argument("--model", choices=MODELS, default=None,
+                   help="what the plan must satisfy (default: peaked-fixed-point under "
+                   "alternate routing with single-unit calls when sizing for cost, "
+                   "fixed-point otherwise; exact: small networks only)")
     p.add_argument("--solver", choices=SOLVERS, default="highs",
                    help="solver of every MILP and LP (default highs)")
     p.add_argument("--objective", choices=OBJECTIVES, default="cost",
@@ -82,12 +85,19 @@ _OPTION_NAMES = {"mip_gap": "--gap", "time_limit": "--time-limit", "bound_time":
                  "margin": "--margin"}
 
 
-def _options(args):
+def _default_model(args, network) -> str:
+    """The model when none is named: as ``evaluate`` picks its method, for cost sizing."""
+    if args.model is not None:
+        return args.model
+    return default_method(network) if args.objective == "cost" else "fixed-point"
+
+
+def _options(args, model="fixed-point"):
     """The library's options from the arguments; its messages with the option's name."""
     try:
         verify = (VerifyOptions(calls=args.verify_calls, rounds=args.verify_rounds,
                                 seed=args.seed, margin=args.margin) if args.verify else None)
-        sizing = SizingOptions(model=args.model, solver=args.solver, mip_gap=args.gap,
+        sizing = SizingOptions(model=model, solver=args.solver, mip_gap=args.gap,
                                time_limit=args.time_limit, objective=args.objective,
                                bound_time=args.bound_time)
     except ValueError as exc:
@@ -98,15 +108,17 @@ def _options(args):
 
 
 def run(args) -> int:
-    sizing, verify = _options(args)
+    _options(args, args.model or "fixed-point")  # bad options before any reading
     if args.out:  # before any work: a plan that cannot be written is not worth sizing
         check_plan_path(args.file, args.out, args.force)
     network = read_network(args.file)
+    sizing, verify = _options(args, _default_model(args, network))
     if not args.verify and network.routing.policy == "alternate" and not args.quiet \
             and sizing.objective == "cost":
-        print("netdim size: note: under alternate routing the fixed point is optimistic; "
-              "add --verify to check the plan by simulation and calibrate it",
-              file=sys.stderr)
+        what = ("the peaked model follows the bursts of overflow but is an approximation"
+                if sizing.model == "peaked-fixed-point" else "the fixed point is optimistic")
+        print(f"netdim size: note: under alternate routing {what}; add --verify to check "
+              "the plan by simulation and calibrate it", file=sys.stderr)
 
     def progress(fraction, message):
         print(f"netdim size: {message}", file=sys.stderr, flush=True)
