@@ -15,6 +15,8 @@ from netdim.evaluate import (
     default_method,
     evaluate,
 )
+from netdim.evaluate.peaked_fixed_point import METHOD as PEAKED
+from netdim.evaluate.peaked_fixed_point import multirate_problem
 from netdim.netfile import read_network
 from netdim.report.comparison import comparison_text
 from netdim.report.evaluation import evaluation_text, write_csv
@@ -152,6 +154,8 @@ def run(args) -> int:
     network = read_network(args.file)
     if args.method is None and not args.conservative:
         method = default_method(network)
+    if method == PEAKED and multirate_problem(network):
+        raise ValueError(f"{args.file}: --method {PEAKED}: {multirate_problem(network)}")
     opts = {dest: getattr(args, dest) for dest in given}
 
     if args.check:

@@ -17,6 +17,8 @@ from netdim.dimension import (
     dimension,
 )
 from netdim.evaluate import default_method
+from netdim.evaluate.peaked_fixed_point import METHOD as PEAKED
+from netdim.evaluate.peaked_fixed_point import multirate_problem
 from netdim.netfile import check_plan_path, read_network, write_plan
 from netdim.report.plan import format_plan
 
@@ -82,7 +84,7 @@ def register(subparsers):
 #: Library argument names as the command line spells them, for error messages.
 _OPTION_NAMES = {"mip_gap": "--gap", "time_limit": "--time-limit", "bound_time": "--bound-time",
                  "verify_calls": "--verify-calls", "verify_rounds": "--verify-rounds",
-                 "margin": "--margin"}
+                 "margin": "--margin", "objective": "--objective"}
 
 
 def _default_model(args, network) -> str:
@@ -113,6 +115,8 @@ def run(args) -> int:
         check_plan_path(args.file, args.out, args.force)
     network = read_network(args.file)
     sizing, verify = _options(args, _default_model(args, network))
+    if sizing.model == PEAKED and multirate_problem(network):
+        raise ValueError(f"{args.file}: --model {PEAKED}: {multirate_problem(network)}")
     if not args.verify and network.routing.policy == "alternate" and not args.quiet \
             and sizing.objective == "cost":
         what = ("the peaked model follows the bursts of overflow but is an approximation"

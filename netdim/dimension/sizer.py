@@ -41,6 +41,7 @@ from netdim.errors import ModelTooLargeError
 from netdim.evaluate import evaluate
 from netdim.evaluate.exact import count_states
 from netdim.evaluate.peaked_fixed_point import METHOD as PEAKED
+from netdim.evaluate.peaked_fixed_point import multirate_problem
 from netdim.vocabulary import PlanStatus
 
 __all__ = ["size_to_targets", "prepare"]
@@ -351,12 +352,9 @@ def _infeasible_message(net, choices, ev, hint):
 
 def _check_peaked(network):
     """The peaked model has no multi-rate form: refuse before any work."""
-    for d in network.demands:
-        if d.bandwidth != 1:
-            raise ValueError(
-                f"model {PEAKED!r}: demand '{d.id}' has bandwidth {d.bandwidth}; the peaked "
-                "model handles single-unit calls only: size with model 'fixed-point'"
-            )
+    problem = multirate_problem(network)
+    if problem:
+        raise ValueError(f"model {PEAKED!r}: {problem}")
 
 
 def _check_exact_size(network, caps, max_states=_MAX_EXACT_STATES):

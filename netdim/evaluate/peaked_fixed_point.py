@@ -44,7 +44,7 @@ from netdim.peaked import EQUIVALENTS, LINK_MODELS, link_factors
 from netdim.vocabulary import EvaluationStatus
 
 __all__ = ["peaked_fixed_point", "METHOD", "OPTIONS", "Q_FLOOR", "BISTABLE_GAP", "REFINE_TOL",
-           "applies",
+           "applies", "multirate_problem",
            "default_method"]
 
 #: The method's name in ``Evaluation.method``.
@@ -569,6 +569,16 @@ def applies(network) -> bool:
     return (network.routing.policy == "alternate"
             and any(len(d.routes) > 1 for d in network.demands)
             and not network.is_multirate)
+
+
+def multirate_problem(network) -> str | None:
+    """Why the peaked model cannot evaluate ``network`` (its first demand of more than one
+    unit), or None."""
+    for d in network.demands:
+        if d.bandwidth != 1:
+            return (f"demand '{d.id}' has bandwidth {d.bandwidth}; the peaked model handles "
+                    "single-unit calls only: use 'fixed-point' or 'simulate'")
+    return None
 
 
 def default_method(network) -> str:
