@@ -190,6 +190,11 @@ def cautions(network, kind, evaluations) -> list[str]:
         out.append("Under alternate routing the fixed point treats overflow traffic as if it "
                    "arrived independently; overflow comes in bursts, so the fixed point tends "
                    "to understate blocking there. Check by simulation.")
+    if "peaked-fixed-point" in methods:
+        out.append("The peaked fixed point follows the bursts of overflow traffic but is still "
+                   "an approximation: measured within 1.5x of simulation at normal load and "
+                   "overload, about half the simulated blocking at light load (blocking near "
+                   "1e-3). Check by simulation.")
     if any(ev.status == "bistable" for ev in evaluations):
         out.append("The network is bistable: its equations have two solutions, and traffic "
                    "can switch to the high-blocking one. More trunk reservation usually "
