@@ -14,10 +14,13 @@ from netdim.evaluate import (
     METHOD_OPTIONS,
     METHODS,
     compare_methods,
+    default_method,
     evaluate,
 )
 from netdim.evaluate.day_compare import CHECK_OPTIONS as DAY_CHECK_OPTIONS
 from netdim.evaluate.day_compare import compare_day_methods
+from netdim.evaluate.peaked_fixed_point import METHOD as PEAKED
+from netdim.evaluate.peaked_fixed_point import multirate_problem
 from netdim.netfile import read_network
 from netdim.report.comparison import comparison_text, write_comparison_csv
 from netdim.report.day_text import day_check_text, with_day_text
@@ -45,14 +48,17 @@ def register(subparsers):
     )
     p.add_argument("file", metavar="FILE", help="network file (YAML)")
     p.add_argument("--method", choices=METHODS, default=None,
-                   help="evaluation method (default fixed-point)")
+                   help="evaluation method (default: peaked-fixed-point under alternate "
+                   "routing with single-unit calls, where it follows the bursts of overflow "
+                   "traffic; fixed-point otherwise)")
     p.add_argument("--conservative", action="store_true",
                    help="same as --method conservative: un-thinned link loads (product bound)")
     p.add_argument("--json", action="store_true", help="print the result as JSON")
     p.add_argument("--csv", metavar="DIR", help="also write DIR/demands.csv and DIR/links.csv "
                    "(with --check: DIR/comparison.csv)")
     p.add_argument("--check", "--compare", dest="check", action="store_true",
-                   help="accuracy check: fixed point beside simulation (and exact where small)")
+                   help="accuracy check: the fixed point (and under alternate routing the "
+                   "peaked fixed point) beside simulation, and exact where small")
     g = p.add_argument_group("simulation (--method simulate, --check)")
     g.add_argument("--seed", type=int, default=None,
                    help="random seed (reproducible run; without one a seed is drawn and "
@@ -69,7 +75,7 @@ def register(subparsers):
     g = p.add_argument_group("exact method (--method exact, --check)")
     g.add_argument("--max-states", type=int, default=None, metavar="N",
                    help="refuse networks with more states than this")
-    g = p.add_argument_group("fixed point")
+    g = p.add_argument_group("fixed point (plain and peaked)")
     g.add_argument("--tol", type=float, default=None, help="convergence tolerance (1e-10)")
     g.add_argument("--max-iter", type=int, default=None, metavar="N",
                    help="most iterations (1000)")
@@ -94,7 +100,10 @@ def _method(args, network) -> str:
         if args.method not in (None, "conservative"):
             raise ValueError(f"--conservative: conflicts with --method {args.method}")
         return "conservative"
-    return args.method or ("fixed-point" if network.day is None else "day")
+    if args.method:
+        return args.method
+    # a day profile is evaluated over the day; else the peaked fixed point where it applies
+    return "day" if network.day is not None else default_method(network)
 
 
 def _progress(args):
@@ -186,6 +195,8 @@ def run(args) -> int:
         return _day_check(args, network)
     method = _method(args, network)
     given = _check_flags(args, method)
+    if method == PEAKED and multirate_problem(network):
+        raise ValueError(f"{args.file}: --method {PEAKED}: {multirate_problem(network)}")
     opts = {dest: getattr(args, dest) for dest in given}
 
     if args.check:

@@ -19,6 +19,9 @@ from netdim.dimension import (
     VerifyOptions,
     dimension,
 )
+from netdim.evaluate import default_method
+from netdim.evaluate.peaked_fixed_point import METHOD as PEAKED
+from netdim.evaluate.peaked_fixed_point import multirate_problem
 from netdim.netfile import check_plan_path, read_network, write_plan
 from netdim.report.day_text import day_plan_text
 from netdim.report.plan import format_plan, write_plan_csv
@@ -38,8 +41,10 @@ def register(subparsers):
         "when an evaluation does not converge.",
     )
     p.add_argument("file", metavar="FILE", help="network file (YAML)")
-    p.add_argument("--model", choices=MODELS, default="fixed-point",
-                   help="what the plan must satisfy (exact: small networks only)")
+    p.add_argument("--model", choices=MODELS, default=None,
+                   help="what the plan must satisfy (default: peaked-fixed-point under "
+                   "alternate routing with single-unit calls when sizing for cost, "
+                   "fixed-point otherwise; exact: small networks only)")
     p.add_argument("--solver", choices=SOLVERS, default="highs",
                    help="solver of every MILP and LP (default highs)")
     p.add_argument("--objective", choices=OBJECTIVES, default="cost",
@@ -92,15 +97,24 @@ def register(subparsers):
 #: Library argument names as the command line spells them, for error messages.
 _OPTION_NAMES = {"mip_gap": "--gap", "time_limit": "--time-limit", "bound_time": "--bound-time",
                  "verify_calls": "--verify-calls", "verify_rounds": "--verify-rounds",
-                 "margin": "--margin"}
+                 "margin": "--margin", "objective": "--objective"}
 
 
-def _options(args):
+def _default_model(args, network) -> str:
+    """The model when none is named: as ``evaluate`` picks its method, for cost sizing."""
+    if args.model is not None:
+        return args.model
+    if network.day is not None:  # the day sizer works on the plain fixed point over the day
+        return "fixed-point"
+    return default_method(network) if args.objective == "cost" else "fixed-point"
+
+
+def _options(args, model="fixed-point"):
     """The library's options from the arguments; its messages with the option's name."""
     try:
         verify = (VerifyOptions(calls=args.verify_calls, rounds=args.verify_rounds,
                                 seed=args.seed, margin=args.margin) if args.verify else None)
-        sizing = SizingOptions(model=args.model, solver=args.solver, mip_gap=args.gap,
+        sizing = SizingOptions(model=model, solver=args.solver, mip_gap=args.gap,
                                time_limit=args.time_limit, objective=args.objective,
                                bound_time=args.bound_time)
     except ValueError as exc:
@@ -111,18 +125,22 @@ def _options(args):
 
 
 def run(args) -> int:
-    sizing, verify = _options(args)
+    _options(args, args.model or "fixed-point")  # bad options before any reading
     if args.out:  # before any work: a plan that cannot be written is not worth sizing
         check_plan_path(args.file, args.out, args.force)
     check_report_args(args, inputs=[args.file], outputs=[args.out, args.csv])
     network = read_network(args.file, **file_limits(args))
+    sizing, verify = _options(args, _default_model(args, network))
+    if sizing.model == PEAKED and multirate_problem(network):
+        raise ValueError(f"{args.file}: --model {PEAKED}: {multirate_problem(network)}")
     if args.survive is not None:
         return run_survivable(args, network, sizing)
     if not args.verify and network.routing.policy == "alternate" and not args.quiet \
             and sizing.objective == "cost":
-        print("netdim size: note: under alternate routing the fixed point is optimistic; "
-              "add --verify to check the plan by simulation and calibrate it",
-              file=sys.stderr)
+        what = ("the peaked model follows the bursts of overflow but is an approximation"
+                if sizing.model == "peaked-fixed-point" else "the fixed point is optimistic")
+        print(f"netdim size: note: under alternate routing {what}; add --verify to check "
+              "the plan by simulation and calibrate it", file=sys.stderr)
 
     def emit(line):
         print(f"netdim size: {line}", file=sys.stderr, flush=True)

@@ -43,9 +43,12 @@ def dimension(network, *, model="fixed-point", solver="highs", mip_gap=1e-4, tim
     Parameters
     ----------
     network : Network
-    model : {'fixed-point', 'conservative', 'exact'}
+    model : {'fixed-point', 'conservative', 'exact', 'peaked-fixed-point'}
         What the plan must satisfy: the reduced-load approximation [1]_, the conservative
-        product bound (un-thinned loads), or the exact solution (small networks only).
+        product bound (un-thinned loads), the exact solution (small networks only), or the
+        reduced-load evaluation with the peakedness of overflow [3]_ (single-unit calls,
+        objective 'cost'; under overflow no lower bound is proven for it, so the plan's is
+        0 unless every cheaper plan could be listed and evaluated).
     solver : {'highs', 'cbc'}
         Solver of every MILP and LP: HiGHS (highspy) or PuLP's bundled CBC.
     mip_gap : float
@@ -100,6 +103,8 @@ def dimension(network, *, model="fixed-point", solver="highs", mip_gap=1e-4, tim
        Advances in Applied Probability 18 (1986) 473-505.
     .. [2] ITU-T Recommendation E.529, "Network dimensioning using end-to-end GOS
        objectives".
+    .. [3] R. I. Wilkinson, "Theories for toll traffic engineering in the U.S.A.", Bell
+       System Technical Journal 35 (1956) 421-514.
 
     Examples
     --------

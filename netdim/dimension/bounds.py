@@ -30,9 +30,11 @@ from netdim.dimension.loss_flow_bound import loss_flow_bound
 from netdim.dimension.options import silent
 from netdim.dimension.plan import Bound
 from netdim.dimension.secant_milp import MilpResult, solve_secant_milp
+from netdim.evaluate.peaked_fixed_point import METHOD as PEAKED
+from netdim.evaluate.peaked_fixed_point import applies as peaked_applies
 
 __all__ = ["lower_bound", "carried_load_bound", "thinned_load_bound", "fixed_costs",
-           "MAX_BUILD_CHOICES", "BOUND_NODES", "CARRIED_NODES"]
+           "MAX_BUILD_CHOICES", "BOUND_NODES", "CARRIED_NODES", "NO_PEAKED_BOUND"]
 
 #: Most choices of links to build for which :func:`thinned_load_bound` solves a MILP each.
 MAX_BUILD_CHOICES = 64
@@ -41,6 +43,15 @@ BOUND_NODES = 2000
 #: Branch-and-bound nodes of the carried-load MILP: its root bound comes early, and on the
 #: 20-site benchmark mesh 2,000 nodes took minutes for 0.3 %.
 CARRIED_NODES = 200
+
+
+#: What :func:`lower_bound` gives under the peaked model with overflow: no bound. The
+#: bounds here rest on each link carrying at most its capacity in the model's own figures,
+#: true of Erlang's formula but not proven for the peaked link model (its split of a loss
+#: among streams keeps the lost traffic only to first order); nor does a plan meeting the
+#: targets under the peaked model meet them under the plain fixed point. Listing every
+#: cheaper plan (small networks) still gives a true bound: it evaluates them under the model.
+NO_PEAKED_BOUND = Bound(0.0, "no lower bound proven under the peaked model")
 
 
 def fixed_costs(network, choices: SizingChoices) -> float:
@@ -246,7 +257,7 @@ def lower_bound(network, net, choices: SizingChoices, *, model, solver="highs",
     net : Network
         The network the plan is for (routes over links the sizer left unbuilt taken away).
     choices : SizingChoices
-    model : {'fixed-point', 'conservative', 'exact'}
+    model : {'fixed-point', 'conservative', 'exact', 'peaked-fixed-point'}
     solver : {'highs', 'cbc'}
     mip_gap : float
     time_limit : float or None
@@ -264,6 +275,11 @@ def lower_bound(network, net, choices: SizingChoices, *, model, solver="highs",
     Bound
     """
     progress = progress or silent
+    if model == PEAKED:
+        if peaked_applies(network):
+            return NO_PEAKED_BOUND
+        # without overflow the peaked model's equations are the plain fixed point's
+        model = "fixed-point"
     alt = network.routing.policy == "alternate"
     droppable = bool(np.any(choices.droppable & _on_any_route(network)))
     if alt and not network.is_multirate and model in ("fixed-point", "conservative"):

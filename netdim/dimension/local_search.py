@@ -23,6 +23,7 @@ import numpy as np
 from netdim.dimension.choices import LossTable, SizingChoices
 from netdim.dimension.options import silent
 from netdim.evaluate import Evaluation, evaluate
+from netdim.evaluate.peaked_fixed_point import METHOD as PEAKED
 
 __all__ = ["CachedEvaluator", "SearchResult", "repair", "trim", "move", "local_search",
            "search_and_check", "min_modules", "evaluation_method"]
@@ -34,7 +35,8 @@ SEARCH_SECONDS = 120.0
 
 def evaluation_method(model) -> str:
     """The evaluation method a sizing model is checked with."""
-    return {"conservative": "conservative", "exact": "exact"}.get(model, "fixed-point")
+    return {"conservative": "conservative", "exact": "exact",
+            PEAKED: PEAKED}.get(model, "fixed-point")
 
 
 class CachedEvaluator:
@@ -49,7 +51,7 @@ class CachedEvaluator:
         # Under the fixed point, trial plans differ from the last one by a module or two:
         # starting from its link blockings solves once and in few sweeps. The final plan is
         # evaluated afresh (both starts) by the caller.
-        self.warm = warm and method == "fixed-point"
+        self.warm = warm and method in ("fixed-point", PEAKED)
         self._last = None
         self._links_demands = None
 

@@ -8,12 +8,13 @@ import numpy as np
 
 from netdim.dimension._lp import check_solver
 from netdim.dimension.plan import OBJECTIVES
+from netdim.evaluate.peaked_fixed_point import METHOD as PEAKED
 
 __all__ = ["SizingOptions", "VerifyOptions", "MODELS", "RESTARTS", "DEFAULT_VERIFY_CALLS",
            "DEFAULT_MARGIN", "DEFAULT_BOUND_TIME", "silent"]
 
 #: What a plan can be made to satisfy.
-MODELS = ("fixed-point", "conservative", "exact")
+MODELS = ("fixed-point", "conservative", "exact", PEAKED)
 #: How a calibration round sizes again (see :class:`VerifyOptions`).
 RESTARTS = ("warm", "full")
 #: Arrivals per verification run (after the warm-up).
@@ -51,8 +52,8 @@ class SizingOptions:
 
     Attributes
     ----------
-    model : {'fixed-point', 'conservative', 'exact'}
-        What the plan must satisfy.
+    model : {'fixed-point', 'conservative', 'exact', 'peaked-fixed-point'}
+        What the plan must satisfy (``peaked-fixed-point``: for cost only).
     solver : {'highs', 'cbc'}
         MILP solver for every model the sizer solves.
     mip_gap : float
@@ -95,6 +96,10 @@ class SizingOptions:
         if self.objective not in OBJECTIVES:
             raise ValueError(f"objective: unknown objective {self.objective!r}; choose one of "
                              f"{', '.join(OBJECTIVES)}")
+        if self.model == PEAKED and self.objective != "cost":
+            # the upper bound of net value rests on link figures not proven for this model
+            raise ValueError(f"objective: model {PEAKED!r} sizes for cost only; use "
+                             "objective 'cost', or model 'fixed-point' for net value")
         object.__setattr__(self, "bound_time",
                            _positive_seconds("bound_time", self.bound_time, False))
 

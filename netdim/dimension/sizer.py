@@ -40,6 +40,8 @@ from netdim.dimension.secant_milp import MilpResult, solve_secant_milp
 from netdim.errors import ModelTooLargeError
 from netdim.evaluate import evaluate
 from netdim.evaluate.exact import count_states
+from netdim.evaluate.peaked_fixed_point import METHOD as PEAKED
+from netdim.evaluate.peaked_fixed_point import multirate_problem
 from netdim.vocabulary import PlanStatus
 
 __all__ = ["size_to_targets", "prepare"]
@@ -66,6 +68,8 @@ def prepare(network, options: SizingOptions):
     base = baseline(network, choices)
     if options.model == "exact":
         _check_exact_size(network, base.capacities)
+    if options.model == PEAKED:
+        _check_peaked(network)
     return choices, base
 
 
@@ -217,7 +221,9 @@ class _SizingLoop:
 def _sizing_loop(network, choices, options, progress, fallback=None) -> _SizingLoop:
     alt = network.routing.policy == "alternate"
     model = options.model
-    loop_method = "conservative" if model == "conservative" else "fixed-point"
+    # the peaked model in the loop too: its loads and overflow failures set the budgets, so
+    # that calibration by simulation is a final check rather than the way to meet targets
+    loop_method = model if model in ("conservative", PEAKED) else "fixed-point"
     routes = [d.routes[0].links if d.routes else () for d in network.demands]
     target = np.array([d.target for d in network.demands], dtype=float)
     bw = np.array([d.bandwidth for d in network.demands], dtype=float)
@@ -342,6 +348,13 @@ def _infeasible_message(net, choices, ev, hint):
                      f"{ev.target[i]:.4g} ({why})")
     more = f" and {len(names) - 10} more" if len(names) > 10 else ""
     return "targets cannot be met: " + "; ".join(parts) + more
+
+
+def _check_peaked(network):
+    """The peaked model has no multi-rate form: refuse before any work."""
+    problem = multirate_problem(network)
+    if problem:
+        raise ValueError(f"model {PEAKED!r}: {problem}")
 
 
 def _check_exact_size(network, caps, max_states=_MAX_EXACT_STATES):

@@ -19,10 +19,12 @@ from netdim.evaluate import compare as _compare
 from netdim.evaluate import day as _day
 from netdim.evaluate import exact as _exact
 from netdim.evaluate import fixed_point as _fixed_point
+from netdim.evaluate import peaked_fixed_point as _peaked
 from netdim.evaluate import simulate as _simulate
 from netdim.evaluate._network import resolve_capacities, route_groups
 from netdim.evaluate.compare import Comparison, compare_methods
 from netdim.evaluate.fixed_point import FixedPoint
+from netdim.evaluate.peaked_fixed_point import default_method
 from netdim.evaluate.result import Evaluation, verdicts
 from netdim.evaluate.simulate import HOLDING_LAWS, SimulationOptions
 
@@ -40,6 +42,7 @@ __all__ = [
     "resolve_capacities",
     "route_groups",
     "verdicts",
+    "default_method",
 ]
 
 #: The methods, in the order the command line lists them: name -> function(network,
@@ -49,7 +52,8 @@ _REGISTRY = {
     "conservative": partial(_fixed_point.fixed_point, conservative=True),
     "exact": _exact.exact,
     "simulate": _simulate.simulate,
-    # demand over the day (issue 20): the network's day profile
+    _peaked.METHOD: _peaked.peaked_fixed_point,
+    # demand over the day: the network's day profile
     **{m: partial(_day.evaluate_day, method=m) for m in _day.DAY_METHODS},
 }
 
@@ -62,6 +66,7 @@ METHOD_OPTIONS = {
     "conservative": _fixed_point.CONSERVATIVE_OPTIONS,
     "exact": _exact.OPTIONS,
     "simulate": _simulate.OPTIONS,
+    _peaked.METHOD: _peaked.OPTIONS,
     **{m: _day.SIM_OPTIONS if m == "day-simulate" else _day.OPTIONS for m in _day.DAY_METHODS},
 }
 
@@ -78,8 +83,8 @@ def evaluate(network, capacities=None, method: str | None = None, **options) -> 
     network : Network
     capacities : array_like of int, optional
         One per link, in link order; default: the capacities in the network file.
-    method : {'fixed-point', 'conservative', 'exact', 'simulate', 'day', 'day-exact', \
-'day-fpa', 'day-mol', 'day-simulate'}, optional
+    method : {'fixed-point', 'conservative', 'exact', 'simulate', 'peaked-fixed-point', \
+'day', 'day-exact', 'day-fpa', 'day-mol', 'day-simulate'}, optional
         Default ``fixed-point``, or ``day`` for a network with a day profile
         (``network.day``: demands with ``rates``); the ``day`` methods evaluate over the day
         (:mod:`netdim.evaluate.day`), the others the busy hour (a profiled demand's traffic
@@ -88,6 +93,10 @@ def evaluate(network, capacities=None, method: str | None = None, **options) -> 
         ``conservative``: each link sees its un-thinned load (the product bound [2]_).
         ``exact``: product form or Markov chain [3]_, small networks only.
         ``simulate``: event-driven simulation with confidence intervals [4]_.
+        ``peaked-fixed-point``: the reduced-load evaluation carrying the peakedness of
+        overflow under alternate routing (equivalent random groups [5]_; single-unit
+        calls). :func:`default_method` says which of the fixed points a network gets
+        when none is named on the command line.
     **options
         Passed to the method; :data:`METHOD_OPTIONS` lists what each takes (``tol``,
         ``max_iter``, ``start`` for the fixed point; ``max_states``, ``solver`` for the
@@ -120,6 +129,8 @@ def evaluate(network, capacities=None, method: str | None = None, **options) -> 
     .. [3] F. P. Kelly, "Loss networks", Ann. Appl. Probab. 1 (1991) 319-378.
     .. [4] A. M. Law, W. D. Kelton, *Simulation Modeling and Analysis*, 3rd ed.,
        McGraw-Hill 2000.
+    .. [5] R. I. Wilkinson, "Theories for toll traffic engineering in the U.S.A.", Bell
+       System Technical Journal 35 (1956) 421-514.
 
     Examples
     --------

@@ -19,6 +19,9 @@ from netdim.errors import ModelTooLargeError
 from netdim.evaluate._network import resolve_capacities
 from netdim.evaluate.exact import exact
 from netdim.evaluate.fixed_point import fixed_point
+from netdim.evaluate.peaked_fixed_point import METHOD as PEAKED
+from netdim.evaluate.peaked_fixed_point import applies as peaked_applies
+from netdim.evaluate.peaked_fixed_point import peaked_fixed_point
 from netdim.evaluate.result import Evaluation
 from netdim.evaluate.simulate import SimulationOptions, simulate
 from netdim.vocabulary import Verdict
@@ -60,9 +63,14 @@ class Comparison:
         Why there is no exact column, or the exact solver used.
     evaluations : dict
         The full :class:`Evaluation` of each method (``'fixed-point'``, ``'simulate'``,
-        ``'exact'``).
+        ``'exact'``, ``'peaked-fixed-point'``).
     offered_calls, blocked_calls : ndarray of int or None
         Simulated calls of each demand, and how many were blocked.
+    peaked : ndarray or None
+        Blocking by the peaked fixed point, where it applies (alternate routing with
+        overflow, single-unit calls); else None.
+    peaked_outside : ndarray of bool or None
+        The peaked fixed point lies outside the simulation's interval.
     """
 
     demand_ids: tuple
@@ -78,16 +86,19 @@ class Comparison:
     evaluations: dict = field(default_factory=dict, compare=False)
     offered_calls: np.ndarray | None = None
     blocked_calls: np.ndarray | None = None
+    peaked: np.ndarray | None = None
+    peaked_outside: np.ndarray | None = None
 
     def __post_init__(self):
         for name in ("target", "fixed_point", "simulated", "interval"):
             object.__setattr__(self, name, frozen(getattr(self, name)))
         object.__setattr__(self, "outside", frozen(self.outside, bool))
-        for name in ("exact",):
+        for name in ("exact", "peaked"):
             if getattr(self, name) is not None:
                 object.__setattr__(self, name, frozen(getattr(self, name)))
-        if self.exact_outside is not None:
-            object.__setattr__(self, "exact_outside", frozen(self.exact_outside, bool))
+        for name in ("exact_outside", "peaked_outside"):
+            if getattr(self, name) is not None:
+                object.__setattr__(self, name, frozen(getattr(self, name), bool))
         for name in ("offered_calls", "blocked_calls"):
             if getattr(self, name) is not None:
                 object.__setattr__(self, name, frozen(getattr(self, name), np.int64))
@@ -140,6 +151,9 @@ class Comparison:
             }
             if self.exact_outside is not None:
                 rec["exact_outside"] = bool(self.exact_outside[i])
+            if self.peaked is not None:
+                rec["peaked_fixed_point"] = float(self.peaked[i])
+                rec["peaked_outside"] = bool(self.peaked_outside[i])
             if verdicts is not None:
                 rec["verdict"] = str(verdicts[i])
             if self.blocked_calls is not None:
@@ -182,7 +196,8 @@ def _options(simulation) -> SimulationOptions:
 
 def compare_methods(network, capacities=None, simulation=None, *, max_states: int = 200_000,
                     progress=None) -> Comparison:
-    """Evaluate a network by the fixed point, by simulation and (if small) exactly.
+    """Evaluate a network by the fixed point, by simulation and (if small) exactly; under
+    alternate routing with overflow also by the peaked fixed point.
 
     Parameters
     ----------
@@ -246,6 +261,9 @@ def compare_methods(network, capacities=None, simulation=None, *, max_states: in
     sim = simulate(network, caps, progress=progress, **opts.as_kwargs())
     fp = fixed_point(network, caps)
     evaluations: dict[str, Evaluation] = {"fixed-point": fp, "simulate": sim}
+    peaked = peaked_fixed_point(network, caps) if peaked_applies(network) else None
+    if peaked is not None:
+        evaluations[PEAKED] = peaked
     try:
         ex = exact(network, caps, max_states=max_states)
     except ModelTooLargeError as err:
@@ -275,4 +293,6 @@ def compare_methods(network, capacities=None, simulation=None, *, max_states: in
         evaluations=evaluations,
         offered_calls=sim.details.get("offered_calls"),
         blocked_calls=sim.details.get("blocked_calls"),
+        peaked=None if peaked is None else peaked.blocking,
+        peaked_outside=None if peaked is None else outside(peaked.blocking),
     )

@@ -43,15 +43,22 @@ from netdim.model import POLICIES, incidence
 from netdim.peaked import EQUIVALENTS, LINK_MODELS, link_factors
 from netdim.vocabulary import EvaluationStatus
 
-__all__ = ["peaked_fixed_point", "METHOD", "Q_FLOOR", "BISTABLE_GAP"]
+__all__ = ["peaked_fixed_point", "METHOD", "OPTIONS", "Q_FLOOR", "BISTABLE_GAP", "REFINE_TOL",
+           "applies", "multirate_problem",
+           "default_method"]
 
 #: The method's name in ``Evaluation.method``.
 METHOD = "peaked-fixed-point"
+#: Keyword options of :func:`peaked_fixed_point` (the command line checks its flags here).
+OPTIONS = ("tol", "max_iter", "start", "link_model", "equivalent")
 #: Floor of 1 - b in the iteration, as in the plain fixed point (a link of capacity 0 blocks
 #: everything; the own-step exclusion Q_r / q_s never divides by zero).
 Q_FLOOR = 1e-130
 #: Two solutions closer than this (largest difference in any blocking) count as one.
 BISTABLE_GAP = 1e-6
+#: Before two solutions are called two, both are solved on to this tolerance (or the one
+#: asked for, if tighter), as in the plain fixed point.
+REFINE_TOL = 1e-10
 _ALPHA_MIN = 1.0 / 256.0
 
 _STATIC_CACHE: dict = {}
@@ -512,10 +519,34 @@ def peaked_fixed_point(network, capacities=None, link_model="ipp", equivalent="t
                             f"converged in {it2} iterations from full links", [],
                             {"damping": alpha2, "start": "full"})
     gap = _gap(main, other, b, b2)
+    same = (f"converged in {it} iterations from idle links and {it2} from full links, to the "
+            f"same solution (largest change {max(res, res2):.2g})")
     if gap <= BISTABLE_GAP:
-        return replace(main, iterations=it + it2, message=(
-            f"converged in {it} iterations from idle links and {it2} from full links, to the "
-            f"same solution (largest change {max(res, res2):.2g})"))
+        return replace(main, iterations=it + it2, message=same)
+    refine = min(tol, REFINE_TOL)
+    if refine < tol:
+        # Each end stopped within about tol of its own limit: solve both on before calling
+        # them two solutions (as the plain fixed point does).
+        try:
+            b, zo, it_r, res, alpha = prob.solve(b, zo, refine, max_iter,
+                                                 "refining the solution from idle links")
+            b2, zo2, it2_r, res2, alpha2 = prob.solve(b2, zo2, refine, max_iter,
+                                                      "refining the solution from full links")
+        except ConvergenceError as exc:
+            return replace(main, iterations=it + it2, warnings=main.warnings + (
+                f"the solves from idle and from full links stopped {gap:.3g} apart (tol "
+                f"{tol:g}) and could not be refined to tol {refine:g} ({exc}); a second "
+                "solution cannot be ruled out",))
+        main = prob.evaluation(b, zo, it + it_r, res, EvaluationStatus.CONVERGED.value,
+                               message, [], {"damping": alpha})
+        other = prob.evaluation(b2, zo2, it2 + it2_r, res2, EvaluationStatus.CONVERGED.value,
+                                f"converged in {it2 + it2_r} iterations from full links", [],
+                                {"damping": alpha2, "start": "full"})
+        gap = _gap(main, other, b, b2)
+        if gap <= BISTABLE_GAP:
+            return replace(main, iterations=it + it2, message=(
+                same + f"; both solved on to tol {refine:g} in {it_r} and {it2_r} more "
+                "iterations agree"))
     gap_d = np.abs(other.blocking - main.blocking)
     i = int(np.argmax(gap_d)) if gap_d.size else 0
     worst = (f"; demand '{main.demand_ids[i]}' {main.blocking[i]:.4g} vs "
@@ -529,3 +560,30 @@ def peaked_fixed_point(network, capacities=None, link_model="ipp", equivalent="t
     return replace(main, status=EvaluationStatus.BISTABLE.value, alternative=other,
                    message=message + "; a second solution from full links",
                    warnings=main.warnings + (warning,))
+
+
+def applies(network) -> bool:
+    """True when the network has overflow for the peaked model to follow: alternate
+    routing, some demand with a second route, and single-unit calls only (the peaked link
+    model has no multi-rate form)."""
+    return (network.routing.policy == "alternate"
+            and any(len(d.routes) > 1 for d in network.demands)
+            and not network.is_multirate)
+
+
+def multirate_problem(network) -> str | None:
+    """Why the peaked model cannot evaluate ``network`` (its first demand of more than one
+    unit), or None."""
+    for d in network.demands:
+        if d.bandwidth != 1:
+            return (f"demand '{d.id}' has bandwidth {d.bandwidth}; the peaked model handles "
+                    "single-unit calls only: use 'fixed-point' or 'simulate'")
+    return None
+
+
+def default_method(network) -> str:
+    """The evaluation a network gets when none is named: the peaked fixed point where it
+    :func:`applies` (measured closer to simulation and to the exact chain there,
+    ``docs/measurements/peaked.md``), else the plain fixed point (the two are the same
+    equations without overflow)."""
+    return METHOD if applies(network) else "fixed-point"

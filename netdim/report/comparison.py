@@ -22,7 +22,8 @@ __all__ = ["comparison_text", "comparison_csv", "write_comparison_csv", "COMPARI
 #: (``--csv`` contract: add columns, never rename).
 COMPARISON_COLUMNS = ("id", "target", "fixed_point", "simulated", "interval_low",
                       "interval_high", "exact", "outside", "exact_outside", "verdict",
-                      "offered_calls", "blocked_calls", "note")
+                      "offered_calls", "blocked_calls", "note", "peaked_fixed_point",
+                      "peaked_outside")
 
 
 def comparison_text(comparison, kind=None) -> str:
@@ -45,7 +46,10 @@ def comparison_text(comparison, kind=None) -> str:
     """
     c = comparison
     level = f"{100 * c.confidence:g}%"
-    headers = ["demand", "target", "fixed point", "simulated", f"{level} interval"]
+    headers = ["demand", "target", "fixed point"]
+    if c.peaked is not None:
+        headers.append("peaked")
+    headers += ["simulated", f"{level} interval"]
     if c.exact is not None:
         headers.append("exact")
     verdicts = c.verdicts() if c.evaluations else None
@@ -58,11 +62,15 @@ def comparison_text(comparison, kind=None) -> str:
     target, fixed, simulated = (prob_column(x) for x in (c.target, c.fixed_point,
                                                          c.simulated))
     exact = prob_column(c.exact) if c.exact is not None else None
+    peaked = prob_column(c.peaked) if c.peaked is not None else None
     f = prob_format(np.asarray(c.interval, float))
     sep = " to " if "e" in f(0.5) else "-"
     for i, did in enumerate(c.demand_ids):
         lo, hi = c.interval[i]
-        row = [did, target[i], fixed[i], simulated[i], f"{f(max(float(lo), 0.0))}{sep}{f(hi)}"]
+        row = [did, target[i], fixed[i]]
+        if peaked is not None:
+            row.append(peaked[i])
+        row += [simulated[i], f"{f(max(float(lo), 0.0))}{sep}{f(hi)}"]
         if exact is not None:
             row.append(exact[i])
         if verdicts is not None:
@@ -70,6 +78,8 @@ def comparison_text(comparison, kind=None) -> str:
         flags = []
         if c.outside[i]:
             flags.append("fixed point outside")
+        if c.peaked_outside is not None and c.peaked_outside[i]:
+            flags.append("peaked outside")
         if c.exact_outside is not None and c.exact_outside[i]:
             flags.append("exact outside")
         if notes[i]:
@@ -88,6 +98,10 @@ def comparison_text(comparison, kind=None) -> str:
     else:
         lines.append(f"The fixed point lies within the simulation's {level} interval "
                      f"for {'the one demand' if n == 1 else 'every demand'}.")
+    if c.peaked is not None:
+        n_pk = int(c.peaked_outside.sum())
+        lines.append(f"The peaked fixed point (overflow's bursts followed) lies outside the "
+                     f"interval for {n_pk} of {plural(n, 'demand')}.")
     quiet = sum(1 for x in notes if x)
     if quiet:
         lines.append(f"{plural(quiet, 'demand')}: the simulation saw no blocked call (or no "

@@ -125,7 +125,7 @@ def evaluation_text(ev, title=None, limit=None, kind=None, network=None) -> str:
     if title:
         out.append(title)
     head = f"method: {ev.method}"
-    if ev.method in ("fixed-point",):
+    if ev.method in ("fixed-point", "peaked-fixed-point"):
         head += f", {ev.iterations} iterations, residual {ev.residual:.2g}"
     head += f", status: {ev.status}"
     out.append(head)

@@ -119,6 +119,9 @@ def format_plan(plan, max_rows=None, kind=None) -> str:
                        "the longest run: read these as about at target")
     if not net_value and plan.gap > 0.01 and plan.lower_bound > 0:
         out.append("about the gap  " + _gap_words(plan))
+    elif not net_value and str(plan.details.get("bound", "")).startswith("no lower bound"):
+        out.append("about the gap  no lower bound is proven under this model, so the gap "
+                   "says nothing about how far this plan is from the least cost")
     if plan.message:
         out.append("")
         out.append(plan.message)
