@@ -132,12 +132,12 @@ def test_hull_grid_holds_only_allowed_capacities(monkeypatch, installed, module,
     capacity ``installed + module * max_modules`` (issue 19: a module of 1e7 on a link with no
     room for one tabulated 1e7 rows and ran for minutes)."""
     seen = []
-    real = lc.erlang_table
+    real = lc.erlang_b_table
 
-    def spy(nu, smax, rows=None):
-        seen.append(int(smax))
-        return real(nu, smax, rows)
+    def spy(traffic, max_servers, *, servers=None):
+        seen.append(int(max_servers))
+        return real(traffic, max_servers, servers=servers)
 
-    monkeypatch.setattr(lc, "erlang_table", spy)
+    monkeypatch.setattr(lc, "erlang_b_table", spy)
     lc.erlang_hull_faces(5.0, installed, module, max_modules)
     assert seen and max(seen) <= installed + module * max_modules
