@@ -26,7 +26,7 @@ whole command (start-up and reading the file included) and its peak memory is it
 There is no failure-study command yet, so that step is left out.
 
 Usage: python tests/benchmarks/bench_scale.py [--quick] [--repeat N] [--only SECTION]
-       [--timeout S] [--max-sites N]
+       [--timeout S] [--max-sites N] [--size-up-to N] [--repo CHECKOUT]
 """
 
 from __future__ import annotations
@@ -150,10 +150,10 @@ def show_time(seconds, timeout):
     return f">{timeout:.0f}" if not math.isfinite(seconds) else f"{seconds:.2f}"
 
 
-def base_routing():
-    """netdim/routing.py as it was at BASE_COMMIT (from git), or None without git."""
+def base_routing(repo):
+    """netdim/routing.py as it was at BASE_COMMIT (from git in ``repo``), or None."""
     try:
-        text = subprocess.run(["git", "-C", str(ROOT), "show", f"{BASE_COMMIT}:netdim/routing.py"],
+        text = subprocess.run(["git", "-C", str(repo), "show", f"{BASE_COMMIT}:netdim/routing.py"],
                               capture_output=True, text=True, check=True).stdout
     except (OSError, subprocess.CalledProcessError):
         return None
@@ -166,7 +166,7 @@ def base_routing():
 
 
 # -- sections --------------------------------------------------------------------------------
-def bench_goals(tmp, repeat, timeout, n_demands):
+def bench_goals(tmp, repeat, timeout, n_demands, repo):
     print(f"\n== goals at 1000 sites ({n_demands} demands; medians of {repeat}; ratio = "
           "median / goal, under 1 meets it)")
     rows = []
@@ -193,7 +193,7 @@ def bench_goals(tmp, repeat, timeout, n_demands):
         print(f"{name:>40} {show_time(t, timeout):>9} {goal_s:>7.0f} {t / goal_s:>6.2f} "
               f"{mb_text:>8} {gmb:>8} {rmb:>6}  {note}")
 
-    old = base_routing()
+    old = base_routing(repo)
     if old is None:
         print("(git or the base commit not at hand: no route comparison)")
         return
@@ -298,13 +298,16 @@ def main():
     ap.add_argument("--max-sites", type=int, default=5000)
     ap.add_argument("--size-up-to", type=int, default=1250,
                     help="size the growth backbones up to this many sites")
+    ap.add_argument("--repo", default=str(ROOT),
+                    help="git checkout to read the base commit's route generator from")
     args = ap.parse_args()
     print(f"netdim scale benchmark, {time.strftime('%Y-%m-%d %H:%M')} UTC, Python "
           f"{sys.version.split()[0]}, load average {os.getloadavg()[0]:.1f}")
     with tempfile.TemporaryDirectory() as tmp:
         tmp = pathlib.Path(tmp)
         if args.only in (None, "goals"):
-            bench_goals(tmp, args.repeat, args.timeout, 3000 if args.quick else 30000)
+            bench_goals(tmp, args.repeat, args.timeout, 3000 if args.quick else 30000,
+                        args.repo)
         if args.only in (None, "growth"):
             bench_growth(tmp, args.repeat, args.timeout,
                          1250 if args.quick else args.max_sites, 30, args.size_up_to)
