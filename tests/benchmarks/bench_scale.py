@@ -29,7 +29,7 @@ that in wall time) is stopped and shown as ``>T``.
 There is no failure-study command yet, so that step is left out.
 
 Usage: python tests/benchmarks/bench_scale.py [--quick] [--repeat N] [--only SECTION]
-       [--timeout S] [--max-sites N] [--size-up-to N] [--repo CHECKOUT]
+       [--timeout S] [--max-sites N] [--min-sites N] [--size-up-to N] [--repo CHECKOUT]
 """
 
 from __future__ import annotations
@@ -265,10 +265,10 @@ def _header(first, steps):
           + " ".join(f"{s + ' s':>9} {'cpu s':>7} {'MB':>6}" for s in steps))
 
 
-def bench_growth(tmp, repeat, timeout, max_sites, per_site, size_up_to):
+def bench_growth(tmp, repeat, timeout, max_sites, per_site, size_up_to, min_sites=300):
     sizes = []
     n = max_sites
-    while n >= 300:
+    while n >= min_sites:
         sizes.append(n)
         n //= 2
     sizes.sort()
@@ -280,7 +280,10 @@ def bench_growth(tmp, repeat, timeout, max_sites, per_site, size_up_to):
     rows = []
     for n in sizes:
         path = tmp / f"growth-{n}.yaml"
-        path.write_text(backbone_text(n, per_site * n, total=3.0 * n))
+        # 20 links reach every pair up to 2500 sites, not at 5000; with max_routes 1 the
+        # limit changes no route that exists
+        path.write_text(backbone_text(n, per_site * n, total=3.0 * n,
+                                      max_hops=20 if n <= 2500 else 40))
         row = _steps(path, timeout, repeat, size=n <= size_up_to)
         rows.append(row)
         _print_steps(f"backbone {n}", row, timeout, steps)
@@ -317,6 +320,7 @@ def main():
     ap.add_argument("--only", choices=("goals", "growth", "real"))
     ap.add_argument("--timeout", type=float, default=600.0)
     ap.add_argument("--max-sites", type=int, default=5000)
+    ap.add_argument("--min-sites", type=int, default=300)
     ap.add_argument("--size-up-to", type=int, default=1250,
                     help="size the growth backbones up to this many sites")
     ap.add_argument("--repo", default=str(ROOT),
@@ -331,7 +335,8 @@ def main():
                         args.repo)
         if args.only in (None, "growth"):
             bench_growth(tmp, args.repeat, args.timeout,
-                         1250 if args.quick else args.max_sites, 30, args.size_up_to)
+                         1250 if args.quick else args.max_sites, 30, args.size_up_to,
+                         args.min_sites)
         if args.only in (None, "real"):
             bench_real(tmp, args.repeat, args.timeout)
 
