@@ -285,7 +285,7 @@ def bench_growth(tmp, repeat, timeout, max_sites, per_site, size_up_to, min_site
         try:
             row = _steps(path, timeout, repeat, size=n <= size_up_to)
         except NetworkFileError as exc:  # at 5000 sites some pairs are over 20 links apart
-            print(f"{'backbone ' + str(n):>24} not read: {str(exc).splitlines()[-2][:120]}")
+            print(f"{'backbone ' + str(n):>24} not read: {str(exc).splitlines()[0][:120]}")
             continue
         rows.append(row)
         _print_steps(f"backbone {n}", row, timeout, steps)
