@@ -146,11 +146,12 @@ def run_command(args, timeout):
 
 def run_median(args, timeout, repeat):
     """Median wall and processor seconds, the largest peak MB and the exit statuses of
-    ``repeat`` runs (infinite seconds when a run was stopped)."""
+    ``repeat`` runs (when a run was stopped: the wall seconds until then, and infinite
+    processor seconds)."""
     runs = [run_command(args, timeout) for _ in range(repeat)]
     peak = max(r[2] for r in runs)
-    if any(r[3] == "timeout" for r in runs):
-        return float("inf"), float("inf"), peak, "timeout"
+    if any(r[3] == "timeout" for r in runs):  # the wall time until it was stopped
+        return max(r[0] for r in runs), float("inf"), peak, "timeout"
     return (statistics.median(r[0] for r in runs), statistics.median(r[1] for r in runs),
             peak, ",".join(sorted({str(r[3]) for r in runs})))
 
