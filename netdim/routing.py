@@ -166,12 +166,14 @@ class RouteFinder:
     distance: a site is entered only when the links used so far plus its breadth-first
     distance to the destination fit in the hop limit, and the last link is looked up
     directly. With ``max_routes`` = k the hop limit grows from the shortest distance one
-    link at a time until k paths are found; since hop count is the first sort key, the paths
-    of at most that many links hold the first k of the full order, which is the same
-    answer as listing every path (as :func:`networkx.all_simple_edge_paths` would) and
-    sorting. Distances are kept for the last 64 destinations (files usually list demands
-    site by site). :func:`networkx.shortest_simple_paths` (Yen's algorithm) gives the same
-    paths but was measured slower here (docs/measurements/netfile.md).
+    link at a time until k paths are found (each prefix filed once under its bound, see
+    :meth:`_paths_by_bound`, rather than searching each limit afresh); since hop count is
+    the first sort key, the paths of at most that many links hold the first k of the full
+    order, which is the same answer as listing every path (as
+    :func:`networkx.all_simple_edge_paths` would) and sorting. Distances are kept for
+    the last 64 destinations (files usually list demands site by site).
+    :func:`networkx.shortest_simple_paths` (Yen's algorithm) gives the same paths but was
+    measured slower here (docs/measurements/netfile.md).
     """
 
     _CACHE = 64
@@ -211,10 +213,13 @@ class RouteFinder:
         low = 1 if dist is None else dist[start]
         k = self.max_routes
         budget = [self.max_steps]
-        for hops in (range(low, self.max_hops + 1) if k is not None else (self.max_hops,)):
-            paths = self._paths(start, goal, dist, hops, budget)
-            if k is not None and len(paths) >= k:
-                break
+        if k is not None and dist is not None:
+            paths = self._paths_by_bound(start, goal, dist, k, budget)
+        else:
+            for hops in (range(low, self.max_hops + 1) if k is not None else (self.max_hops,)):
+                paths = self._paths(start, goal, dist, hops, budget)
+                if k is not None and len(paths) >= k:
+                    break
         attrs = self._attrs
         keyed = []
         for steps in paths:
@@ -313,6 +318,58 @@ class RouteFinder:
                 stack.append(iter(adj[there].items()))
             else:
                 chosen.pop()
+        budget[0] = steps
+        return found
+
+    def _paths_by_bound(self, start, goal, dist, k, budget):
+        """Every simple path of at most h links, h the least hop count that gives k paths
+        (or ``max_hops``), as lists of (link id, data).
+
+        The same paths as :meth:`_paths` at h, found without listing the shorter levels
+        again: a path prefix ending at site u after d links is filed under its bound
+        d + dist(u), the fewest links of any path through it. A bound never falls along a
+        path (dist changes by at most one a link), and a prefix whose bound is b completes
+        by its last link in exactly b links, so taking the bounds 1, 2, ... in turn
+        meets every path in order of hop count and each prefix once.
+        """
+        adj = self._adj
+        max_hops = self.max_hops
+        limit = self.max_candidates
+        found = []
+        # buckets[b]: prefixes (sites visited, parallel links per step) with bound b
+        buckets = [[] for _ in range(max_hops + 1)]
+        buckets[dist[start]].append(((start,), ()))
+        steps = budget[0]
+        for bound in range(dist[start], max_hops + 1):
+            todo = buckets[bound]
+            while todo:
+                sites, chosen = todo.pop()
+                here = sites[-1]
+                depth = len(chosen)
+                nbrs = adj[here]
+                last = nbrs.get(goal)
+                if last:
+                    for combo in itertools.product(*(c.items() for c in chosen),
+                                                   last.items()):
+                        found.append(list(combo))
+                    if len(found) > limit:
+                        raise RouteLimitError(self._too_many("routes", limit))
+                if depth + 2 > max_hops:
+                    continue
+                for there, keyed in nbrs.items():
+                    steps -= 1
+                    if there == goal or there in sites:
+                        continue
+                    d = dist.get(there)
+                    if d is None:
+                        continue
+                    b = depth + 1 + d
+                    if b <= max_hops:
+                        buckets[b].append((sites + (there,), chosen + (keyed,)))
+                if steps < 0:
+                    raise RouteLimitError(self._too_many("search steps", self.max_steps))
+            if len(found) >= k:
+                break
         budget[0] = steps
         return found
 

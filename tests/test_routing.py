@@ -10,6 +10,7 @@ The order rules (hops, then length, then cost, then ids) are the documented cont
 
 import json
 import pathlib
+import random
 
 import networkx as nx
 import pytest
@@ -269,3 +270,28 @@ def test_check_path(route, problem):
         assert got is None
     else:
         assert got.startswith(problem)
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_search_by_bound_equals_first_k_of_every_path_on_random_multigraphs(seed):
+    """The search filed by hop bound (max_routes set, max_hops > 2) against networkx's
+    independent enumeration of every simple path, sorted by the documented order, on sparse
+    random multigraphs with parallel links and dead ends."""
+    rng = random.Random(seed)
+    n = 14
+    sites = [f"N{i}" for i in range(n)]
+    links = []
+    for i in range(n + 6):
+        a, b = rng.sample(range(n), 2)
+        for p in range(rng.choice((1, 1, 1, 2))):
+            links.append(Link(f"E{i}/{p}", (sites[a], sites[b]),
+                              length=float(rng.randint(1, 3)),
+                              cost_per_module=float(rng.randint(1, 2))))
+    g = link_graph(links, sites)
+    for k in (1, 2, 4, 7):
+        finder = RouteFinder(g, 7, k)
+        for origin in sites[:5]:
+            for dest in sites:
+                if dest != origin:
+                    assert finder.routes(origin, dest) == sorted_by_contract(
+                        g, origin, dest, 7)[:k]

@@ -446,7 +446,8 @@ def loss_flow_bound(network, choices: SizingChoices | None = None, *, solver="hi
     hull_slopes : bool
         Take cut slopes from the lower convex hull of the loss functions too.
     time_limit : float or None
-        Safety stop, seconds: no round starts after it (then ``stopped_by_time``).
+        Safety stop, seconds from the call (building the model counts): no round starts
+        after it (then ``stopped_by_time``).
     progress : callable(fraction, message) or None
 
     Returns
@@ -471,12 +472,12 @@ def loss_flow_bound(network, choices: SizingChoices | None = None, *, solver="hi
     progress = progress or silent
     if reservation_cuts is None:
         reservation_cuts = len(network.links) <= RESERVATION_CUT_LINKS
+    clock = _Clock(time_limit)  # from here: building the model counts against the stop
     rel = LossFlowRelaxation(LossFlowData(network, choices), reservation_cuts=reservation_cuts,
                              hull_slopes=hull_slopes)
     if rel.hopeless:
         return None
 
-    clock = _Clock(time_limit)
     best, rounds = _lp_rounds(rel, solver, int(max_rounds), work_limit, len(network.links),
                               clock, progress)
     kind = f"loss-flow LP ({rounds} rounds, {rel.n_cuts} cuts)"

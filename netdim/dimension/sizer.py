@@ -159,6 +159,11 @@ def size_to_targets(network, options: SizingOptions, *, progress=None, t_start=N
         warnings.append(f"the lower bound's work was cut short by its safety stop "
                         f"({options.bound_time:g} s), so the bound depends on this machine's "
                         "speed: allow more (--bound-time) to reproduce it elsewhere")
+    if not best.settled:
+        alt = network.routing.policy == "alternate"
+        warnings.append(f"the sizing loop stopped at its limit of {options.max_iter} "
+                        f"iterations without settling ({_unsettled_why(alt)}); "
+                        f"{_unsettled_what(alt)}")
     if found.stopped_by_time:
         warnings.append("the local search was cut short by its safety stop, so the plan "
                         "depends on this machine's speed")
@@ -216,6 +221,7 @@ class _SizingLoop:
     believed_feasible: bool
     unthinned_milp: MilpResult | None  # the first MILP, at un-thinned loads
     no_solution: bool = False  # the MILP stopped before it had any plan
+    settled: bool = True  # False: stopped at max_iter with the plans still changing
 
 
 def _sizing_loop(network, choices, options, progress, fallback=None) -> _SizingLoop:
@@ -241,6 +247,7 @@ def _sizing_loop(network, choices, options, progress, fallback=None) -> _SizingL
     best_ok = None
     costs: list[float] = []
     k = kmin
+    settled = False
     for it in range(1, options.max_iter + 1):
         eff = np.minimum(target / np.maximum(q, 1e-12), _MAX_EFFECTIVE_TARGET)
         # Multi-rate: a call of b units is blocked about b times as often as a one-unit call
@@ -262,22 +269,24 @@ def _sizing_loop(network, choices, options, progress, fallback=None) -> _SizingL
         if res.status == "error" and prev is None and fallback is not None:
             # Stopped (time limit) before any plan: the local search starts from the
             # baseline instead, which meets the targets as far as it can.
-            no_solution = True
+            no_solution = settled = True  # said by its own warning
             k = np.minimum(choices.max_modules, np.maximum(kmin, fallback))
             break
         if res.status in ("infeasible", "error"):
             no_solution = no_solution or res.status == "error"
             k = prev if prev is not None else np.minimum(choices.max_modules,
                                                          np.maximum(kmin, k))
+            settled = True  # stopped for its own reason, said elsewhere
             break
         if loop_method == "conservative" and not alt:
-            believed = True
+            believed = settled = True
             break
         ev = evaluate(network, choices.capacity(k), method=loop_method)
         believed = ev.all_met
         if ev.all_met and (best_ok is None or choices.cost(k) < choices.cost(best_ok)):
             best_ok = k
         if prev is not None and np.array_equal(k, prev):
+            settled = True
             break
         new = np.asarray(ev.link_offered, dtype=float)
         if alt:
@@ -292,10 +301,14 @@ def _sizing_loop(network, choices, options, progress, fallback=None) -> _SizingL
             q = np.exp(np.log(q) + w * (np.log(qn) - np.log(q)))
             costs.append(choices.cost(k))
             if _settled(costs):
+                settled = True
                 break
         else:
             loads = new if it == 1 else np.maximum(loads, new)
         prev = k
+    if not settled:
+        progress(None, f"the MILP iterations stopped at their limit of {options.max_iter} "
+                 f"without settling ({_unsettled_why(alt)}); {_unsettled_what(alt)}")
     if alt and prev is not None:
         # Start the local search from the last plan (its repair adds capacity where a
         # target is missed), or from a cheaper plan of the loop that met every target.
@@ -303,7 +316,19 @@ def _sizing_loop(network, choices, options, progress, fallback=None) -> _SizingL
             k = best_ok
         believed = True
     return _SizingLoop(np.asarray(k, np.int64), kmin, it, seconds, cuts, bad, believed,
-                       first, no_solution)
+                       first, no_solution, settled)
+
+
+def _unsettled_why(alt):
+    return (f"the MILP cost still moved by more than {100 * _SETTLE_TOL:g} % in one of the "
+            f"last {_SETTLE_RUN} iterations" if alt else
+            "each MILP still chose other capacities than the one before")
+
+
+def _unsettled_what(alt):
+    return ("the local search starts from the cheapest plan of the iterations that met "
+            "every target, else from the last one" if alt else
+            "the local search starts from the last iteration's plan")
 
 
 #: The alternate-routing loop has settled when the MILP cost moved less than this (relative)

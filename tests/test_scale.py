@@ -1,0 +1,71 @@
+"""What large runs say about themselves: the sizing loop that stops without settling, and
+the bound's safety stop counting the time spent building its model.
+
+The loop's rule (docs/design/sizing.md): under fixed routing it has settled when one MILP
+chooses the same capacities as the one before, so a single iteration can never have
+settled; the check values below follow from that rule, not from netdim's figures.
+"""
+
+from __future__ import annotations
+
+import importlib
+import pathlib
+import re
+import time
+
+from netdim.dimension import dimension
+from netdim.model import Demand, Link, Network, Route, Site
+from netdim.netfile import read_network
+
+ROOT = pathlib.Path(__file__).resolve().parents[1]
+
+
+def line():
+    """Two trunk groups in a line A-B-C with through traffic (demo data)."""
+    sites = (Site("A"), Site("B"), Site("C"))
+    links = (Link("AB", ("A", "B"), module=1), Link("BC", ("B", "C"), module=1))
+    demands = (
+        Demand("AB", ("A", "B"), 20.0, routes=(Route((0,), (1.0,)),), target=0.01),
+        Demand("BC", ("B", "C"), 15.0, routes=(Route((1,), (1.0,)),), target=0.01),
+        Demand("AC", ("A", "C"), 10.0, routes=(Route((0, 1), (1.0, 1.0)),), target=0.01),
+    )
+    return Network("line", sites, links, demands)
+
+
+UNSETTLED = (r"the sizing loop stopped at its limit of 1 iterations without settling \(each "
+             r"MILP still chose other capacities than the one before\); the local search "
+             r"starts from the last iteration's plan")
+
+
+def test_a_loop_cut_at_its_limit_says_so_and_what_it_returns():
+    lines = []
+    plan = dimension(line(), max_iter=1, progress=lambda f, m: lines.append(m))
+    assert plan.iterations == 1
+    assert any(re.fullmatch(UNSETTLED, w) for w in plan.warnings), plan.warnings
+    assert any(m.startswith("the MILP iterations stopped at their limit of 1 without "
+                            "settling") for m in lines), lines
+
+
+def test_a_settled_loop_says_nothing_of_it():
+    plan = dimension(line())
+    assert plan.iterations < 20
+    assert not any("without settling" in w for w in plan.warnings)
+
+
+def test_the_bound_time_counts_building_the_model(monkeypatch):
+    """A model that takes longer to build than the whole safety stop stops the bound's
+    rounds after the first, and the seconds reported include the building."""
+    lfb = importlib.import_module("netdim.dimension.loss_flow_bound")
+    real = lfb.LossFlowData
+
+    def slow(*args, **kw):
+        time.sleep(0.5)
+        return real(*args, **kw)
+
+    monkeypatch.setattr(lfb, "LossFlowData", slow)
+    net = read_network(ROOT / "networks" / "regional-telephone.yaml")
+    bound = lfb.loss_flow_bound(net, time_limit=0.3)
+    assert bound is not None
+    assert bound.stopped_by_time
+    assert bound.rounds == 1
+    assert bound.seconds >= 0.5
