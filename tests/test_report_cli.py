@@ -176,7 +176,8 @@ def test_report_option_errors(tmp_path, capsys):
     out = str(tmp_path / "r.html")
     cases = [
         (["report", net, "-o", out, "--seed", "3"],
-         "netdim: error: --seed: applies to --method simulate only, not --method fixed-point"),
+         "netdim: error: --seed: applies to --method simulate only, not --method "
+         "peaked-fixed-point"),
         (["report", net, "-o", out, "--curves", "-1"],
          "netdim: error: --curves: must be 0 or more, got -1"),
         (["evaluate", net, "--check", "--report", out],

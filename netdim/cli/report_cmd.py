@@ -1,7 +1,7 @@
 """``netdim report FILE -o REPORT.html``: one HTML file a planner can forward.
 
 FILE is a network file with capacities, or a plan file written by ``netdim size --out`` (the
-same format): it is evaluated (the fixed point unless ``--method``) and reported as one
+same format): it is evaluated (by evaluate's default method unless ``--method``) and reported as one
 self-contained HTML page (:mod:`netdim.report.html`). The same page comes from ``--report``
 on ``evaluate`` and ``size``; the helpers those commands call are here too
 (:func:`add_report_options`, :func:`check_report_args`, :func:`write_evaluation_report`,
@@ -15,7 +15,8 @@ from __future__ import annotations
 import sys
 import time
 
-from netdim.evaluate import HOLDING_LAWS, METHOD_OPTIONS, METHODS, evaluate
+from netdim.cli._files import add_file_options, file_limits
+from netdim.evaluate import HOLDING_LAWS, METHOD_OPTIONS, METHODS, default_method, evaluate
 from netdim.netfile import read_network
 from netdim.report.evaluation import write_csv
 from netdim.report.figures import require_matplotlib
@@ -51,8 +52,10 @@ def register(subparsers):
     p.add_argument("file", metavar="FILE", help="network or plan file (YAML)")
     p.add_argument("-o", "--output", metavar="REPORT.html", required=True,
                    help="the HTML file to write")
-    p.add_argument("--method", choices=METHODS, default="fixed-point",
-                   help="evaluation method (default fixed-point)")
+    p.add_argument("--method", choices=METHODS, default=None,
+                   help="evaluation method (default as evaluate's: the peaked fixed point "
+                   "under alternate routing, the day methods for a day profile, else the "
+                   "fixed point)")
     p.add_argument("--kind", choices=KIND_CHOICES, default=None, help=_KIND_HELP)
     p.add_argument("--measure", choices=("utilisation", "blocking"), default="utilisation",
                    help="what colours the links on the map (default utilisation)")
@@ -74,6 +77,7 @@ def register(subparsers):
     g.add_argument("--holding-law", choices=HOLDING_LAWS, default=None,
                    help="law of holding times (default exponential)")
     p.add_argument("--quiet", action="store_true", help="no lines on stderr but errors")
+    add_file_options(p)
     p.set_defaults(func=run)
     return p
 
@@ -245,11 +249,13 @@ def _progress(args):
 
 
 def run(args) -> int:
-    opts = _check_flags(args)
     outputs = [args.csv] if args.csv else []
     check_report_args(args, inputs=[args.file], outputs=outputs, path=args.output)
-    network = read_network(args.file)
-    if args.method == "simulate":
+    network = read_network(args.file, **file_limits(args))
+    if args.method is None:  # the method evaluate would use
+        args.method = "day" if network.day is not None else default_method(network)
+    opts = _check_flags(args)
+    if args.method in ("simulate", "day-simulate"):
         opts["progress"] = _progress(args)
     ev = evaluate(network, method=args.method, **opts)
     write_evaluation_report(args, network, ev, path=args.output)
