@@ -138,6 +138,7 @@ class Plan:
     verification: Evaluation | None = field(default=None, repr=False, compare=False)
     warnings: tuple = ()
     objective: str = "cost"
+    rules: tuple = ()
 
     def __post_init__(self):
         object.__setattr__(self, "capacities", _frozen(self.capacities, np.int64))
@@ -149,6 +150,12 @@ class Plan:
         object.__setattr__(self, "status", PlanStatus(self.status))
         object.__setattr__(self, "dropped_links", tuple(self.dropped_links))
         object.__setattr__(self, "warnings", tuple(self.warnings))
+        object.__setattr__(self, "rules", tuple(self.rules))
+
+    @property
+    def rules_met(self) -> bool:
+        """Every design rule (``min_capacity``, ``diversity``) holds in the plan."""
+        return all(r.met for r in self.rules)
 
     @property
     def feasible(self) -> bool:
@@ -212,6 +219,8 @@ class Plan:
             "message": self.message,
             "warnings": list(self.warnings),
             "verification": _verification_dict(self.verification),
+            "rules": [r.to_dict() for r in self.rules],
+            "rules_met": self.rules_met,
             "details": {
                 k: v
                 for k, v in self.details.items()
@@ -253,7 +262,7 @@ def _verification_dict(ev):
 def make_plan(network: Network, net: Network, choices: SizingChoices, modules,
               evaluation: Evaluation, *, lower_bound, status, message, iterations, solver,
               seconds, baseline: Baseline, model, details=None, warnings=(),
-              objective="cost", gap=None, verification=None) -> Plan:
+              objective="cost", gap=None, verification=None, rules=()) -> Plan:
     """The one place a :class:`Plan` is put together from a module vector.
 
     ``network`` is the network as given (for the ids of links left unbuilt), ``net`` the
@@ -287,4 +296,5 @@ def make_plan(network: Network, net: Network, choices: SizingChoices, modules,
         verification=verification,
         warnings=tuple(warnings),
         objective=objective,
+        rules=tuple(rules),
     )
