@@ -113,7 +113,8 @@ def _items(reader, data, key, what, keys, *, bare_ids=False, id_required=True):
 
 def _diversity(reader, m, item, default):
     return reader.number(m, "diversity", item, default, integer=True, low=1,
-                         high=MAX_DIVERSITY)
+                         high=MAX_DIVERSITY,
+                         high_note=f"more than {MAX_DIVERSITY} link-disjoint routes")
 
 
 def _holding(reader, m, key, item, default):
