@@ -9,6 +9,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from netdim._arrays import frozen as _frozen
+from netdim.dimension.rules import check_rules, has_rules
 from netdim.vocabulary import PlanStatus, Verdict
 
 if TYPE_CHECKING:
@@ -115,6 +116,9 @@ class Plan:
     warnings : tuple of str
     objective : str
         One of :data:`OBJECTIVES`.
+    rules : tuple of RuleCheck
+        Each design rule of the network (``min_capacity``, ``diversity``) judged on the
+        plan; empty when the network has none.
     """
 
     capacities: np.ndarray
@@ -262,11 +266,12 @@ def _verification_dict(ev):
 def make_plan(network: Network, net: Network, choices: SizingChoices, modules,
               evaluation: Evaluation, *, lower_bound, status, message, iterations, solver,
               seconds, baseline: Baseline, model, details=None, warnings=(),
-              objective="cost", gap=None, verification=None, rules=()) -> Plan:
+              objective="cost", gap=None, verification=None) -> Plan:
     """The one place a :class:`Plan` is put together from a module vector.
 
-    ``network`` is the network as given (for the ids of links left unbuilt), ``net`` the
-    one the plan is for (routes over dropped links taken away).
+    ``network`` is the network as given (for the ids of links left unbuilt and the design
+    rules, judged here on every plan: :func:`netdim.dimension.rules.check_rules`), ``net``
+    the one the plan is for (routes over dropped links taken away).
     """
     caps = choices.capacity(modules)
     cost = choices.cost(modules)
@@ -296,5 +301,5 @@ def make_plan(network: Network, net: Network, choices: SizingChoices, modules,
         verification=verification,
         warnings=tuple(warnings),
         objective=objective,
-        rules=tuple(rules),
+        rules=check_rules(network, choices, modules) if has_rules(network) else (),
     )

@@ -24,13 +24,15 @@ raises the optimum).
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
-from netdim.dimension.choices import SizingChoices
+if TYPE_CHECKING:
+    from netdim.dimension.choices import SizingChoices
 
 __all__ = ["RuleCheck", "disjoint_routes", "forced_links", "rule_floor",
-           "raise_to_min_capacity", "check_rules", "has_rules"]
+           "raise_to_min_capacity", "keep_rules", "check_rules", "has_rules"]
 
 #: Most search steps spent choosing the disjoint routes of one demand (beyond it the best
 #: set found so far is used; the routes are few in practice).
@@ -172,6 +174,15 @@ def raise_to_min_capacity(network, choices: SizingChoices, modules) -> np.ndarra
             k[j] = min(_modules_for(choices, j, link.min_capacity),
                        int(choices.max_modules[j]))
     return k
+
+
+def keep_rules(network, net, choices: SizingChoices, modules, forced=None) -> np.ndarray:
+    """``modules`` raised where the rules ask: the floors of :func:`rule_floor` (on ``net``,
+    the network the plan is for) and :func:`raise_to_min_capacity`. ``network`` is the
+    network as given (its demands' candidate routes choose the forced links)."""
+    forced = forced_links(network) if forced is None else forced
+    k = np.maximum(np.asarray(modules, np.int64), rule_floor(net, choices, forced))
+    return raise_to_min_capacity(network, choices, k)
 
 
 def _modules_for(choices, j, units) -> int:

@@ -37,10 +37,9 @@ from netdim.dimension.local_search import (
 from netdim.dimension.options import SizingOptions, silent
 from netdim.dimension.plan import Baseline, Plan, make_plan
 from netdim.dimension.rules import (
-    check_rules,
     forced_links,
     has_rules,
-    raise_to_min_capacity,
+    keep_rules,
     rule_floor,
 )
 from netdim.dimension.secant_milp import MilpResult, solve_secant_milp
@@ -130,8 +129,7 @@ def size_to_targets(network, options: SizingOptions, *, progress=None, t_start=N
     if ruled:
         # The search leaves unbuilt the links no usable route needs (a forced link on a
         # standby route under fixed routing, say): the rules put them back.
-        raised = raise_to_min_capacity(
-            network, choices, np.maximum(k, rule_floor(net, choices, forced)))
+        raised = keep_rules(network, net, choices, k, forced)
         if not np.array_equal(raised, k):
             k = raised
             ev = CachedEvaluator(net, choices, evaluation_method(model), warm=False)(k)
@@ -183,9 +181,8 @@ def size_to_targets(network, options: SizingOptions, *, progress=None, t_start=N
     if found.stopped_by_time:
         warnings.append("the local search was cut short by its safety stop, so the plan "
                         "depends on this machine's speed")
-    rules = check_rules(network, choices, k) if ruled else ()
     return make_plan(
-        network, net, choices, k, ev, lower_bound=value, gap=gap, status=status, rules=rules,
+        network, net, choices, k, ev, lower_bound=value, gap=gap, status=status,
         message=message, iterations=best.iterations, solver=options.solver,
         seconds=time.perf_counter() - t_start, baseline=base, model=model,
         details={
