@@ -261,3 +261,37 @@ def test_check_rules_names_a_group_below_its_minimum():
     (rule,) = check_rules(net, SizingChoices.from_network(net), [3])
     assert not rule.met
     assert rule.why == "link 'AB': built with 3 units, below min_capacity 8"
+
+
+ALTERNATE = """\
+name: alt
+sites: [A, B, C, D]
+routing: {policy: alternate}
+defaults: {min_capacity: 6}
+links:
+  - {id: AB, ends: [A, B]}
+  - {id: AC, ends: [A, C], fixed_cost: 20}
+  - {id: CB, ends: [C, B], fixed_cost: 20}
+  - {id: AD, ends: [A, D], fixed_cost: 20}
+  - {id: DB, ends: [D, B], fixed_cost: 20}
+demands:
+  - {between: [A, B], traffic: 5, diversity: 3}
+  - {between: [A, C], traffic: 0.2}
+"""
+
+
+def test_rules_under_alternate_routing():
+    net = loads_network(ALTERNATE)
+    plan = dimension(net)
+    caps = [int(c) for c in plan.capacities]
+    # min_capacity from the defaults: every built group has at least 6 units
+    assert all(c == 0 or c >= 6 for c in caps), caps
+    # diversity 3 between A and B: networkx's edge connectivity of the built links
+    assert nx.edge_connectivity(nx.Graph(_built_graph(net, caps)), "A", "B") >= 3
+    assert plan.rules_met and plan.feasible and len(plan.rules) == 6
+
+
+def test_no_rules_no_entries():
+    plan = dimension(loads_network(ONE.format(extra="")))
+    d = plan.to_dict()
+    assert d["rules"] == [] and d["rules_met"] is True
