@@ -295,3 +295,14 @@ def test_no_rules_no_entries():
     plan = dimension(loads_network(ONE.format(extra="")))
     d = plan.to_dict()
     assert d["rules"] == [] and d["rules_met"] is True
+
+
+@pytest.mark.slow
+def test_rules_kept_by_a_verified_plan():
+    # the simulation's calibration re-sizes; the rules are judged again on its plan
+    net = loads_network(TRIANGLE % ", diversity: 2")
+    plan = dimension(net, verify="simulate")
+    caps = [int(c) for c in plan.capacities]
+    assert all(c > 0 for c in caps) and caps[1] >= 4, caps
+    assert plan.rules_met
+    assert nx.edge_connectivity(nx.Graph(_built_graph(net, caps)), "A", "B") >= 2
