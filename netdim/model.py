@@ -73,6 +73,9 @@ class Link:
         ``routing.reservation``.
     line : int or None
         Line of the network file the link was read from (for messages).
+    min_capacity : int or None
+        Design rule: a group the plan builds new (nothing installed) has at least this many
+        units, or none at all; None or 0: no rule.
     """
 
     id: str
@@ -86,6 +89,7 @@ class Link:
     length: float | None = None
     reservation: int | None = None
     line: int | None = field(default=None, compare=False)
+    min_capacity: int | None = None
 
 
 @dataclass(frozen=True)
@@ -139,6 +143,9 @@ class Demand:
     routes_generated : bool
         True when the routes were generated from the topology rather than given in the file
         (not compared).
+    diversity : int
+        Design rule: the plan keeps built every link of at least this many link-disjoint
+        candidate routes of the demand (1: no rule beyond having a route).
     """
 
     id: str
@@ -151,6 +158,7 @@ class Demand:
     value: float | None = None
     line: int | None = field(default=None, compare=False)
     routes_generated: bool = field(default=False, compare=False)
+    diversity: int = 1
 
     @property
     def rate(self) -> float:

@@ -168,6 +168,11 @@ def run(args) -> int:
         names = ", ".join(plan.evaluation.unmet)
         print(f"netdim size: targets not met for {names}", file=sys.stderr)
         return 1
+    if not plan.rules_met:
+        for r in plan.rules:
+            if not r.met:
+                print(f"netdim size: design rule not met: {r.why}", file=sys.stderr)
+        return 1
     if plan.simulated_misses:
         names = ", ".join(plan.simulated_misses)
         print(f"netdim size: targets not met in simulation for {names}", file=sys.stderr)

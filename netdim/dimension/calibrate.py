@@ -19,9 +19,15 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from netdim.dimension.choices import SizingChoices
-from netdim.dimension.local_search import min_modules, search_and_check
+from netdim.dimension.local_search import (
+    CachedEvaluator,
+    evaluation_method,
+    min_modules,
+    search_and_check,
+)
 from netdim.dimension.options import SizingOptions, VerifyOptions, silent
 from netdim.dimension.plan import Baseline, Plan, make_plan
+from netdim.dimension.rules import has_rules, keep_rules
 from netdim.dimension.sizer import size_to_targets
 from netdim.evaluate.result import verdicts
 from netdim.evaluate.simulate import simulate
@@ -213,6 +219,12 @@ def _resize(network, cur, choices, work, orig, sizing, verify, progress):
         found = search_and_check(net_w, choices, cur.modules, min_modules(net_w, choices),
                                  sizing.model, True, sizing.time_limit, progress)
         k, ev = found.modules, found.evaluation
+        if has_rules(network):  # the design rules, as size_to_targets keeps them
+            kept = keep_rules(network, net_w, choices, k)
+            if not np.array_equal(kept, k):
+                k = kept
+                ev = CachedEvaluator(net_w, choices, evaluation_method(sizing.model),
+                                     warm=False)(k)
     else:
         p = size_to_targets(with_targets(network, work), sizing, progress=progress)
         net_w, k, ev = p.network, p.modules, p.evaluation

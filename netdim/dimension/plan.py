@@ -9,6 +9,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from netdim._arrays import frozen as _frozen
+from netdim.dimension.rules import check_rules, has_rules
 from netdim.vocabulary import PlanStatus, Verdict
 
 if TYPE_CHECKING:
@@ -115,6 +116,9 @@ class Plan:
     warnings : tuple of str
     objective : str
         One of :data:`OBJECTIVES`.
+    rules : tuple of RuleCheck
+        Each design rule of the network (``min_capacity``, ``diversity``) judged on the
+        plan; empty when the network has none.
     """
 
     capacities: np.ndarray
@@ -138,6 +142,7 @@ class Plan:
     verification: Evaluation | None = field(default=None, repr=False, compare=False)
     warnings: tuple = ()
     objective: str = "cost"
+    rules: tuple = ()
 
     def __post_init__(self):
         object.__setattr__(self, "capacities", _frozen(self.capacities, np.int64))
@@ -149,6 +154,12 @@ class Plan:
         object.__setattr__(self, "status", PlanStatus(self.status))
         object.__setattr__(self, "dropped_links", tuple(self.dropped_links))
         object.__setattr__(self, "warnings", tuple(self.warnings))
+        object.__setattr__(self, "rules", tuple(self.rules))
+
+    @property
+    def rules_met(self) -> bool:
+        """Every design rule (``min_capacity``, ``diversity``) holds in the plan."""
+        return all(r.met for r in self.rules)
 
     @property
     def feasible(self) -> bool:
@@ -212,6 +223,8 @@ class Plan:
             "message": self.message,
             "warnings": list(self.warnings),
             "verification": _verification_dict(self.verification),
+            "rules": [r.to_dict() for r in self.rules],
+            "rules_met": self.rules_met,
             "details": {
                 k: v
                 for k, v in self.details.items()
@@ -256,8 +269,9 @@ def make_plan(network: Network, net: Network, choices: SizingChoices, modules,
               objective="cost", gap=None, verification=None) -> Plan:
     """The one place a :class:`Plan` is put together from a module vector.
 
-    ``network`` is the network as given (for the ids of links left unbuilt), ``net`` the
-    one the plan is for (routes over dropped links taken away).
+    ``network`` is the network as given (for the ids of links left unbuilt and the design
+    rules, judged here on every plan: :func:`netdim.dimension.rules.check_rules`), ``net``
+    the one the plan is for (routes over dropped links taken away).
     """
     caps = choices.capacity(modules)
     cost = choices.cost(modules)
@@ -287,4 +301,5 @@ def make_plan(network: Network, net: Network, choices: SizingChoices, modules,
         verification=verification,
         warnings=tuple(warnings),
         objective=objective,
+        rules=check_rules(network, choices, modules) if has_rules(network) else (),
     )

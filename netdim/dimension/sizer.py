@@ -36,6 +36,12 @@ from netdim.dimension.local_search import (
 )
 from netdim.dimension.options import SizingOptions, silent
 from netdim.dimension.plan import Baseline, Plan, make_plan
+from netdim.dimension.rules import (
+    forced_links,
+    has_rules,
+    keep_rules,
+    rule_floor,
+)
 from netdim.dimension.secant_milp import MilpResult, solve_secant_milp
 from netdim.errors import ModelTooLargeError
 from netdim.evaluate import evaluate
@@ -98,18 +104,22 @@ def size_to_targets(network, options: SizingOptions, *, progress=None, t_start=N
     if choices is None or base is None:
         choices, base = prepare(network, options)
     model = options.model
+    # Design rules (netdim.dimension.rules): the links of each demand's chosen disjoint
+    # routes are forced, never tried for leaving out.
+    ruled = has_rules(network)
+    forced = forced_links(network)
     run = _sizing_loop(network, choices, options, progress,
-                       fallback=choices.modules_for(base.capacities))
+                       fallback=choices.modules_for(base.capacities), forced=forced)
     best_net, best = network, run
     dropped: list[str] = []
-    candidates = [int(j) for j in np.flatnonzero(choices.droppable)]
+    candidates = [int(j) for j in np.flatnonzero(choices.droppable & ~forced)]
     candidates.sort(key=lambda j: -network.links[j].fixed_cost)
     for j in candidates[:_MAX_DROP_TRIALS]:
         trial_net = best_net.without_links([network.links[j].id])
         if trial_net is None:
             continue
         progress(None, f"trying without link '{network.links[j].id}'")
-        trial = _sizing_loop(trial_net, choices, options, progress)
+        trial = _sizing_loop(trial_net, choices, options, progress, forced=forced)
         cheaper = choices.cost(trial.modules) < choices.cost(best.modules) - 1e-9
         if trial.believed_feasible and cheaper:
             best_net, best = trial_net, trial
@@ -120,16 +130,29 @@ def size_to_targets(network, options: SizingOptions, *, progress=None, t_start=N
                              options.local_search or model != "fixed-point",
                              options.time_limit, progress)
     k, ev = found.modules, found.evaluation
+    if ruled:
+        # The search leaves unbuilt the links no usable route needs (a forced link on a
+        # standby route under fixed routing, say): the rules put them back.
+        raised = keep_rules(network, net, choices, k, forced)
+        if not np.array_equal(raised, k):
+            k = raised
+            ev = CachedEvaluator(net, choices, evaluation_method(model), warm=False)(k)
     cost = choices.cost(k)
+    # The bound is computed without the design rules (floors of the rule-free problem, no
+    # MILP run under the rules): a bound of the problem without them is still a valid lower
+    # bound with them, since adding constraints only raises the optimum.
     bound = lower_bound(network, net, choices, model=model, solver=options.solver,
                         mip_gap=options.mip_gap, time_limit=options.time_limit,
-                        bound_time=options.bound_time, min_modules=best.min_modules,
-                        unthinned_milp=best.unthinned_milp, progress=progress)
+                        bound_time=options.bound_time,
+                        min_modules=min_modules(net, choices) if ruled else best.min_modules,
+                        unthinned_milp=None if ruled else best.unthinned_milp,
+                        progress=progress)
     value = max(bound.value, 0.0) if np.isfinite(bound.value) else 0.0
     kind = bound.kind
     stopped = bound.stopped_by_time
     listing = None
-    if ev.all_met and value < cost * (1 - 1e-9):
+    # The listing of cheaper plans knows nothing of the rules: not run under them.
+    if ev.all_met and value < cost * (1 - 1e-9) and not ruled:
         listing = _list_cheaper(network, choices, model, value, cost, options.bound_time, progress)
         stopped = stopped or listing.stopped_by_time
         if listing.status == "improved":
@@ -224,7 +247,8 @@ class _SizingLoop:
     settled: bool = True  # False: stopped at max_iter with the plans still changing
 
 
-def _sizing_loop(network, choices, options, progress, fallback=None) -> _SizingLoop:
+def _sizing_loop(network, choices, options, progress, fallback=None,
+                 forced=None) -> _SizingLoop:
     alt = network.routing.policy == "alternate"
     model = options.model
     # the peaked model in the loop too: its loads and overflow failures set the budgets, so
@@ -234,6 +258,8 @@ def _sizing_loop(network, choices, options, progress, fallback=None) -> _SizingL
     target = np.array([d.target for d in network.demands], dtype=float)
     bw = np.array([d.bandwidth for d in network.demands], dtype=float)
     kmin = min_modules(network, choices)
+    if forced is not None:
+        kmin = np.maximum(kmin, rule_floor(network, choices, forced))
     loads = first_route_loads(network)
     q = np.ones(len(target))
     prev = None

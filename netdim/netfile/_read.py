@@ -223,7 +223,7 @@ def _build(reader, data, default_name):
     sites = parse_sites(reader, data)
     # without a usable sites section, site names cannot be checked: say so once only
     site_ids = {s.id for s in sites} if isinstance(data.get("sites"), Seq) else None
-    links, unreadable = parse_links(reader, data, site_ids)
+    links, unreadable = parse_links(reader, data, site_ids, defaults)
     if not isinstance(data.get("links"), Seq):
         unreadable.add(_NO_LINKS)  # reported once, not again as "no route" per demand
     demands = parse_demands(reader, data, site_ids, links, unreadable, defaults, routing)

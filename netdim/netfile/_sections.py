@@ -43,14 +43,19 @@ MAX_COORDINATE = 1e15
 SITE_KEYS = ("id", "name", "x", "y")
 LINK_KEYS = (
     "id", "ends", "capacity", "module", "cost_per_module", "fixed_cost", "max_capacity",
-    "installed", "length", "reservation",
+    "installed", "length", "reservation", "min_capacity",
 )
 DEMAND_KEYS = (
     "id", "between", "traffic", "rate", "holding", "bandwidth", "target", "value", "routes",
     # demand over the day (read by netdim.netfile._day)
     "rates", "period", "start", "cyclic", "target_basis",
+    # design rules
+    "diversity",
 )
-DEFAULT_KEYS = ("target", "holding", "period", "cyclic", "target_basis")
+DEFAULT_KEYS = ("target", "holding", "period", "cyclic", "target_basis", "min_capacity",
+                "diversity")
+#: Most link-disjoint routes a demand may ask for (more is taken for a typing mistake).
+MAX_DIVERSITY = 100
 ROUTING_KEYS = ("policy", "max_hops", "reservation", "max_routes")
 STEP_KEYS = ("link", "holding")
 
@@ -106,6 +111,12 @@ def _items(reader, data, key, what, keys, *, bare_ids=False, id_required=True):
         yield line, item, m, ident
 
 
+def _diversity(reader, m, item, default):
+    return reader.number(m, "diversity", item, default, integer=True, low=1,
+                         high=MAX_DIVERSITY,
+                         high_note=f"more than {MAX_DIVERSITY} link-disjoint routes")
+
+
 def _holding(reader, m, key, item, default):
     return reader.number(m, key, item, default, low=0, low_open=True, high=MAX_HOLDING,
                          high_note=f"more than {MAX_HOLDING:g} hours; holding is in hours")
@@ -115,8 +126,10 @@ def _holding(reader, m, key, item, default):
 # Defaults and routing
 # --------------------------------------------------------------------------------------------
 def parse_defaults(reader, data) -> dict:
-    """``{'target', 'holding', 'holding_given'}`` from the ``defaults`` section."""
-    out = {"target": 0.01, "holding": 1.0, "holding_given": False}
+    """``{'target', 'holding', 'holding_given', 'min_capacity', 'diversity'}`` from the
+    ``defaults`` section."""
+    out = {"target": 0.01, "holding": 1.0, "holding_given": False, "min_capacity": None,
+           "diversity": 1}
     m = section(reader, data, "defaults", "mapping")
     if m is None:
         return out
@@ -128,6 +141,13 @@ def parse_defaults(reader, data) -> dict:
         out["target"] = float(target)
     if holding is not BAD:
         out["holding"] = float(holding)
+    min_cap = reader.number(m, "min_capacity", "defaults", None, integer=True, low=0,
+                            high=MAX_UNITS)
+    if min_cap is not BAD:
+        out["min_capacity"] = min_cap
+    diversity = _diversity(reader, m, "defaults", 1)
+    if diversity is not BAD:
+        out["diversity"] = diversity
     # a wrong defaults.holding is reported once, not again for every rate without holding
     out["holding_given"] = m.get("holding") is not None
     return out
@@ -185,7 +205,7 @@ def parse_sites(reader, data) -> list[Site]:
     return sites
 
 
-def parse_links(reader, data, site_ids) -> tuple[list[Link], set[str]]:
+def parse_links(reader, data, site_ids, defaults=None) -> tuple[list[Link], set[str]]:
     """The ``links`` section.
 
     Parameters
@@ -193,6 +213,9 @@ def parse_links(reader, data, site_ids) -> tuple[list[Link], set[str]]:
     site_ids : set of str or None
         Known sites; None when the sites section itself is unusable (ends are then not
         checked against it).
+    defaults : dict, optional
+        What :func:`parse_defaults` returned (its ``min_capacity`` applies to every link
+        that gives none).
 
     Returns
     -------
@@ -216,8 +239,15 @@ def parse_links(reader, data, site_ids) -> tuple[list[Link], set[str]]:
         length = reader.number(m, "length", item, None, low=0, high=MAX_LENGTH)
         reservation = reader.number(m, "reservation", item, None, integer=True, low=0,
                                     high=MAX_UNITS)
+        min_cap = reader.number(m, "min_capacity", item,
+                                (defaults or {}).get("min_capacity"), **units)
         ok = BAD not in (capacity, installed, max_cap, module, cost, fixed, length,
                          reservation)
+        if (min_cap not in (None, BAD) and max_cap not in (None, BAD)
+                and min_cap > max_cap):
+            where = "min_capacity" if "min_capacity" in m else "max_capacity"
+            reader.add(line_of(m, where), item,
+                       f"min_capacity {min_cap} is above max_capacity {max_cap}")
         if ok and max_cap is not None and max_cap < installed:
             reader.add(line_of(m, "max_capacity"), item,
                        f"max_capacity {max_cap} is below installed {installed}")
@@ -243,6 +273,7 @@ def parse_links(reader, data, site_ids) -> tuple[list[Link], set[str]]:
             length=None if length in (None, BAD) else float(length),
             reservation=None if reservation is BAD else reservation,
             line=line,
+            min_capacity=None if min_cap in (None, BAD, 0) else min_cap,
         ))
     return links, unreadable
 
@@ -294,6 +325,7 @@ def parse_demands(reader, data, site_ids, links, unreadable, defaults, routing):
         target = reader.number(m, "target", item, defaults["target"], low=0, low_open=True,
                                high=1, high_open=True)
         value = reader.number(m, "value", item, None, low=0, high=MAX_COST)
+        diversity = _diversity(reader, m, item, defaults.get("diversity", 1))
         if between is None or did is None:
             continue
         hold = 1.0 if holding is BAD else float(holding)
@@ -304,14 +336,15 @@ def parse_demands(reader, data, site_ids, links, unreadable, defaults, routing):
         else:
             routes = parse_routes(reader, m, item, between, hold, routing, context)[0]
         rows.append([line, item, m, did, between, hold, traffic, bandwidth, target, value,
-                     routes])
+                     routes, diversity])
     found = finder.routes_many([between for _, between in pending])
     for (row, _between), ids in zip(pending, found, strict=True):
         rows[row][10] = _generated(reader, rows[row], ids, routing, link_pos, unreadable)
     limits = [_limit(link) for link in links]
     smallest = min((x for x in limits if x is not None), default=None)
     demands = []
-    for line, item, m, did, between, hold, traffic, bandwidth, target, value, routes in rows:
+    for (line, item, m, did, between, hold, traffic, bandwidth, target, value, routes,
+         diversity) in rows:
         generated = m.get("routes") is None
         if routes and bandwidth is not BAD and smallest is not None and bandwidth > smallest:
             _check_bandwidth(reader, m, item, routes, links, limits, bandwidth)
@@ -325,6 +358,7 @@ def parse_demands(reader, data, site_ids, links, unreadable, defaults, routing):
             value=None if value in (None, BAD) else float(value),
             line=line,
             routes_generated=generated,
+            diversity=1 if diversity is BAD else diversity,
         ))
     return demands
 

@@ -154,6 +154,8 @@ def _link_dict(link: Link) -> dict:
         entry["length"] = _num(link.length)
     if link.reservation is not None:
         entry["reservation"] = int(link.reservation)
+    if link.min_capacity:
+        entry["min_capacity"] = int(link.min_capacity)
     return entry
 
 
@@ -169,6 +171,8 @@ def _demand_dict(network, d: Demand, finder, ids) -> dict:
         entry["target"] = _num(d.target)
     if d.value is not None:
         entry["value"] = _num(d.value)
+    if d.diversity != 1:
+        entry["diversity"] = int(d.diversity)
     given = [tuple(ids[j] for j in route.links) for route in d.routes]
     plain = all(h == d.holding for route in d.routes for h in route.holdings)
     if not (plain and given == finder.routes(d.between[0], d.between[1])):

@@ -98,6 +98,13 @@ def format_plan(plan, max_rows=None, kind=None) -> str:
         shown = ", ".join(plan.dropped_links[:20])
         more = f" and {len(plan.dropped_links) - 20} more" if len(plan.dropped_links) > 20 else ""
         out.append(f"not built      {shown}{more}")
+    rules = getattr(plan, "rules", ())
+    if rules:
+        unmet = [r for r in rules if not r.met]
+        out.append(f"design rules   {len(rules) - len(unmet)} of {len(rules)} met "
+                   "(min_capacity, diversity)")
+        for r in unmet:
+            out.append(f"rule not met   {r.why}")
     ver = plan.verification
     if ver is not None:
         d = plan.details
