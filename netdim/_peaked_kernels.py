@@ -32,7 +32,7 @@ def kernels():
     return _K
 
 
-def _build():  # noqa: C901 - one closure per kernel, compiled together
+def _build():  # one closure per kernel, compiled together
     import math
 
     import numba  # heavy import (the compiler), only when a peaked model is first used
@@ -152,7 +152,7 @@ def _build():  # noqa: C901 - one closure per kernel, compiled together
             rr[k - 1, 0, 1] = d0 * n01 / det
             rr[k - 1, 1, 0] = d1 * n10 / det
             rr[k - 1, 1, 1] = -d1 * n00 / det
-        for k in range(0, m):
+        for k in range(m):
             n00 = -(up[k, 0] + k + g)
             n01 = g
             n10 = w

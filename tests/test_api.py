@@ -39,8 +39,8 @@ def test_unknown_name_is_an_attribute_error():
 def test_evaluate_and_dimension_stay_functions_after_their_packages_load():
     # source: the import system binds a subpackage on its parent; the function of the same
     # name must win, as it did when netdim imported everything at once
-    import netdim.dimension.sizer  # noqa: F401
-    import netdim.evaluate.fixed_point  # noqa: F401
+    import netdim.dimension.sizer
+    import netdim.evaluate.fixed_point
 
     assert callable(netdim.evaluate) and netdim.evaluate.__name__ == "evaluate"
     assert callable(netdim.dimension) and netdim.dimension.__name__ == "dimension"

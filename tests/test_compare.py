@@ -7,8 +7,8 @@ import pytest
 from netdim.report.text import CAUTION
 
 pytest.importorskip("netdim.evaluate.fixed_point")
-from netdim.evaluate.compare import compare_methods  # noqa: E402
-from netdim.report.comparison import comparison_text  # noqa: E402
+from netdim.evaluate.compare import compare_methods
+from netdim.report.comparison import comparison_text
 
 
 @pytest.mark.slow

@@ -245,7 +245,7 @@ def test_economic_single_link_is_moes_optimum():
     net = Network("one", (Site("A"), Site("B")),
                   (Link("AB", ("A", "B"), cost_per_module=0.2),),
                   (Demand("AB", ("A", "B"), 12.0, value=1.0, routes=(R(0),)),))
-    ref = max(range(0, 60), key=lambda n: 12.0 * (1 - erlang_b(12.0, n)) - 0.2 * n)
+    ref = max(range(60), key=lambda n: 12.0 * (1 - erlang_b(12.0, n)) - 0.2 * n)
     plan = dimension(net, objective="net-value")
     assert plan.status == "economic" and plan.objective == "net-value"
     assert int(plan.capacities[0]) == ref

@@ -158,7 +158,7 @@ def test_alternate_routing_plan_meets_targets_and_is_least_cost_under_exact():
     # this checks the search, not the evaluation.
     net = overflow_triangle()
     best = math.inf
-    for caps in itertools.product(range(0, 7), range(0, 7), range(0, 6)):
+    for caps in itertools.product(range(7), range(7), range(6)):
         cost = caps[0] + caps[1] + 2 * caps[2]
         if cost < best and evaluate(net, np.array(caps), method="exact").all_met:
             best = cost

@@ -203,8 +203,7 @@ def test_multirate_two_links_thinned_per_class():
     ev = fixed_point(network(caps, [(1.5, [[0, 1]]), (1.0, [[0, 1]])], bandwidths=[1, 2]))
 
     def link(a1, a2):
-        p = product_form_blocking([8, 8], [[0], [0]], [a1, a2], [1, 2])
-        return p
+        return product_form_blocking([8, 8], [[0], [0]], [a1, a2], [1, 2])
     b = np.zeros(2)
     for _ in range(300):
         b = link(1.5 * (1 - b[0]), 1.0 * (1 - b[1]))

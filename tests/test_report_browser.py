@@ -24,14 +24,14 @@ import numpy as np
 import pytest
 
 pytest.importorskip("matplotlib")
-from _chromium import Chromium, find_chromium  # noqa: E402
-from PIL import Image  # noqa: E402  (pillow comes with matplotlib)
+from _chromium import Chromium, find_chromium
+from PIL import Image
 
-import netdim  # noqa: E402
-from netdim.cli import main  # noqa: E402
-from netdim.evaluate import default_method  # noqa: E402
-from netdim.report import figures  # noqa: E402
-from netdim.report.html import (  # noqa: E402
+import netdim
+from netdim.cli import main
+from netdim.evaluate import default_method
+from netdim.report import figures
+from netdim.report.html import (
     chart_section,
     evaluation_html,
     html_document,

@@ -17,12 +17,12 @@ import pytest
 
 pytest.importorskip("matplotlib")
 
-from test_report_html import Page, page_text  # noqa: E402
+from test_report_html import Page, page_text
 
-from netdim.cli import main  # noqa: E402
-from netdim.errors import NetdimError  # noqa: E402
-from netdim.report import figures  # noqa: E402
-from netdim.report.page import is_report  # noqa: E402
+from netdim.cli import main
+from netdim.errors import NetdimError
+from netdim.report import figures
+from netdim.report.page import is_report
 
 NETWORKS = pathlib.Path(__file__).parent.parent / "networks"
 BUNDLED = ["regional-telephone.yaml", "campus-parking.yaml", "three-villages.yaml"]

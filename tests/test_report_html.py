@@ -22,11 +22,11 @@ import pytest
 
 pytest.importorskip("matplotlib")
 
-import netdim  # noqa: E402
-from netdim.errors import NetdimError  # noqa: E402
-from netdim.report import figures  # noqa: E402
-from netdim.report.cells import decimals_for, prob_cells  # noqa: E402
-from netdim.report.html import (  # noqa: E402
+import netdim
+from netdim.errors import NetdimError
+from netdim.report import figures
+from netdim.report.cells import decimals_for, prob_cells
+from netdim.report.html import (
     Section,
     chart_section,
     combined_verdicts,
@@ -35,7 +35,7 @@ from netdim.report.html import (  # noqa: E402
     plan_html,
     write_report,
 )
-from netdim.report.words import cautions  # noqa: E402
+from netdim.report.words import cautions
 
 NETWORKS = os.path.join(os.path.dirname(__file__), "..", "networks")
 

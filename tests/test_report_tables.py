@@ -50,7 +50,7 @@ def tables(text):
         units = lines[k - 1] if head is not lines[k - 1] else ""
         rows = []
         for row in lines[k + 1:]:
-            if not row or row.startswith("  ") or row.startswith("..."):
+            if not row or row.startswith(("  ", "...")):
                 break
             rows.append(re.split(r" {2,}", row.strip()))
         assert all(len(r) == len(widths) for r in rows), (head, rows[:2])

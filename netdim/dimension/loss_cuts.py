@@ -311,7 +311,7 @@ def _lower_faces(cs, nus, phi):
     try:
         eq = ConvexHull(np.column_stack([N.ravel(), C.ravel().astype(float),
                                          np.asarray(phi, float).ravel()])).equations
-    except Exception:  # noqa: BLE001 - a flat or degenerate grid: no faces
+    except Exception:  # a flat or degenerate grid: no faces
         return None
     low = eq[:, 2] < -1e-12
     a, b, cz, dd = eq[low].T

@@ -204,7 +204,7 @@ class Plan:
             }
             for j, lid in enumerate(link_ids)
         ]
-        out = {
+        return {
             "cost": float(self.cost),
             "lower_bound": float(self.lower_bound),
             "gap": float(self.gap),
@@ -231,7 +231,6 @@ class Plan:
                 if isinstance(v, (int, float, str, bool, list, type(None)))
             },
         }
-        return out
 
 
 def _verification_dict(ev):

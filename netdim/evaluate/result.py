@@ -222,8 +222,7 @@ class Evaluation:
         """Carried load over capacity per link (0 where capacity is 0)."""
         cap = self.capacity.astype(float)
         with np.errstate(divide="ignore", invalid="ignore"):
-            u = np.where(cap > 0, self.link_carried / np.where(cap > 0, cap, 1.0), 0.0)
-        return u
+            return np.where(cap > 0, self.link_carried / np.where(cap > 0, cap, 1.0), 0.0)
 
     # -- output -----------------------------------------------------------------------------
     def demand_records(self) -> list[dict]:

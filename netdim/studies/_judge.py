@@ -45,7 +45,7 @@ def judge(evaluation, target=None) -> np.ndarray:
 
 def overall(values) -> Verdict:
     """One verdict for many: missed if any is, else unclear if any is, else met."""
-    values = set(str(v) for v in values)
+    values = {str(v) for v in values}
     if Verdict.MISSED.value in values:
         return Verdict.MISSED
     if Verdict.UNCLEAR.value in values:

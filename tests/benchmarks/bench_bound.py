@@ -23,9 +23,9 @@ import time
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 
-from bench_size import mesh  # noqa: E402
+from bench_size import mesh
 
-from netdim.dimension import (  # noqa: E402
+from netdim.dimension import (
     SizingChoices,
     carried_load_bound,
     dimension,

@@ -40,9 +40,9 @@ from scipy import special
 
 sys.path.insert(0, str(pathlib.Path(__file__).resolve().parents[1]))
 
-from erlang_mpmath import mp_erlang  # noqa: E402
+from erlang_mpmath import mp_erlang
 
-from netdim.erlang import erlang_b, log_erlang_b, servers_for, traffic_for  # noqa: E402
+from netdim.erlang import erlang_b, log_erlang_b, servers_for, traffic_for
 
 
 def median_time(fn, repeats=3):

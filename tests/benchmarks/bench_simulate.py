@@ -29,11 +29,11 @@ import time
 
 sys.path.insert(0, str(pathlib.Path(__file__).resolve().parent))
 
-from bench_fixed_point import mesh  # noqa: E402
+from bench_fixed_point import mesh
 
-from netdim.erlang import servers_for  # noqa: E402
-from netdim.evaluate.simulate import simulate  # noqa: E402
-from netdim.netfile import read_network  # noqa: E402
+from netdim.erlang import servers_for
+from netdim.evaluate.simulate import simulate
+from netdim.netfile import read_network
 
 NETWORKS = pathlib.Path(__file__).resolve().parents[2] / "networks"
 

@@ -116,7 +116,7 @@ def run_in_process(argv, seconds, clock="cpu"):
         return -1, out.getvalue(), err.getvalue(), "hang"
     except MemoryError:
         return -1, out.getvalue(), err.getvalue(), "memory"
-    except BaseException as exc:  # noqa: BLE001 - any escape is what we count
+    except BaseException as exc:
         tb = traceback.format_exception(exc)
         return -1, out.getvalue(), err.getvalue() + "".join(tb[-3:]), "traceback"
     finally:
