@@ -181,9 +181,10 @@ def run(args) -> int:
               file=sys.stderr)
 
     table = t_range or s_range or p_range
-    for r in rows:
-        for key, value in r.items():
-            r[key] = _json_number(value)
+    if args.csv or args.json:
+        for r in rows:
+            for key, value in r.items():
+                r[key] = _json_number(value)
     if args.csv:
         write_erlang_csv(rows, args.csv)
     if args.json:
@@ -193,7 +194,8 @@ def run(args) -> int:
     headers = ["traffic (E)", "servers", "blocking"] + (["target"] if solving else [])
     computed_traffic = solving and servers is not None
     columns = [
-        fixed_column([r["traffic"] for r in rows], 4) if computed_traffic
+        # computed traffic: 4 decimals, more (or scientific) when tiny, as probabilities
+        prob_column([r["traffic"] for r in rows]) if computed_traffic
         else _given_column([r["traffic"] for r in rows]),
         _given_column([r["servers"] for r in rows]),
         prob_column([r["blocking"] for r in rows]),
@@ -209,9 +211,9 @@ def run(args) -> int:
 
 def _given_column(values, most=6):
     """Numbers as given, with the same decimals down the column: the fewest (at most
-    ``most``) that show every value exactly, else ``most``."""
+    ``most``) that show every value exactly; else each in 6 significant digits."""
     for decimals in range(most + 1):
         if all(abs(float(f"{v:.{decimals}f}") - v) <= 1e-12 * max(1.0, abs(v))
                for v in values):
-            break
-    return fixed_column(values, decimals)
+            return fixed_column(values, decimals)
+    return [_fmt(v) for v in values]
