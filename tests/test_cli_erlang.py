@@ -56,7 +56,7 @@ def test_range_table_and_json(capsys):
     # source: erlang_b (each row), range ends included
     code, out, _ = run(capsys, "--servers", "10:60:5", "--traffic", "30")
     lines = out.strip().splitlines()
-    assert code == 0 and len(lines) == 2 + 11
+    assert code == 0 and len(lines) == 2 + 11 + 1  # header, rule, rows, legend
     assert lines[2].split()[:2] == ["30", "10"]
     code, out, _ = run(capsys, "--traffic", "1:20:1", "--target", "0.05", "--json")
     rows = json.loads(out)
@@ -116,7 +116,7 @@ def test_no_traffic_needs_no_servers_and_loses_nothing(capsys):
     assert code == 0 and err == ""
     assert json.loads(out) == {"traffic": 0.0, "servers": 0, "blocking": 0.0, "target": 0.01}
     code, out, _ = run(capsys, "--traffic", "0", "--servers", "0")
-    assert code == 0 and out.splitlines()[2].split() == ["0", "0", "0"]
+    assert code == 0 and [float(x) for x in out.splitlines()[2].split()] == [0, 0, 0]
     code, out, _ = run(capsys, "--traffic", "0:2:1", "--target", "0.01", "--json")
     rows = json.loads(out)
     assert rows[0]["servers"] == 0 and rows[0]["blocking"] == 0.0

@@ -6,6 +6,7 @@ import json
 
 from netdim.cli._files import add_file_options, file_limits
 from netdim.netfile import read_network
+from netdim.report.tables_csv import write_check_csv
 
 __all__ = ["register", "run"]
 
@@ -24,6 +25,9 @@ def register(subparsers):
     p.add_argument("--routes", action="store_true",
                    help="also list every demand's routes in the order they are tried "
                    "(with --json: under 'demand_routes')")
+    p.add_argument("--csv", metavar="DIR",
+                   help="also write DIR/summary.csv (one row: the --json summary) and, with "
+                   "--routes, DIR/routes.csv (one row per route step)")
     add_file_options(p)
     p.set_defaults(func=run)
 
@@ -35,6 +39,8 @@ def _n(count, word):
 def run(args) -> int:
     net = read_network(args.file, **file_limits(args))
     s = net.summary()
+    if args.csv:
+        write_check_csv(s, args.csv, net.route_listing() if args.routes else None)
     if args.json:
         out = {"valid": True, **s}
         if args.routes:

@@ -7,7 +7,8 @@ import math
 import sys
 
 from netdim.erlang import MAX_ARG, MAX_TRAFFIC_SIZED, erlang_b, servers_for, traffic_for
-from netdim.report.text import fmt_prob, fmt_short, format_table
+from netdim.report.tables_csv import write_erlang_csv
+from netdim.report.text import fixed_column, fmt_short, format_table, legend_lines, prob_column
 
 __all__ = ["register", "run", "parse_values"]
 
@@ -36,6 +37,8 @@ def register(subparsers):
     p.add_argument("--target", metavar="P",
                    help="blocking target in (0, 1), e.g. 0.01 (or a range)")
     p.add_argument("--json", action="store_true", help="print JSON instead of a table")
+    p.add_argument("--csv", metavar="DIR",
+                   help="also write DIR/erlang.csv (the rows --json prints, one per line)")
     p.set_defaults(func=run)
     return p
 
@@ -178,25 +181,39 @@ def run(args) -> int:
               file=sys.stderr)
 
     table = t_range or s_range or p_range
-    if args.json:
+    if args.csv or args.json:
         for r in rows:
             for key, value in r.items():
                 r[key] = _json_number(value)
+    if args.csv:
+        write_erlang_csv(rows, args.csv)
+    if args.json:
         print(json.dumps(rows if table else rows[0], allow_nan=False))
         return 0
-    headers = ["traffic (E)", "servers", "blocking"]
     solving = target is not None
+    headers = ["traffic (E)", "servers", "blocking"] + (["target"] if solving else [])
+    computed_traffic = solving and servers is not None
+    columns = [
+        # computed traffic: 4 decimals, more (or scientific) when tiny, as probabilities
+        prob_column([r["traffic"] for r in rows]) if computed_traffic
+        else _given_column([r["traffic"] for r in rows]),
+        _given_column([r["servers"] for r in rows]),
+        prob_column([r["blocking"] for r in rows]),
+    ]
     if solving:
-        headers.append("target")
-    body = []
-    for r in rows:
-        row = [
-            f"{r['traffic']:.4f}" if solving and servers is not None else _fmt(r["traffic"]),
-            _fmt(r["servers"]),
-            fmt_prob(r["blocking"]),
-        ]
-        if solving:
-            row.append(_fmt(r["target"]))
-        body.append(row)
+        columns.append(_given_column([r["target"] for r in rows]))
+    body = [list(cells) for cells in zip(*columns, strict=True)]
     print(format_table(headers, body, align="r" * len(headers)))
+    print(legend_lines("blocking: share of offered calls lost (Erlang's loss formula)"
+                       + ("; target: the blocking asked for" if solving else "")))
     return 0
+
+
+def _given_column(values, most=6):
+    """Numbers as given, with the same decimals down the column: the fewest (at most
+    ``most``) that show every value exactly; else each in 6 significant digits."""
+    for decimals in range(most + 1):
+        if all(abs(float(f"{v:.{decimals}f}") - v) <= 1e-12 * max(1.0, abs(v))
+               for v in values):
+            return fixed_column(values, decimals)
+    return [_fmt(v) for v in values]
