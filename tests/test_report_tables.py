@@ -119,7 +119,9 @@ def test_evaluate_table_is_golden_and_equals_the_json(name, capsys, monkeypatch)
 def test_size_table_is_golden_and_equals_the_json(capsys, monkeypatch):
     monkeypatch.chdir(ROOT)
     path = "networks/three-villages.yaml"
-    argv = ["size", path, "--quiet", "--bound-time", "5"]
+    # time enough for the listing of cheaper plans to end on a slow machine: the bound (and
+    # the status it gives) must not depend on the machine's speed
+    argv = ["size", path, "--quiet", "--bound-time", "600"]
     status, text = _run(capsys, argv)
     assert status == 0
     # the time taken differs from run to run
