@@ -29,6 +29,7 @@ from PIL import Image  # noqa: E402  (pillow comes with matplotlib)
 
 import netdim  # noqa: E402
 from netdim.cli import main  # noqa: E402
+from netdim.evaluate import default_method  # noqa: E402
 from netdim.report import figures  # noqa: E402
 from netdim.report.html import (  # noqa: E402
     chart_section,
@@ -37,6 +38,11 @@ from netdim.report.html import (  # noqa: E402
     plan_html,
     write_report,
 )
+from netdim.studies.compare import compare_designs  # noqa: E402
+from netdim.studies.failures import failure_study  # noqa: E402
+from netdim.studies.growth import growth_study  # noqa: E402
+from netdim.studies.headroom import headroom_study  # noqa: E402
+from netdim.studies.variants import build_variant, parse_variants  # noqa: E402
 
 NETWORKS = pathlib.Path(__file__).parent.parent / "networks"
 WIDTH = 1400
@@ -96,7 +102,10 @@ def _pages(tmp_path):
         path = tmp_path / f"cli-{name}.html"
         src = str(NETWORKS / f"{name}.yaml")
         assert main(["report", src, "-o", str(path)]) in (0, 1)
-        d = netdim.evaluate(netdim.read_network(src)).to_dict()
+        # the command evaluates by evaluate's default method (the peaked fixed point under
+        # alternate routing), not the library's plain fixed point
+        src_net = netdim.read_network(src)
+        d = netdim.evaluate(src_net, method=default_method(src_net)).to_dict()
         want = [r["id"] for r in d["demands"]] + [r["id"] for r in d["links"]]
         want += [f"{100 * r['utilisation']:.1f}" for r in d["links"]]
         out.append((f"report {name}", str(path), {"fig-map", "fig-curves"}, want))
@@ -106,6 +115,18 @@ def _pages(tmp_path):
     out.append(("size three-villages", str(path), {"fig-map", "fig-curves", "fig-cost-target"},
                 ["ASH-BRY", "BRY-CLV", "ASH-CLV", "How good the plan is",
                  "Cost against target"]))
+
+    # each study's report as its command writes it; the text holds the figures of --json
+    villages = str(NETWORKS / "three-villages.yaml")
+    for command, extra, fig in (("failures", [], "fig-failures"),
+                                ("headroom", [], "fig-headroom"),
+                                ("growth", ["--rate", "30%", "--years", "2", "--start",
+                                            "installed"], "fig-growth"),
+                                ("compare", ["--variants", "mesh", "--no-failures"],
+                                 "fig-compare")):
+        path = tmp_path / f"study-{command}.html"
+        assert main([command, villages, *extra, "--quiet", "--report", str(path)]) in (0, 1)
+        out.append((f"{command} three-villages", str(path), {fig}, _study_words(command)))
 
     charts = [
         chart_section("cost", "Cost against target", figures.cost_against_target(
@@ -120,6 +141,26 @@ def _pages(tmp_path):
     path = write_report(html_document("Study charts", charts), tmp_path / "charts.html")
     out.append(("study charts", path, {f"fig-{s.id}" for s in charts}, ["Study charts"]))
     return out
+
+
+def _study_words(command):
+    """Strings a study's page must show: its ids and figures formatted as the page does,
+    from the study run again through the library (the same figures --json prints)."""
+    net = netdim.read_network(NETWORKS / "three-villages.yaml")
+    if command == "failures":
+        d = failure_study(net).to_dict()
+        return [f"link {r['element']}" for r in d["failures"]] + \
+            [f"{r['worst_blocking']:.4f}" for r in d["failures"]]
+    if command == "headroom":
+        d = headroom_study(net).to_dict()
+        return [f"{d['multiplier']:.4f}"] + [f"{h['multiplier']:.4f}" for h in d["demands"]]
+    if command == "growth":
+        d = growth_study(net, rate=0.3, years=2, start="installed").to_dict()
+        return [f"year {y['year']}" for y in d["years"]] + [r["id"] for r in d["links"]]
+    variant = build_variant(net, parse_variants("mesh")[0])[0]
+    d = compare_designs([("three-villages", net), ("mesh", variant)], failures=False).to_dict()
+    return [r["name"] for r in d["designs"]] + [f"{r['worst_blocking']:.4f}"
+                                                 for r in d["designs"]]
 
 
 def _drawn(png, box):
