@@ -586,12 +586,12 @@ def headroom_chart(scopes, multipliers, *, bracket=None, unbounded_at=None) -> s
         if not ok:
             bar.set_hatch("//")
             bar.set_alpha(0.6)
-    ax.axvline(1.0, color=_INK, lw=1, ls=":", label="today's traffic")
+    ax.axvline(1.0, color=_INK, lw=1, ls=":", label="today's traffic", zorder=3)
     if bracket is not None and bracket[0] is not None:
         low = float(bracket[0])
         high = low if bracket[1] is None else float(bracket[1])
-        ax.axvspan(low, max(high, low * 1.004), color="#2f5d8a", alpha=0.35,
-                   label=f"all demands together: holds at {low:.4g}, fails at {high:.4g}")
+        ax.axvspan(low, max(high, low * 1.004), color="#2f5d8a", alpha=0.5, zorder=3,
+                   label=f"all demands together: holds at {low:.4f}, fails at {high:.4f}")
     ax.set_yticks(y, [str(s) for s in scopes])
     if len(finite) and shown.max() / max(shown.min(), 1e-12) > 20:
         ax.set_xscale("log")

@@ -276,17 +276,20 @@ def headroom_page(study, *, title=None) -> StudyPage:
     else:
         lead = (f"Some target already fails at today's traffic: targets hold only up to "
                 f"{u.multiplier:.4f} times it; {u.fails_first} fails first.")
-    sections = []
-    if study.per_demand:
-        svg = headroom_chart([h.scope for h in study.per_demand],
-                             [math.nan if h.multiplier is None else h.multiplier
-                              for h in study.per_demand],
-                             bracket=(u.multiplier, u.above))
-        caption = ("Each demand alone grown: the largest multiplier of its traffic at which "
-                   "every target still holds (hatched: no limit found). The band is the "
-                   "bracket of every demand grown together; the dotted line today's traffic.")
-        sections.append(Section("headroom", "Headroom of each demand",
-                                figure_html(svg, caption, "fig-headroom")))
+    # without the per-demand searches, one bar: every demand grown together
+    # least headroom first (no limit found last), as the text table
+    bars = sorted(study.per_demand, key=lambda h: math.inf if h.multiplier is None
+                  else h.multiplier) or [u]
+    svg = headroom_chart(["every demand together" if h.scope == "all" else h.scope
+                          for h in bars],
+                         [math.nan if h.multiplier is None else h.multiplier for h in bars],
+                         bracket=(u.multiplier, u.above))
+    caption = ("Each demand alone grown, least headroom first: the largest multiplier of its "
+               "traffic at which every target still holds (hatched: no limit found). The "
+               "band is the bracket of every demand grown together; the dotted line today's "
+               "traffic.")
+    sections = [Section("headroom", "Headroom of each demand",
+                        figure_html(svg, caption, "fig-headroom"))]
     facts = [("every demand together: holds at", _times(u.multiplier)),
              ("fails at", _times(u.above)), ("fails first", u.fails_first or "-"),
              ("method", study.method), ("bracket within", f"{100 * study.tol:g} %")]
