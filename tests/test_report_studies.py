@@ -9,6 +9,7 @@ checked are whatever the run produced, never hard-coded.
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import pathlib
 
@@ -18,8 +19,11 @@ pytest.importorskip("matplotlib")
 
 from test_report_html import Page  # noqa: E402
 
+import netdim  # noqa: E402
 from netdim.cli import main  # noqa: E402
 from netdim.report.page import is_report  # noqa: E402
+from netdim.report.studies import headroom_page  # noqa: E402
+from netdim.studies.headroom import headroom_study  # noqa: E402
 
 NETWORKS = pathlib.Path(__file__).parent.parent / "networks"
 VILLAGES = str(NETWORKS / "three-villages.yaml")
@@ -213,3 +217,20 @@ def test_study_report_errors(tmp_path, capsys):
         main(["headroom", VILLAGES, "--report", "r.html", "--kind", "road"])
     assert exc.value.code == 2
     assert "argument --kind: invalid choice: 'road'" in capsys.readouterr().err
+
+
+def test_headroom_page_says_a_target_already_fails_only_when_it_does():
+    # The three villages with every demand's traffic doubled: the study's own search puts the
+    # uniform multiplier below 1, and the lead must say a target fails today, not that it holds.
+    net = netdim.read_network(VILLAGES)
+    doubled = dataclasses.replace(net, demands=tuple(
+        dataclasses.replace(d, traffic=2 * d.traffic) for d in net.demands))
+    study = headroom_study(doubled, per_demand=False)
+    u = study.uniform
+    assert u.multiplier < 1  # what the search found, not assumed
+    page = headroom_page(study)
+    assert page.lead == (f"Some target already fails at today's traffic: targets hold only "
+                         f"up to {u.multiplier:.4f} times it; {u.fails_first} fails first.")
+    # without the per-demand searches the chart still shows every demand grown together
+    assert [s.id for s in page.sections] == ["headroom", "headroom-table"]
+    assert "every demand together" in page.sections[1].body
