@@ -38,6 +38,11 @@ from netdim.report.html import (
     plan_html,
     write_report,
 )
+from netdim.studies.compare import compare_designs
+from netdim.studies.failures import failure_study
+from netdim.studies.growth import growth_study
+from netdim.studies.headroom import headroom_study
+from netdim.studies.variants import build_variant, parse_variants
 
 NETWORKS = pathlib.Path(__file__).parent.parent / "networks"
 WIDTH = 1400
@@ -110,6 +115,18 @@ def _pages(tmp_path):
                 ["ASH-BRY", "BRY-CLV", "ASH-CLV", "How good the plan is",
                  "Cost against target"]))
 
+    # each study's report as its command writes it; the text holds the figures of --json
+    villages = str(NETWORKS / "three-villages.yaml")
+    for command, extra, fig in (("failures", [], "fig-failures"),
+                                ("headroom", [], "fig-headroom"),
+                                ("growth", ["--rate", "30%", "--years", "2", "--start",
+                                            "installed"], "fig-growth"),
+                                ("compare", ["--variants", "mesh", "--no-failures"],
+                                 "fig-compare")):
+        path = tmp_path / f"study-{command}.html"
+        assert main([command, villages, *extra, "--quiet", "--report", str(path)]) in (0, 1)
+        out.append((f"{command} three-villages", str(path), {fig}, _study_words(command)))
+
     charts = [
         chart_section("cost", "Cost against target", figures.cost_against_target(
             [0.005, 0.01, 0.02], [700.0, 600.0, 520.0], current=0.01), "demo"),
@@ -123,6 +140,26 @@ def _pages(tmp_path):
     path = write_report(html_document("Study charts", charts), tmp_path / "charts.html")
     out.append(("study charts", path, {f"fig-{s.id}" for s in charts}, ["Study charts"]))
     return out
+
+
+def _study_words(command):
+    """Strings a study's page must show: its ids and figures formatted as the page does,
+    from the study run again through the library (the same figures --json prints)."""
+    net = netdim.read_network(NETWORKS / "three-villages.yaml")
+    if command == "failures":
+        d = failure_study(net).to_dict()
+        return [f"link {r['element']}" for r in d["failures"]] + \
+            [f"{r['worst_blocking']:.4f}" for r in d["failures"]]
+    if command == "headroom":
+        d = headroom_study(net).to_dict()
+        return [f"{d['multiplier']:.4f}"] + [f"{h['multiplier']:.4f}" for h in d["demands"]]
+    if command == "growth":
+        d = growth_study(net, rate=0.3, years=2, start="installed").to_dict()
+        return [f"year {y['year']}" for y in d["years"]] + [r["id"] for r in d["links"]]
+    variant = build_variant(net, parse_variants("mesh")[0])[0]
+    d = compare_designs([("three-villages", net), ("mesh", variant)], failures=False).to_dict()
+    return [r["name"] for r in d["designs"]] + [f"{r['worst_blocking']:.4f}"
+                                                 for r in d["designs"]]
 
 
 def _drawn(png, box):

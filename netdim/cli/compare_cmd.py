@@ -8,8 +8,10 @@ import sys
 
 from netdim.cli._files import add_file_options, file_limits
 from netdim.cli._study_options import add_common, fraction, progress_for
+from netdim.cli.report_cmd import add_report_options, check_report_args, write_sections_report
 from netdim.dimension import MODELS, SOLVERS, SizingOptions
 from netdim.netfile import read_network
+from netdim.report.studies import common_target, compare_page
 from netdim.studies.compare import compare_designs
 from netdim.studies.tables import compare_csv, compare_text, write_csv
 from netdim.studies.variants import build_variant, parse_variants
@@ -45,6 +47,7 @@ def register(subparsers):
     p.add_argument("--time-limit", type=float, default=None, metavar="S",
                    help="safety stop of each MILP, seconds")
     add_common(p)
+    add_report_options(p)
     add_file_options(p)
     p.set_defaults(func=run)
     return p
@@ -57,6 +60,7 @@ def _names(files):
 
 
 def run(args) -> int:
+    check_report_args(args, inputs=args.files, outputs=[args.csv])
     try:
         sizing = SizingOptions(model=args.model, solver=args.solver, mip_gap=args.gap,
                                time_limit=args.time_limit)
@@ -89,6 +93,10 @@ def run(args) -> int:
             if text.startswith(name + ":"):
                 raise ValueError(flag + text[len(name):]) from None
         raise
+    if args.report:
+        targets = {common_target(n) for n in networks}
+        page = compare_page(result, target=targets.pop() if len(targets) == 1 else None)
+        write_sections_report(args, page.title, page.sections, lead=page.lead)
     if args.csv:
         write_csv(args.csv, "compare.csv", *compare_csv(result))
     if args.json:

@@ -7,8 +7,10 @@ import sys
 
 from netdim.cli._files import add_file_options, file_limits
 from netdim.cli._study_options import add_common, fraction, id_list, positive_int, progress_for
+from netdim.cli.report_cmd import add_report_options, check_report_args, write_sections_report
 from netdim.evaluate import METHODS
 from netdim.netfile import read_network
+from netdim.report.studies import failures_page
 from netdim.studies.diversity import route_diversity
 from netdim.studies.failures import failure_study
 from netdim.studies.tables import diversity_text, failures_csv, failures_text, write_csv
@@ -44,12 +46,14 @@ def register(subparsers):
                    help="also name the demands with fewer than K link-disjoint candidate "
                    "routes (and what the links would allow)")
     add_common(p)
+    add_report_options(p)
     add_file_options(p)
     p.set_defaults(func=run)
     return p
 
 
 def run(args) -> int:
+    check_report_args(args, inputs=[args.file], outputs=[args.csv])
     options = {}
     if args.seed is not None:
         if args.method != "simulate":
@@ -73,6 +77,9 @@ def run(args) -> int:
     short = []
     if args.diversity is not None:
         short = [d for d in route_diversity(network) if d.disjoint_routes < args.diversity]
+    if args.report:
+        page = failures_page(study, title=f"{network.name}: single failures")
+        write_sections_report(args, page.title, page.sections, lead=page.lead)
     if args.csv:
         write_csv(args.csv, "failures.csv", *failures_csv(study))
     if args.json:

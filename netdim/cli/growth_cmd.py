@@ -7,8 +7,10 @@ import sys
 
 from netdim.cli._files import add_file_options, file_limits
 from netdim.cli._study_options import add_common, fraction, positive_int, progress_for
+from netdim.cli.report_cmd import add_report_options, check_report_args, write_sections_report
 from netdim.dimension import MODELS, SOLVERS, SizingOptions
 from netdim.netfile import read_network
+from netdim.report.studies import growth_page
 from netdim.studies.growth import STARTS, file_rates, growth_study
 from netdim.studies.tables import growth_csv, growth_text, write_csv
 
@@ -45,6 +47,7 @@ def register(subparsers):
     p.add_argument("--time-limit", type=float, default=None, metavar="S",
                    help="safety stop of each MILP, seconds")
     add_common(p, workers=False)
+    add_report_options(p)
     add_file_options(p)
     p.set_defaults(func=run)
     return p
@@ -63,6 +66,7 @@ def _flagged(exc, where):
 
 
 def run(args) -> int:
+    check_report_args(args, inputs=[args.file], outputs=[args.csv])
     try:
         sizing = SizingOptions(model=args.model, solver=args.solver, mip_gap=args.gap,
                                time_limit=args.time_limit)
@@ -79,6 +83,9 @@ def run(args) -> int:
                              progress=progress_for(args, "growth"))
     except ValueError as exc:
         raise _flagged(exc, args.file) from None
+    if args.report:
+        page = growth_page(study, network=network, title=f"{network.name}: growth plan")
+        write_sections_report(args, page.title, page.sections, lead=page.lead)
     if args.csv:
         write_csv(args.csv, "growth.csv", *growth_csv(study))
     if args.json:

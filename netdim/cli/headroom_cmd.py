@@ -7,7 +7,9 @@ import sys
 
 from netdim.cli._files import add_file_options, file_limits
 from netdim.cli._study_options import add_common, fraction, progress_for
+from netdim.cli.report_cmd import add_report_options, check_report_args, write_sections_report
 from netdim.netfile import read_network
+from netdim.report.studies import headroom_page
 from netdim.studies.headroom import DEFAULT_TOL, HEADROOM_METHODS, headroom_study
 from netdim.studies.tables import headroom_csv, headroom_text, write_csv
 
@@ -33,12 +35,14 @@ def register(subparsers):
     p.add_argument("--no-per-demand", action="store_true",
                    help="only the uniform multiplier")
     add_common(p)
+    add_report_options(p)
     add_file_options(p)
     p.set_defaults(func=run)
     return p
 
 
 def run(args) -> int:
+    check_report_args(args, inputs=[args.file], outputs=[args.csv])
     network = read_network(args.file, **file_limits(args))
     try:
         study = headroom_study(network, method=args.method, tol=args.tol,
@@ -53,6 +57,9 @@ def run(args) -> int:
         if text.startswith(args.file):
             raise
         raise ValueError(f"{args.file}: {text}") from None
+    if args.report:
+        page = headroom_page(study, title=f"{network.name}: headroom")
+        write_sections_report(args, page.title, page.sections, lead=page.lead)
     if args.csv:
         write_csv(args.csv, "headroom.csv", *headroom_csv(study))
     if args.json:

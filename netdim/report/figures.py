@@ -33,6 +33,7 @@ __all__ = [
     "failure_chart",
     "growth_chart",
     "comparison_chart",
+    "headroom_chart",
     "LAYOUT_SEED",
     "require_matplotlib",
 ]
@@ -456,7 +457,7 @@ def failure_chart(failed, worst_blocking, *, target=None, missed=None) -> str:
     return _svg(matplotlib, fig, "worst blocking after each failure")
 
 
-def growth_chart(years, costs, *, worst_blocking=None, target=None) -> str:
+def growth_chart(years, costs, *, worst_blocking=None, target=None, capacity=None) -> str:
     """Cost by year of traffic growth, and the worst blocking if the plan is not grown.
 
     Parameters
@@ -468,6 +469,8 @@ def growth_chart(years, costs, *, worst_blocking=None, target=None) -> str:
         Worst demand blocking each year (e.g. at today's capacities), a second panel.
     target : float, optional
         Target line in the blocking panel.
+    capacity : array_like of float, optional
+        Capacity in place at the end of each year (all links), a panel of its own.
 
     Returns
     -------
@@ -475,21 +478,29 @@ def growth_chart(years, costs, *, worst_blocking=None, target=None) -> str:
         An ``<svg>`` element.
     """
     yr, c = np.asarray(years), np.asarray(costs, float)
-    _check_lengths("growth_chart", yr, c, worst_blocking)
-    panels = 1 if worst_blocking is None else 2
+    _check_lengths("growth_chart", yr, c, worst_blocking, capacity)
+    panels = 1 + (capacity is not None) + (worst_blocking is not None)
     matplotlib, fig = _figure(6.0, 2.6 * panels)
     axes = fig.subplots(panels, 1, sharex=True, squeeze=False).ravel()
     axes[0].plot(yr, c, "o-", color="#2f5d8a")
     axes[0].set_ylabel("cost")
+    axes[0].set_ylim(0, max(1.0, 1.1 * float(np.nanmax(c))))  # costs are never negative
+    k = 1
+    if capacity is not None:
+        cap = np.asarray(capacity, float)
+        axes[k].step(yr, cap, "o-", where="post", color=_OK)
+        axes[k].set_ylim(0, max(1.0, 1.1 * float(np.nanmax(cap))))
+        axes[k].set_ylabel("capacity in place")
+        k += 1
     if worst_blocking is not None:
         wb = np.maximum(np.asarray(worst_blocking, float), _FLOOR)
-        axes[1].plot(yr, wb, "o-", color=_MISS)
-        axes[1].set_yscale("log")
-        _log_axis(axes[1].yaxis)
-        axes[1].set_ylabel("worst blocking")
+        axes[k].plot(yr, wb, "o-", color=_MISS)
+        axes[k].set_yscale("log")
+        _log_axis(axes[k].yaxis)
+        axes[k].set_ylabel("worst blocking")
         if target is not None:
-            axes[1].axhline(float(target), color=_INK, lw=1, ls="--", label=f"target {target:g}")
-            axes[1].legend(fontsize=8, frameon=False)
+            axes[k].axhline(float(target), color=_INK, lw=1, ls="--", label=f"target {target:g}")
+            axes[k].legend(fontsize=8, frameon=False)
     for ax in axes:
         ax.grid(True, color="#e4e4e4", lw=0.6)
     axes[-1].set_xlabel("year")
@@ -536,3 +547,55 @@ def comparison_chart(names, costs, *, worst_blocking=None, target=None) -> str:
     for ax in axes:
         ax.grid(True, axis="x", color="#e4e4e4", lw=0.6)
     return _svg(matplotlib, fig, "comparison of the variants")
+
+
+def headroom_chart(scopes, multipliers, *, bracket=None, unbounded_at=None) -> str:
+    """How far each demand alone can grow, as horizontal bars, with the network's bracket.
+
+    Parameters
+    ----------
+    scopes : sequence of str
+        One per bar (a demand id).
+    multipliers : array_like of float
+        Largest traffic multiplier at which every target still holds with that demand
+        alone grown; NaN where none was found below ``unbounded_at`` (drawn hatched there).
+    bracket : (float, float), optional
+        The multiplier of every demand grown together at which every target holds, and the
+        one at which some target fails: a shaded band.
+    unbounded_at : float, optional
+        Where to draw the bars with no limit found (default twice the largest one).
+
+    Returns
+    -------
+    str
+        An ``<svg>`` element.
+    """
+    m = np.asarray(multipliers, float)
+    _check_lengths("headroom_chart", scopes, m)
+    n = len(m)
+    finite = m[np.isfinite(m)]
+    top = float(unbounded_at) if unbounded_at is not None else \
+        (2.0 * float(finite.max()) if len(finite) else 2.0)
+    shown = np.where(np.isfinite(m), m, top)
+    matplotlib, fig = _figure(6.0, 1.4 + 0.28 * n)
+    ax = fig.add_subplot()
+    y = np.arange(n)[::-1]
+    colour = [_MISS if v < 1 else _OK for v in shown]
+    bars = ax.barh(y, shown, color=colour, height=0.65)
+    for bar, ok in zip(bars, np.isfinite(m), strict=True):
+        if not ok:
+            bar.set_hatch("//")
+            bar.set_alpha(0.6)
+    ax.axvline(1.0, color=_INK, lw=1, ls=":", label="today's traffic", zorder=3)
+    if bracket is not None and bracket[0] is not None:
+        low = float(bracket[0])
+        high = low if bracket[1] is None else float(bracket[1])
+        ax.axvspan(low, max(high, low * 1.004), color="#2f5d8a", alpha=0.5, zorder=3,
+                   label=f"all demands together: holds at {low:.4f}, fails at {high:.4f}")
+    ax.set_yticks(y, [str(s) for s in scopes])
+    if len(finite) and shown.max() / max(shown.min(), 1e-12) > 20:
+        ax.set_xscale("log")
+    ax.set_xlabel("traffic multiplier at which every target still holds")
+    ax.grid(True, axis="x", color="#e4e4e4", lw=0.6)
+    fig.legend(fontsize=8, frameon=False, loc="outside lower center", ncols=2)
+    return _svg(matplotlib, fig, "headroom of each demand")
