@@ -18,6 +18,8 @@ PACKAGE = Path(__file__).resolve().parent.parent / "netdim"
 ALLOWED_LOCAL = {
     ("netdim.evaluate.simulate", "netdim.evaluate._simkernel"):
         "the compiled event loop needs numba, about a second to import: only when simulating",
+    ("netdim._peaked_kernels", "netdim._peaked_compiled"):
+        "the peaked model's compiled kernels need numba: only when a peaked model is used",
     ("netdim.cli.report_cmd", "netdim.report.html"):
         "the page builders import the sizing package (PuLP): only when a report is written",
     ("netdim.cli.report_cmd", "netdim.report.sweep"):
