@@ -5,9 +5,12 @@ import subprocess
 import sys
 from pathlib import Path
 
+import pytest
+
 NETWORKS = Path(__file__).resolve().parent.parent / "networks"
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_closed_pipe_is_quiet():
     # Source: common practice, no source (a reader that stops early, such as `head`, closes
     # the pipe; the writer stops without a message, with the shell's status 128 + SIGPIPE).

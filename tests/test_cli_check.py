@@ -158,6 +158,7 @@ def test_check_max_file_size(small, capsys):
 
 
 @pytest.mark.parametrize("command", [["evaluate"], ["size", "--quiet"]])
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_evaluate_and_size_take_the_file_size_limit_too(small, capsys, command):
     """`--max-file-size` applies to every command that reads a network file (issue 19),
     with the same one-line refusal as `check`'s."""

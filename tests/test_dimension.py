@@ -320,6 +320,7 @@ def test_exact_model_refuses_large_networks():
         dimension(big, model="exact")
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_milp_stopped_at_its_time_limit_is_not_called_optimal():
     # PuLP reads a HiGHS stop at the time limit with a solution in hand as 'Optimal'; the
     # MILP must say 'time-limit' (or 'error' with no solution yet), and a bound it gives

@@ -219,6 +219,7 @@ def test_seven_sites_bound_respects_whole_modules_and_fixed_costs():
 
 
 # -- every solve honours the solver asked for ----------------------------------------------
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_every_model_is_solved_by_the_solver_asked_for(monkeypatch):
     from netdim.dimension import _lp as lp
 

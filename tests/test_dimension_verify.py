@@ -117,6 +117,7 @@ def test_verify_none_is_no_verification():
 
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_cli_verify_json_has_the_verification(line_yaml, tmp_path, capsys):
     # Fixed routing: the fixed-point plan of the line network (least cost 118, see
     # tests/test_dimension.py) also meets its targets under the product form, so the

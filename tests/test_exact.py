@@ -178,6 +178,7 @@ def _states_by_formula(cap):
     return m * (m + 1) * (2 * m + 1) // 6
 
 
+@pytest.mark.slow  # about a second: out of the quick round (issue 13)
 def test_huge_state_space_is_refused_before_anything_is_built():
     # Source: the count of states in closed form (sum of squares); before, this case tried
     # to allocate 30.5 GiB. The estimate (Knuth 1975) must be of the right order.
@@ -256,6 +257,7 @@ def test_a_stagnating_solve_is_not_called_exact(monkeypatch):
 
 
 @pytest.mark.parametrize("holding, rtol", [(50, 1e-10), (500, 1e-10), (5e-6, 1e-7)])
+@pytest.mark.slow  # about a second: out of the quick round (issue 13)
 def test_a_slow_demand_within_reach_is_solved_to_the_direct_solution(holding, rtol, monkeypatch):
     """Holding times up to 1e4 apart converge: they agree with scipy's sparse LU (spsolve,
     used here on the whole chain; 1e-8 measured at 5e-6 h beside 0.05 h)."""

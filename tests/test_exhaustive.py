@@ -70,6 +70,7 @@ def test_plans_by_cost_lists_every_plan_in_the_window_cheapest_first():
     assert ex.plans_by_cost(space, lo, hi, np.ones(3, bool), limit=3) is None
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_triangle_least_cost_from_a_dear_start_equals_exhaustive_search():
     # Reference: exhaustive search with the independent fixed point of test_dimension_small.
     costs = (1.0, 1.5, 3.0)

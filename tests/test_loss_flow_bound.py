@@ -93,6 +93,7 @@ CASES = [("triangle r=1", triangle, 16), ("parallel r=0", lambda: parallel(0), 1
 
 
 @pytest.mark.parametrize("name,make,budget", CASES, ids=[c[0] for c in CASES])
+@pytest.mark.slow  # about a second: out of the quick round (issue 13)
 def test_bound_below_least_cost_by_exhaustive_search(name, make, budget):
     net = make()
     best = least_cost(net, budget)
@@ -108,6 +109,7 @@ def test_bound_below_least_cost_by_exhaustive_search(name, make, budget):
 
 
 @pytest.mark.parametrize("name,make,budget", CASES, ids=[c[0] for c in CASES])
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_sizer_plan_is_least_cost_by_exhaustive_search(name, make, budget):
     # The plan's cost equals the least cost of the exhaustive search above under the
     # fixed-point model, and lies at or above the bound the sizer reports.
@@ -196,12 +198,14 @@ def mesh5():
     return network(links, demands, reservation=2)
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_bound_tighter_than_lp_bound_on_a_mesh():
     # a performance claim (validity is the exhaustive search above)
     net = mesh5()
     assert loss_flow_bound(net).value > 1.03 * lp_bound(net)
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_not_applicable_returns_none():
     # fixed routing, multi-rate demands, a demand without routes: no loss-flow bound (the
     # sizer then uses the carried-load bound)
@@ -225,6 +229,7 @@ def test_bad_options(kw, word):
         loss_flow_bound(triangle(), **kw)
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_hull_slopes_raise_the_relaxation():
     # the slopes from the grid's lower hull give a higher LP value than the load derivative
     # alone (their validity is the exhaustive-search test above)
@@ -233,6 +238,7 @@ def test_hull_slopes_raise_the_relaxation():
     assert loss_flow_bound(net).value > 1.01 * plain
 
 
+@pytest.mark.slow  # about a second: out of the quick round (issue 13)
 def test_one_input_gives_one_bound():
     # the work is bounded by rounds and nodes, not by time: repeated runs agree exactly,
     # and a longer safety stop changes nothing when it does not fire
@@ -242,6 +248,7 @@ def test_one_input_gives_one_bound():
         assert not any(b.stopped_by_time for b in runs)
 
 
+@pytest.mark.slow  # about a second: out of the quick round (issue 13)
 def test_sizer_reports_the_loss_flow_bound_under_alternate_routing():
     # The plan's lower bound is the loss-flow bound (or, once every cheaper plan is listed
     # and evaluated, the least cost), at most the least cost by exhaustive search (above)

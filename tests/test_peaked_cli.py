@@ -75,6 +75,7 @@ def test_check_sets_the_peaked_fixed_point_beside_the_others(capsys):
     assert "The peaked fixed point (overflow's bursts followed) lies outside" in text
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_size_picks_the_model_by_routing(capsys):
     # source: the plan's own evaluation; the model named in the JSON
     assert main(["size", str(VILLAGES), "--json", "--quiet"]) == 0

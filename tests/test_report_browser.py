@@ -174,6 +174,7 @@ def _drawn(png, box):
     return inked / max(1, len(px)), colours
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_reports_render_in_headless_chromium(browser, tmp_path):
     import json
 

@@ -70,6 +70,7 @@ def _umask():
     return mask
 
 
+@pytest.mark.slow  # about a second: out of the quick round (issue 13)
 def test_evaluate_report_is_the_report_commands_page(tmp_path, capsys):
     net = str(NETWORKS / "three-villages.yaml")
     a, b = tmp_path / "a.html", tmp_path / "b.html"
@@ -98,6 +99,7 @@ def test_simulated_report_names_the_seed_and_holds_the_intervals(tmp_path, capsy
         assert float(cells[rec["id"]]["attrs"]["data-high"]) == hi
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_size_report_holds_the_plan_of_size_json(tmp_path, capsys):
     net = str(NETWORKS / "three-villages.yaml")
     out, plan_file = tmp_path / "plan.html", tmp_path / "plan.yaml"
@@ -121,6 +123,7 @@ def test_size_report_holds_the_plan_of_size_json(tmp_path, capsys):
 
 
 # -- what a report may write over --------------------------------------------------------------
+@pytest.mark.slow  # about a second: out of the quick round (issue 13)
 def test_a_report_replaces_an_earlier_report_but_no_other_file(tmp_path, capsys):
     net = str(NETWORKS / "three-villages.yaml")
     mine = tmp_path / "notes.html"
@@ -238,6 +241,7 @@ def _same_number(text, value):
     return float(text) == float(value)
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_size_csv_equals_the_json(tmp_path, capsys):
     net = str(NETWORKS / "three-villages.yaml")
     out = tmp_path / "csv"
@@ -321,6 +325,7 @@ def test_a_study_adds_its_sections_through_the_same_helpers(tmp_path):
     assert is_report(tmp_path / "b.html")
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_cost_against_target_in_the_size_report(tmp_path, capsys):
     # Every demand of the three villages has target 0.02, so the sweep's row at 0.02 is the
     # plan itself (size --json); a looser target never costs more where each plan is the

@@ -210,6 +210,7 @@ def test_demands_and_links_are_listed_worst_first(regional):
     assert [lkey[i] for i in lshown] == sorted(lkey[i] for i in lshown)
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_plan_tables_hold_the_figures_of_to_dict(campus_plan):
     net, plan, text = campus_plan
     page = Page(text)
@@ -277,6 +278,7 @@ def test_simulation_intervals_and_verdicts(villages_simulated):
     assert "seed 11" in assumptions
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_verified_plan_shows_the_simulation_beside_the_model(villages_verified):
     net, plan, text = villages_verified
     page = Page(text)
@@ -504,6 +506,7 @@ def _comments(svg):
     return re.findall(r"<!-- (.*?) -->", svg)
 
 
+@pytest.mark.slow  # about a second: out of the quick round (issue 13)
 def test_study_charts_draw_their_labels_and_are_deterministic():
     charts = {
         "cost": lambda: figures.cost_against_target([0.001, 0.01, 0.05], [900.0, 600.0, 450.0],

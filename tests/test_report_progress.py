@@ -10,6 +10,8 @@ from __future__ import annotations
 import pathlib
 import re
 
+import pytest
+
 import netdim
 from netdim.cli import main
 from netdim.evaluate import default_method
@@ -72,6 +74,7 @@ def test_verbose_passes_every_message_with_its_share():
     assert shown == ["50% round 1: LP", "round 2: LP"]
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_size_prints_a_summary_and_the_whole_trace_with_v(capsys):
     net = NETWORKS / "three-villages.yaml"
     recorded = []

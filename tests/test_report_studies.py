@@ -103,6 +103,7 @@ def test_headroom_report_holds_the_figures_of_headroom_json(tmp_path, capsys):
                            f"{d['above']:.4f} times; {d['fails_first']} fails first.")
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_growth_report_holds_the_figures_of_growth_json(tmp_path, capsys):
     page, html, d = _page_and_json(capsys, tmp_path, "growth", GROWTH)
     assert "fig-growth" in page.ids
@@ -135,6 +136,7 @@ def test_growth_report_holds_the_figures_of_growth_json(tmp_path, capsys):
                                   "every target")
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_compare_report_holds_the_figures_of_compare_json(tmp_path, capsys):
     page, html, d = _page_and_json(capsys, tmp_path, "compare", COMPARE)
     assert "fig-compare" in page.ids

@@ -116,6 +116,7 @@ def test_evaluate_table_is_golden_and_equals_the_json(name, capsys, monkeypatch)
     assert status == (0 if all(r["verdict"] == "met" for r in d["demands"]) else 1)
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_size_table_is_golden_and_equals_the_json(capsys, monkeypatch):
     monkeypatch.chdir(ROOT)
     path = "networks/three-villages.yaml"
@@ -168,6 +169,7 @@ def test_bounds_are_named_in_plain_words(kind, words):
 
 
 @pytest.mark.parametrize("kind", ["telephone", "parking"])
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_text_caution_follows_the_kind(kind, capsys):
     # The caution a planner's figures rest on: emergency-call capacity for trunk groups,
     # parking provision and accessible spaces for car parks, follow local codes and licensed

@@ -105,6 +105,7 @@ def test_build_variant_errors():
 
 
 # -- a comparison row equals sizing that design alone ------------------------------------------
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_rows_equal_sizing_each_design_alone():
     net = read_network(VILLAGES)
     star, _ = build_variant(net, Variant("star", ("ASH",)))
@@ -120,6 +121,7 @@ def test_rows_equal_sizing_each_design_alone():
     assert cmp.cheapest == "file"
 
 
+@pytest.mark.slow  # about a second: out of the quick round (issue 13)
 def test_a_pair_one_design_does_not_carry_is_named():
     full = read_network(VILLAGES)
     less = Network("less", full.sites, full.links, full.demands[:2], routing=full.routing)
@@ -140,6 +142,7 @@ def test_compare_errors():
 
 
 # -- command line ------------------------------------------------------------------------------
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_cli_variants_json(capsys):
     assert main(["compare", str(VILLAGES), "--variants", "mesh,star:ASH", "--json",
                  "--quiet"]) == 0
@@ -181,6 +184,7 @@ def test_pool_gives_the_serial_rows():
     assert compare_designs(designs, workers=2).to_dict() == compare_designs(designs).to_dict()
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_installed_capacity_is_counted_and_the_cost_marked():
     from dataclasses import replace
 

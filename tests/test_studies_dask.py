@@ -48,6 +48,7 @@ def test_cli_scheduler(cluster, capsys):
     assert '"count": 3' in capsys.readouterr().out
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_unreachable_scheduler_is_one_line(monkeypatch, capsys):
     monkeypatch.setattr(_sweep, "CONNECT_TIMEOUT", 1)
     status = main(["failures", str(VILLAGES), "--scheduler", "tcp://127.0.0.1:9"])

@@ -43,6 +43,7 @@ def test_parallel_groups_are_each_sized_for_the_other_ones_failure():
     assert plan.cost == int(plan.capacities.sum()) and plan.intact_cost == plan.capacities[0]
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_villages_every_failure_within_target_when_evaluated_afresh():
     net = read_network(VILLAGES)
     plan = survivable_plan(net, target=0.05)
@@ -80,6 +81,7 @@ def test_bad_arguments_are_named(kwargs, match):
         survivable_plan(net, **{"target": None, **kwargs})
 
 
+@pytest.mark.slow  # over 1 s: out of the quick round (issue 13)
 def test_cli_survive_json_and_out(tmp_path, capsys):
     out = tmp_path / "plan.yaml"
     assert main(["size", str(VILLAGES), "--survive", "5%", "--json", "--quiet",
