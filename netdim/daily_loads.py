@@ -48,6 +48,7 @@ from netdim._day_closures import (
     offered_for_carried,
     scale_to_occupancy,
 )
+from netdim.day_profile import link_day_records
 from netdim.erlang import erlang_b
 from netdim.errors import ConvergenceError
 from netdim.linkmodels import reservation_link_many
@@ -150,23 +151,7 @@ class DayEvaluation:
             }
             for i, d in enumerate(self.demand_ids)
         ]
-        links = [
-            {
-                "id": lid,
-                "capacity": int(self.capacity[j]),
-                "blocking_by_period": self.link_blocking[j].tolist(),
-                "occupancy": {
-                    "mean": self.occupancy_mean[j].tolist(),
-                    "quantile_level": self.quantile,
-                    "quantile": self.occupancy_quantile[j].tolist(),
-                    "peak": float(self.peak_occupancy[j]),
-                    "peak_time": float(self.peak_time[j]),
-                    "peak_quantile": int(self.occupancy_quantile[j].max()),
-                },
-                "offered_load": self.offered_load[j].tolist(),
-            }
-            for j, lid in enumerate(self.link_ids)
-        ]
+        links = link_day_records(self)
         return {
             "method": self.method,
             "cyclic": self.cyclic,

@@ -11,8 +11,8 @@ import math
 
 import numpy as np
 
-__all__ = ["TARGET_BASES", "period_lengths", "day_grid", "offered_load", "worst_period",
-           "check_rates", "check_holding"]
+__all__ = ["TARGET_BASES", "link_day_records", "period_lengths", "day_grid", "offered_load",
+           "worst_period", "check_rates", "check_holding"]
 
 #: What a blocking target applies to: the worst period of the day, or the day's lost share.
 TARGET_BASES = ("peak", "day")
@@ -101,3 +101,25 @@ def check_holding(holding) -> float:
     if not (math.isfinite(h) and h > 0):
         raise ValueError(f"holding: must be a number of hours > 0, got {holding!r}")
     return h
+
+
+def link_day_records(result) -> list:
+    """The ``links`` records of a day result's ``to_dict()`` (the network method's and the
+    simulation's share them): capacity, blocking and occupancy by period, offered load."""
+    return [
+        {
+            "id": lid,
+            "capacity": int(result.capacity[j]),
+            "blocking_by_period": result.link_blocking[j].tolist(),
+            "occupancy": {
+                "mean": result.occupancy_mean[j].tolist(),
+                "quantile_level": result.quantile,
+                "quantile": result.occupancy_quantile[j].tolist(),
+                "peak": float(result.peak_occupancy[j]),
+                "peak_time": float(result.peak_time[j]),
+                "peak_quantile": int(result.occupancy_quantile[j].max(initial=0)),
+            },
+            "offered_load": result.offered_load[j].tolist(),
+        }
+        for j, lid in enumerate(result.link_ids)
+    ]

@@ -606,6 +606,7 @@ def test_sizing_an_imported_topology_meets_targets_by_erlang_b(erlang_b_ref):
     for d in net.demands:
         for j in d.routes[0].links:
             load[j] += d.traffic
+    assert net.demands  # the bound is checked on every demand, so there must be some
     for d in net.demands:
         ok = 1.0
         for j in d.routes[0].links:
@@ -628,6 +629,7 @@ def test_sizing_sndlib_polska_with_its_demands(tmp_path, erlang_b_ref):
     for d in net.demands:
         for j in d.routes[0].links:
             load[j] += d.traffic
+    assert net.demands  # the bound is checked on every demand, so there must be some
     for d in net.demands:
         ok = math.prod(1 - erlang_b_ref(load[j], caps[j]) for j in d.routes[0].links)
         assert 1 - ok <= d.target * (1 + 1e-9)

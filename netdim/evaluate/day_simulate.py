@@ -34,7 +34,13 @@ from dataclasses import dataclass
 import numpy as np
 
 from netdim._arrays import frozen
-from netdim.day_profile import day_grid, offered_load, period_lengths, worst_period
+from netdim.day_profile import (
+    day_grid,
+    link_day_records,
+    offered_load,
+    period_lengths,
+    worst_period,
+)
 from netdim.errors import ModelTooLargeError
 from netdim.evaluate.intervals import batch_means, blocking_interval
 
@@ -118,23 +124,7 @@ class DaySimulation:
             }
             for i, d in enumerate(self.demand_ids)
         ]
-        links = [
-            {
-                "id": lid,
-                "capacity": int(self.capacity[j]),
-                "blocking_by_period": self.link_blocking[j].tolist(),
-                "occupancy": {
-                    "mean": self.occupancy_mean[j].tolist(),
-                    "quantile_level": self.quantile,
-                    "quantile": self.occupancy_quantile[j].tolist(),
-                    "peak": float(self.peak_occupancy[j]),
-                    "peak_time": float(self.peak_time[j]),
-                    "peak_quantile": int(self.occupancy_quantile[j].max(initial=0)),
-                },
-                "offered_load": self.offered_load[j].tolist(),
-            }
-            for j, lid in enumerate(self.link_ids)
-        ]
+        links = link_day_records(self)
         return {"method": "simulate", "cyclic": self.cyclic, "days": self.days,
                 "seed": self.seed, "arrivals": self.arrivals, "confidence": self.confidence,
                 "period_hours": self.period_hours.tolist(), "times": self.times.tolist(),
