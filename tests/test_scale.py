@@ -13,6 +13,7 @@ import pathlib
 import re
 import time
 
+from netdim.cli import main
 from netdim.dimension import dimension
 from netdim.model import Demand, Link, Network, Route, Site
 from netdim.netfile import read_network
@@ -69,3 +70,54 @@ def test_the_bound_time_counts_building_the_model(monkeypatch):
     assert bound.stopped_by_time
     assert bound.rounds == 1
     assert bound.seconds >= 0.5
+
+
+def _many_links(tmp_path, n=60, capacity=2):
+    """``n`` separate one-link trunk groups, 5 E each (demo data)."""
+    text = ["name: many groups", "defaults: {target: 0.01}", "sites:"]
+    text += [f"  - {{id: S{i}}}" for i in range(n + 1)]
+    text.append("links:")
+    text += [f"  - {{id: L{i}, ends: [S0, S{i + 1}], capacity: {capacity}, module: 1}}"
+             for i in range(n)]
+    text.append("demands:")
+    text += [f"  - {{id: D{i}, between: [S0, S{i + 1}], traffic: 5}}" for i in range(n)]
+    path = tmp_path / "many.yaml"
+    path.write_text("\n".join(text) + "\n")
+    return str(path)
+
+
+def _table_rows(out, prefix):
+    return [ln for ln in out.splitlines() if ln.split() and re.fullmatch(prefix + r"\d+",
+                                                                         ln.split()[0])]
+
+
+def test_evaluate_on_a_large_network_prints_the_worst_rows_and_names_a_few(tmp_path, capsys):
+    # Every demand misses: E(5, 2) = 12.5 / 18.5 = 0.676 > 0.01 (the Erlang B formula).
+    path = _many_links(tmp_path)
+    assert main(["evaluate", path]) == 1
+    out, err = capsys.readouterr()
+    assert len(_table_rows(out, "D")) == 40 and len(_table_rows(out, "L")) == 40
+    assert "Demands (60, worst first), worst 40 shown" in out
+    assert "(tables cut to their worst 40 rows; --all prints every row" in out
+    names = ", ".join(f"D{i}" for i in range(20))
+    assert err.strip().splitlines() == [
+        f"netdim evaluate: 60 of 60 demands missed the target: {names} and 40 more "
+        "(--csv or --json lists every demand)"]
+    assert main(["evaluate", path, "--all"]) == 1
+    out, _ = capsys.readouterr()
+    assert len(_table_rows(out, "D")) == 60 and len(_table_rows(out, "L")) == 60
+    assert "tables cut" not in out
+
+
+def test_size_on_a_large_network_prints_the_busiest_links_first(tmp_path, capsys):
+    path = _many_links(tmp_path)
+    assert main(["size", path, "--quiet"]) == 0
+    out, _ = capsys.readouterr()
+    links = _table_rows(out, "L")
+    assert len(links) == 40 and len(_table_rows(out, "D")) == 40
+    assert "Links (60, busiest first, 40 shown)" in out
+    util = [float(ln.split()[4]) for ln in links]
+    assert util == sorted(util, reverse=True)
+    assert main(["size", path, "--quiet", "--all"]) == 0
+    out, _ = capsys.readouterr()
+    assert len(_table_rows(out, "L")) == 60 and "tables cut" not in out

@@ -7,6 +7,7 @@ import sys
 import time
 
 from netdim.cli._files import add_file_options, file_limits
+from netdim.cli._rows import add_rows_option, rows_note, rows_shown
 from netdim.cli.report_cmd import add_report_options, check_report_args, write_evaluation_report
 from netdim.evaluate import (
     COMPARE_OPTIONS,
@@ -86,6 +87,7 @@ def register(subparsers):
                    "--calls arrivals)")
     p.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     add_report_options(p)
+    add_rows_option(p)
     add_file_options(p)
     p.set_defaults(func=run)
     return p
@@ -150,6 +152,17 @@ def _check_flags(args, method):
     return given
 
 
+#: Demands named on the stderr line of missed (or unclear) ones; the rest are counted.
+_NAMES_SHOWN = 20
+
+
+def _names(ids) -> str:
+    if len(ids) <= _NAMES_SHOWN:
+        return ", ".join(ids)
+    return (", ".join(ids[:_NAMES_SHOWN]) + f" and {len(ids) - _NAMES_SHOWN} more "
+            "(--csv or --json lists every demand)")
+
+
 def _report_verdicts(ids, verdicts) -> int:
     """Name the missed and the unclear demands on stderr; the exit status."""
     n = len(ids)
@@ -157,11 +170,11 @@ def _report_verdicts(ids, verdicts) -> int:
     unclear = [i for i, v in zip(ids, verdicts, strict=True) if v == Verdict.UNCLEAR.value]
     of = f"of {n} demand{'' if n == 1 else 's'}"
     if missed:
-        print(f"netdim evaluate: {len(missed)} {of} missed the target: {', '.join(missed)}",
+        print(f"netdim evaluate: {len(missed)} {of} missed the target: {_names(missed)}",
               file=sys.stderr)
     if unclear:
         print(f"netdim evaluate: {len(unclear)} {of} unclear (the interval contains the "
-              f"target): {', '.join(unclear)}", file=sys.stderr)
+              f"target): {_names(unclear)}", file=sys.stderr)
     return 1 if missed or unclear else 0
 
 
@@ -223,6 +236,10 @@ def run(args) -> int:
         print(json.dumps(ev.to_dict(), indent=2))
     else:
         title = f"{network.name} ({args.file})"
-        text = evaluation_text(ev, title=title, kind=args.kind, network=network)
+        text = evaluation_text(ev, title=title, limit=rows_shown(args), kind=args.kind,
+                               network=network)
         print(text if ev.day is None else with_day_text(text, ev), end="")
+        note = rows_note(args, len(ev.link_ids), len(ev.demand_ids))
+        if note:
+            print(note)
     return _report_verdicts(ev.demand_ids, ev.verdicts())

@@ -6,6 +6,7 @@ import json
 import sys
 
 from netdim.cli._files import add_file_options, file_limits
+from netdim.cli._rows import add_rows_option, rows_note, rows_shown
 from netdim.cli._survive import add_survive_options, run_survivable
 from netdim.cli.report_cmd import add_report_options, check_report_args, write_plan_report
 from netdim.dimension import (
@@ -88,6 +89,7 @@ def register(subparsers):
     p.add_argument("-v", "--verbose", action="store_true",
                    help="every progress line (the full trace); default a few summary lines")
     add_report_options(p, force=False, targets=True)
+    add_rows_option(p)
     add_survive_options(p)
     add_file_options(p)
     p.set_defaults(func=run)
@@ -159,9 +161,13 @@ def run(args) -> int:
     if args.json:
         print(json.dumps(plan.to_dict(), indent=2))
     elif plan.details.get("day"):
-        print(day_plan_text(format_plan(plan, kind=args.kind), plan).rstrip("\n"))
+        print(day_plan_text(format_plan(plan, max_rows=rows_shown(args), kind=args.kind),
+                            plan).rstrip("\n"))
     else:
-        print(format_plan(plan, kind=args.kind))
+        print(format_plan(plan, max_rows=rows_shown(args), kind=args.kind))
+    note = rows_note(args, len(plan.capacities), len(plan.evaluation.demand_ids))
+    if note and not args.json:
+        print(note)
     for w in plan.warnings:
         print(f"netdim size: warning: {w}", file=sys.stderr)
     if not plan.feasible:

@@ -62,8 +62,13 @@ def format_plan(plan, max_rows=None, kind=None) -> str:
                [str(int(m)) for m in plan.modules], cost_column(plan.link_costs),
                percent_column(ev.utilisation),
                [str(int(c)) for c in plan.baseline_capacities]]
+    rows = list(zip(*columns, strict=True))
+    if max_rows is not None and len(rows) > max_rows:
+        # cut short: the busiest links first, where a planner looks first
+        rows = [rows[j] for j in np.argsort(-np.asarray(ev.utilisation), kind="stable")]
+        out[-1] = f"Links ({len(rows)}, busiest first, {max_rows} shown)"
     out.append(_table(["link", "capacity", "modules", "cost", "utilisation", "baseline"],
-                      list(zip(*columns, strict=True)), max_rows,
+                      rows, max_rows,
                       units=["", f"({unit})", "(added)", "", "(%)", f"({unit})"]))
     baseline = ("each link sized alone by Erlang B for its demands" if net_value else
                 "each link sized alone by Erlang B for its demands' target / hops")
