@@ -650,8 +650,8 @@ def test_import_option_errors():
         import_topology(zoo("Abilene"), Uniform(1.0), routes="all")
     with pytest.raises(ValueError, match=r"max_routes: must be a whole number in \[1, 10000\]"):
         import_topology(zoo("Abilene"), Uniform(1.0), max_routes=0)
-    with pytest.raises(ValueError, match=r"max_hops: must be a whole number in \[1, 20\]"):
-        import_topology(zoo("Abilene"), Uniform(1.0), max_hops=21)
+    with pytest.raises(ValueError, match=r"max_hops: must be a whole number in \[1, 64\]"):
+        import_topology(zoo("Abilene"), Uniform(1.0), max_hops=65)
     with pytest.raises(ValueError, match=r"reservation: must be a whole number in \[0, "):
         import_topology(zoo("Abilene"), Uniform(1.0), reservation=-1)
     with pytest.raises(ValueError, match=r"capacity: must be a whole number in \[0, "):

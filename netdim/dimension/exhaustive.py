@@ -19,7 +19,6 @@ depend on the machine; a deadline is only a safety stop, reported when it fires.
 
 from __future__ import annotations
 
-import itertools
 import time
 from dataclasses import dataclass
 from enum import Enum
@@ -204,10 +203,11 @@ def least_cost_by_enumeration(network, choices: SizingChoices, method, lo, hi,
     Exhaustive search with the same evaluation as the plan's own check, so the statement
     "every plan listed before the first feasible one fails" is exact, not estimated. The
     plans costing less than ``lo`` fail by the bound that gave ``lo``; those at ``hi`` or
-    above are no improvement. Links with a fixed cost and nothing installed may be left
-    unbuilt in two ways, as in the sizer: at capacity 0 with their routes kept (calls pass
-    over them to the next route), or with their routes taken away (a demand's next route
-    becomes its first choice); both are listed.
+    above are no improvement. A link at capacity 0 is not built: the evaluation takes its
+    routes away (a demand's next route becomes its first choice,
+    :func:`netdim.evaluate._network.built_network`), as the sizer does when it leaves a link
+    unbuilt, so one listing covers every design; ``dropped`` names the links with a fixed
+    cost and nothing installed that the plan leaves at 0.
     """
     if not hi > lo:
         return Enumeration(ListingStatus.OPTIMAL, float(hi), cost=float(hi),
@@ -219,38 +219,29 @@ def least_cost_by_enumeration(network, choices: SizingChoices, method, lo, hi,
     if len(droppable) > MAX_DROPPABLE:
         return Enumeration(ListingStatus.NOT_APPLICABLE, float(lo), cost=float(hi),
                            message=f"more than {MAX_DROPPABLE} links may be left unbuilt")
-    listed = []  # (cost, order, dropped, k)
-    variants = {}
-    for n in range(len(droppable) + 1):
-        for gone in itertools.combinations(droppable, n):
-            net = network.without_links([network.links[j].id for j in gone])
-            if net is None:
-                continue  # a demand without a route cannot meet its target
-            free = net.usable_links() & (choices.max_modules > 0)
-            free[list(gone)] = False
-            plans = plans_by_cost(choices, lo, hi, free, limit=limit - len(listed))
-            if plans is None:
-                return Enumeration(ListingStatus.TOO_MANY, float(lo), cost=float(hi),
-                                   message=f"more than {limit} plans between {lo:g} and "
-                                   f"{hi:g}")
-            variants[gone] = net
-            listed.extend((c, len(listed) + i, gone, k) for i, (c, k) in enumerate(plans))
-    listed.sort(key=lambda p: (p[0], p[1]))
+    free = network.usable_links() & (choices.max_modules > 0)
+    plans = plans_by_cost(choices, lo, hi, free, limit=limit)
+    if plans is None:
+        return Enumeration(ListingStatus.TOO_MANY, float(lo), cost=float(hi),
+                           message=f"more than {limit} plans between {lo:g} and {hi:g}")
+    listed = sorted(((c, i, k) for i, (c, k) in enumerate(plans)), key=lambda p: p[:2])
     opts = {"start": "idle"} if method == "fixed-point" else {}
-    for done, (cost, _, gone, k) in enumerate(listed):
+    for done, (cost, _, k) in enumerate(listed):
         if deadline is not None and time.perf_counter() > deadline:
             return Enumeration(ListingStatus.PARTIAL, float(max(lo, cost)), cost=float(hi),
                                plans=len(listed), evaluated=done, stopped_by_time=True,
                                message=f"the safety stop fired after {done} of "
                                f"{len(listed)} plans")
         try:
-            ev = evaluate(variants[gone], choices.capacity(k), method=method, **opts)
+            ev = evaluate(network, choices.capacity(k), method=method, **opts)
         except NetdimError as exc:
             return Enumeration(ListingStatus.PARTIAL, float(max(lo, cost)), cost=float(hi),
                                plans=len(listed), evaluated=done,
                                message=f"plan {done + 1} of {len(listed)} could not be "
                                f"evaluated ({exc})")
         if ev.all_met:
+            cap = choices.capacity(k)
+            gone = tuple(j for j in droppable if cap[j] == 0)
             return Enumeration(ListingStatus.IMPROVED, float(cost), modules=np.asarray(k),
                                dropped=gone, cost=float(cost), plans=len(listed),
                                evaluated=done + 1,

@@ -21,7 +21,7 @@ from netdim.evaluate import exact as _exact
 from netdim.evaluate import fixed_point as _fixed_point
 from netdim.evaluate import peaked_fixed_point as _peaked
 from netdim.evaluate import simulate as _simulate
-from netdim.evaluate._network import resolve_capacities, route_groups
+from netdim.evaluate._network import built_network, resolve_capacities, route_groups
 from netdim.evaluate.compare import Comparison, compare_methods
 from netdim.evaluate.fixed_point import FixedPoint
 from netdim.evaluate.peaked_fixed_point import default_method
@@ -166,4 +166,5 @@ def evaluate(network, capacities=None, method: str | None = None, **options) -> 
             f"{unknown[0]}: not an option of method {method!r}; it takes "
             f"{', '.join(allowed)}"
         )
-    return run(network, resolve_capacities(network, capacities), **options)
+    caps = resolve_capacities(network, capacities)
+    return run(built_network(network, caps), caps, **options)

@@ -9,14 +9,14 @@ walks its link and demand objects once. Nothing here depends on capacities passe
 from __future__ import annotations
 
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
 
 from netdim._arrays import frozen
 
-__all__ = ["resolve_capacities", "Labels", "labels", "memo", "route_groups"]
+__all__ = ["built_network", "resolve_capacities", "Labels", "labels", "memo", "route_groups"]
 
 
 def memo(network, key: str, build: Callable[[Any], Any]):
@@ -132,3 +132,47 @@ def route_groups(route) -> list[tuple[float, tuple[int, ...]]]:
     for j, h in zip(route.links, route.holdings, strict=True):
         groups.setdefault(float(h), []).append(int(j))
     return [(h, tuple(links)) for h, links in groups.items()]
+
+
+def built_network(network, capacities):
+    """The network as built at ``capacities``: routes over a link of capacity 0 taken away.
+
+    A link of capacity 0 is not built, so a route over it is not offered any call: the
+    demand's next route takes its calls as first choice (no trunk reservation against them),
+    as in the network the sizer evaluates when it leaves a link unbuilt. A demand whose every
+    route crosses such a link keeps its routes, and all its calls are lost.
+
+    Parameters
+    ----------
+    network : Network
+    capacities : ndarray of int
+        One per link (as from :func:`resolve_capacities`).
+
+    Returns
+    -------
+    Network
+        ``network`` itself when no route changes; else a copy, kept per set of unbuilt
+        links in the network's memo (a search evaluates the same set many times).
+    """
+    zero = np.flatnonzero(np.asarray(capacities) == 0)
+    if not len(zero):
+        return network
+    cache = memo(network, "evaluate.built", lambda _net: {})
+    key = zero.tobytes()
+    if key not in cache:
+        if len(cache) > 64:
+            cache.clear()
+        cache[key] = _without_routes_over(network, set(zero.tolist()))
+    return cache[key]
+
+
+def _without_routes_over(network, gone):
+    demands, changed = [], False
+    for d in network.demands:
+        routes = tuple(r for r in d.routes if not gone.intersection(r.links))
+        if routes and len(routes) < len(d.routes):
+            demands.append(replace(d, routes=routes))
+            changed = True
+        else:
+            demands.append(d)
+    return replace(network, demands=tuple(demands)) if changed else network

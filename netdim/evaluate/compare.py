@@ -16,7 +16,7 @@ import numpy as np
 
 from netdim._arrays import frozen
 from netdim.errors import ModelTooLargeError
-from netdim.evaluate._network import resolve_capacities
+from netdim.evaluate._network import built_network, resolve_capacities
 from netdim.evaluate.exact import exact
 from netdim.evaluate.fixed_point import fixed_point
 from netdim.evaluate.peaked_fixed_point import METHOD as PEAKED
@@ -258,6 +258,7 @@ def compare_methods(network, capacities=None, simulation=None, *, max_states: in
     """
     opts = _options(simulation)
     caps = resolve_capacities(network, capacities)
+    network = built_network(network, caps)
     sim = simulate(network, caps, progress=progress, **opts.as_kwargs())
     fp = fixed_point(network, caps)
     evaluations: dict[str, Evaluation] = {"fixed-point": fp, "simulate": sim}
