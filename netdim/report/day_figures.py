@@ -25,9 +25,9 @@ _GREY = "#9a9a9a"
 
 def clock_ticks(end_hours) -> np.ndarray:
     """Tick positions (hours from the start of the day) for a day of ``end_hours``: every
-    1, 2, 3, 4, 6 or 12 h, so that at most 8 ticks show."""
+    1, 2, 3, 4, 6 or 12 h, so that at most 8 ticks show (both ends included)."""
     end = float(end_hours)
-    step = next((s for s in (1, 2, 3, 4, 6, 12) if end / s <= 8), 24 * math.ceil(end / 192))
+    step = next((s for s in (1, 2, 3, 4, 6, 12) if end / s <= 7), 24 * math.ceil(end / 168))
     return np.arange(0.0, end + 1e-9, step)
 
 
