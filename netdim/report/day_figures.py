@@ -100,6 +100,8 @@ def occupancy_chart(link_ids, times, mean, high, capacity, *, level=0.95, period
         ax.grid(True, axis="y", color="#e4e4e4", lw=0.6)
         if j % cols == 0:
             ax.set_ylabel(f"{unit} in use")
+    for ax in axes[max(0, n - cols):n]:  # the lowest panel of each column shows the hours
+        ax.tick_params(labelbottom=True)
     handles, labels = axes[0].get_legend_handles_labels()
     fig.legend(handles, labels, fontsize=8, frameon=False, loc="outside lower center",
                ncols=3)
