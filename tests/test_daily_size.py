@@ -138,3 +138,17 @@ def test_verify_simulates_the_day(tmp_path, capsys):
     lo, hi = v["demands"][0]["interval"]
     exact = forward_day(WAVE, 78, 2.0)[0].max()
     assert lo <= exact <= hi
+
+
+def test_progress_names_every_day_evaluation():
+    # common practice, no source: a long search says what it is doing; each evaluation of
+    # the day is one numbered line, as many as the plan's count (a plan tried twice is
+    # evaluated once)
+    net = loads_network(TANDEM)
+    lines = []
+    plan = dimension(net, progress=lambda f, m: lines.append(m))
+    numbers = [int(m.split("evaluation ")[1].split()[0]) for m in lines
+               if m.startswith("over the day: evaluation ")]
+    assert numbers == list(range(1, plan.details["day_evaluations"] + 1))
+    assert any("(taking a module away: link " in m for m in lines)
+    assert any("; the last took " in m for m in lines)

@@ -108,6 +108,16 @@ def _pages(tmp_path):
         want = [r["id"] for r in d["demands"]] + [r["id"] for r in d["links"]]
         want += [f"{100 * r['utilisation']:.1f}" for r in d["links"]]
         out.append((f"report {name}", str(path), {"fig-map", "fig-curves"}, want))
+    # a day evaluation (issue 20): occupancy over the day per link beside the other pictures
+    day = tmp_path / "cli-campus-day.html"
+    src = str(NETWORKS.parent / "examples" / "campus_day.yaml")
+    assert main(["evaluate", src, "--quiet", "--report", str(day), "--kind", "parking"]) in (0, 1)
+    d = netdim.evaluate(netdim.read_network(src)).to_dict()
+    want = [r["id"] for r in d["demands"]] + [r["id"] for r in d["links"]]
+    want += ["Occupancy over the day", "Blocking over the day, per demand"]
+    want += [f"{r['lost_fraction']:.4f}" for r in d["demands"] if r["lost_fraction"] >= 1e-4]
+    out.append(("evaluate campus day", str(day), {"fig-map", "fig-day-occupancy",
+                                                  "fig-curves"}, want))
     path = tmp_path / "cli-size.html"
     assert main(["size", str(NETWORKS / "three-villages.yaml"), "--quiet", "--report",
                  str(path), "--report-targets", "0.01,0.02,0.05"]) == 0

@@ -179,7 +179,10 @@ def test_report_option_errors(tmp_path, capsys):
     out = str(tmp_path / "r.html")
     cases = [
         (["report", net, "-o", out, "--seed", "3"],
-         "netdim: error: --seed: applies to --method simulate only, not --method "
+         "netdim: error: --seed: applies to --method simulate or day-simulate only, not "
+         "--method peaked-fixed-point"),
+        (["report", net, "-o", out, "--holding-law", "deterministic"],
+         "netdim: error: --holding-law: applies to --method simulate only, not --method "
          "peaked-fixed-point"),
         (["report", net, "-o", out, "--curves", "-1"],
          "netdim: error: --curves: must be 0 or more, got -1"),

@@ -222,7 +222,8 @@ def _check_flags(args) -> dict:
         if value is None:
             continue
         if dest not in METHOD_OPTIONS[args.method]:
-            raise ValueError(f"{_flag(dest)}: applies to --method simulate only, not "
+            takes = " or ".join(m for m in METHODS if dest in METHOD_OPTIONS[m])
+            raise ValueError(f"{_flag(dest)}: applies to --method {takes} only, not "
                              f"--method {args.method}")
         opts[dest] = value
     if args.curves < 0:

@@ -107,14 +107,30 @@ def size_over_day(network, options: SizingOptions, *, verify=None, progress=None
     static = size_to_targets(static_net, static_opts, progress=progress, choices=choices,
                              base=base)
     count = [0]
+    seen = {}
+    last = [0.0]
 
-    def day_eval(k):
+    def day_eval(k, why="", net=network):
+        # A plan tried twice (the step-down's first trial can be the plan the repair left)
+        # is not evaluated again: the same capacities give the same day.
+        key = (id(net), np.asarray(k, dtype=np.int64).tobytes())
+        if key in seen:  # (the network is kept with it, so its id stays its own)
+            return seen[key][1]
         count[0] += 1
         if count[0] > MAX_DAY_EVALUATIONS:
             raise ModelTooLargeError(
                 f"sizing over the day: more than {MAX_DAY_EVALUATIONS} evaluations of the "
                 "day; give max_capacity to the links or size fewer at once")
-        return evaluate(network, choices.capacity(k), method=method)
+        # One line per evaluation (the summary shows one every few seconds): on a large
+        # alternate-routed network one day takes seconds and the search needs one per link
+        # tried (docs/measurements/daily.md, section 7).
+        took = f"; the last took {last[0]:.1f} s" if count[0] > 1 else ""
+        say(None, f"over the day: evaluation {count[0]}{why}{took}")
+        t0 = time.perf_counter()
+        ev = evaluate(net, choices.capacity(k), method=method)
+        last[0] = time.perf_counter() - t0
+        seen[key] = (net, ev)
+        return ev
 
     k = np.asarray(static.modules, dtype=np.int64).copy()
     floor = _start_modules(network, choices)
@@ -207,9 +223,10 @@ def _calibrate(network, choices, k, ev, kmin, verify, day_eval, say, progress):
             replace(d, target=float(w)) for d, w in zip(network.demands, working, strict=True)))
         method = ev.method
 
-        def tight_eval(m, net=tight, method=method):
-            day_eval(m)  # counted against the work limit
-            return evaluate(net, choices.capacity(m), method=method)
+        def tight_eval(m, why="", net=tight):
+            # counted against the work limit (the day of the tight network is computed once,
+            # not also that of the network itself as before: its figure was not used)
+            return day_eval(m, why, net)
 
         k, tev, stuck = _repair(tight, choices, k, tight_eval(k), tight_eval, say)
         if not stuck:
@@ -256,10 +273,11 @@ def _repair(network, choices: SizingChoices, k, ev, day_eval, say):
         if not cands:
             return k, ev, True
         best = None
-        for j in cands:
+        for n, j in enumerate(cands, 1):
             trial = k.copy()
             trial[j] += 1
-            tev = day_eval(trial)
+            tev = day_eval(trial, f" (adding a module: link '{network.links[j].id}', "
+                                  f"{n} of {len(cands)} tried)")
             gain = (now - _excess(tev)) / max(choices.cost(trial) - cost, 1e-12)
             if best is None or gain > best[0]:
                 best = (gain, j, trial, tev)
@@ -282,7 +300,8 @@ def _step_down(choices: SizingChoices, k, ev, kmin, day_eval, say):
                 continue
             trial = k.copy()
             trial[j] -= 1
-            tev = day_eval(trial)
+            tev = day_eval(trial, f" (taking a module away: link {int(j) + 1}, "
+                                  f"{int((~done).sum())} left to try)")
             if tev.all_met:
                 k, ev = trial, tev
                 done[j] = k[j] <= kmin[j]

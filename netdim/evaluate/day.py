@@ -31,11 +31,11 @@ OPTIONS = ("steps_per_period", "quantile")
 SIM_OPTIONS = ("seed", "calls", "days", "confidence", "steps_per_period", "quantile",
                "progress")
 
-_APPROX_NOTE = ("{m} is an approximation of the day ({how} on the measured single park, "
-                "docs/measurements/daily.md); check a verdict near its target with "
-                "--method day-simulate")
-_HOW = {"day-fpa": "within 15 % of the exact chain",
-        "day-mol": "up to 27 % below the exact chain"}
+_APPROX_NOTE = ("{m} is an approximation of the day ({how}, docs/measurements/daily.md); "
+                "check a verdict near its target with --method day-simulate")
+_HOW = {"day-fpa": "within 15 % of the exact chain on the measured single park, but up to "
+                   "39 % below it on one park whose arrivals rise sharply",
+        "day-mol": "up to 27 % below the exact chain on the measured single park"}
 
 _ALTERNATE_NOTE = ("under alternate routing the day approximations are optimistic: on the "
                    "campus day the worst-hour blocking came out up to 45 % below the "

@@ -31,6 +31,7 @@ from netdim.report.cells import (
     prob_cells,
     text_cell,
 )
+from netdim.report.day_html import day_bound_words, day_plan_facts, day_sections
 from netdim.report.page import (
     Section,
     chart_section,
@@ -258,6 +259,10 @@ def _curve_section(network, ev, unit, count) -> Section | None:
     caption = ("The busiest links by utilisation. Each curve is Erlang's loss formula for "
                "the link's capacity; the dot is the load offered to the link and the blocking "
                "a first-choice call meets there in this run.")
+    if ev.day is not None:
+        caption += (" Over the day: the dot is the largest load offered to the link in the "
+                    "day and the largest share of a period it turned first-choice calls "
+                    "away (they need not fall in the same period; see the occupancy chart).")
     if network.routing.policy == "alternate":
         caption += (" With capacity kept back for first-choice calls, first-choice calls "
                     "meet less blocking than the curve and overflow calls (triangle) more.")
@@ -296,6 +301,7 @@ def evaluation_sections(network, ev, *, kind=None, seed=None, measure="utilisati
            _map_section(network, ev, unit, measure),
            _demand_section(network, ev, dec),
            _link_section(network, ev, kind, dec)]
+    out += day_sections(network, ev, kind=kind, decimals=dec)
     curve = _curve_section(network, ev, unit, curves)
     if curve is not None:
         out.append(curve)
@@ -463,7 +469,10 @@ def plan_html(plan, *, network=None, title=None, kind=None, source=None,
     money = plan_costs(plan)
     facts = [("status", plan.status), ("result", verdict_counts_words(verdict)),
              ("cost", money["cost"])]
-    if plan.status != "economic":
+    over_day = ev.day is not None
+    if over_day:  # no bound is proved over the day: say so, and give the busy-hour way
+        facts += day_plan_facts(plan)
+    elif plan.status != "economic":
         facts.append(("lower bound", money["lower_bound"]))
         facts.append(("gap", f"{100 * plan.gap:.1f}%"))
     facts += [("baseline cost", money["baseline_cost"]),
@@ -473,10 +482,13 @@ def plan_html(plan, *, network=None, title=None, kind=None, source=None,
                   else ""))]
     body = [Section("summary", "Summary", facts_html(facts)),
             Section("bound", "How good the plan is",
-                    "".join(f"<p>{_e(p)}</p>" for p in bound_words(plan, net, money))),
+                    "".join(f"<p>{_e(p)}</p>" for p in (
+                        day_bound_words(plan, money) if over_day
+                        else bound_words(plan, net, money)))),
             _map_section(net, ev, unit, measure),
             _demand_section(net, ev, dec, sim=ver, label=f"{plan.model} model"),
             _link_section(net, ev, kind, dec, plan=plan)]
+    body += day_sections(net, ev, kind=kind, decimals=dec)
     curve = _curve_section(net, ev, unit, curves)
     if curve is not None:
         body.append(curve)
