@@ -17,10 +17,13 @@ The link model (design notes and measurements: ``docs/theory/peaked-overflow.md`
    congestion, overflow calls the congestion of the IPP's on-phases. This is how the lost
    traffic is split between the smooth and the peaked part, and how reservation acts on
    peaked overflow.
-3. Within the overflow class a stream of peakedness ``Z_i`` meets ``B Z_i / Z`` of the
-   class's blocking ``B`` (the split in proportion to peakedness, which keeps the class's
-   lost traffic), taken as ``1 - (1 - B)^(Z_i / Z)``: the same to first order in ``B``, and
-   below 1 in heavy overload.
+3. Within the overflow class every stream meets the class's call congestion ``B``
+   (``split='equal'``, the default). ``split='peakedness'`` gives a stream of peakedness
+   ``Z_i`` instead ``B Z_i / Z`` [5]_, taken as ``1 - (1 - B)^(Z_i / Z)`` (the same to first
+   order in ``B``, below 1 in heavy overload). Both keep the class's lost traffic; in
+   networks the equal split measures closer to simulation (the overflow streams a link is
+   offered are parts of common losses and rise together, so a thin stream's calls arrive
+   when the whole mix does; ``docs/measurements/peaked.md``).
 4. What a link loses in each class has Riordan's peakedness of the overflow of the
    equivalent group of the link's whole offered traffic, at the class's threshold.
 
@@ -58,6 +61,7 @@ from netdim._peaked_kernels import ipp_chain, link_kernel, log_erlang_b_real
 
 __all__ = [
     "LINK_MODELS",
+    "SPLITS",
     "EQUIVALENTS",
     "GroupLoss",
     "LinkFactors",
@@ -78,12 +82,17 @@ LINK_MODELS = ("ipp", "ert", "hayward")
 #: How the equivalent random group is found: Wilkinson's equations solved ('exact'), the
 #: same interpolated in a table of solutions ('table', fast), or Rapp's closed form.
 EQUIVALENTS = ("table", "exact", "rapp")
+#: How the overflow class's blocking is shared among its streams: every stream meets it
+#: ('equal'), or in proportion to each stream's peakedness ('peakedness').
+SPLITS = ("equal", "peakedness")
 
 #: A mix whose variance exceeds its mean by less than this (relative) counts as smooth.
 SMOOTH_RTOL = 1e-12
 
 
-def _check_names(model, equivalent):
+def _check_names(model, equivalent, split="equal"):
+    if split not in SPLITS:
+        raise ValueError(f"split: unknown rule {split!r}; choose one of {', '.join(SPLITS)}")
     if model not in LINK_MODELS:
         raise ValueError(f"model: unknown model {model!r}; choose one of {', '.join(LINK_MODELS)}")
     if equivalent not in EQUIVALENTS:
@@ -537,8 +546,9 @@ class LinkFactors:
         Blocking of first-choice calls (admitted while a unit is free).
     overflow : ndarray
         Call congestion ``B`` of the overflow class as a whole (its calls leave the
-        reservation free); a stream of it of peakedness ``Z_i`` meets
-        ``1 - (1 - B)^(Z_i / Z)``, about ``B Z_i / Z``.
+        reservation free); under ``split='peakedness'`` a stream of it of peakedness
+        ``Z_i`` meets ``1 - (1 - B)^(Z_i / Z)``, about ``B Z_i / Z``; under ``'equal'``
+        every stream meets ``B``.
     overflow_peakedness : ndarray
         ``Z`` of the whole overflow class.
     lost_peakedness : ndarray, shape (n_links, 2)
@@ -549,9 +559,12 @@ class LinkFactors:
     overflow: np.ndarray
     overflow_peakedness: np.ndarray
     lost_peakedness: np.ndarray
+    split: str = "equal"
 
     def stream_blocking(self, link, is_overflow, peakedness):
         """Blocking of streams on ``link``: first-choice, or overflow of ``peakedness``."""
+        if self.split == "equal":
+            return np.where(is_overflow, self.overflow[link], self.first[link])
         # B Z_i / Z, taken as 1 - (1 - B)^(Z_i / Z): the same to first order in B, and below
         # 1 where B Z_i / Z would pass it (heavy overload); smooth, so the fixed point is
         ratio = peakedness / self.overflow_peakedness[link]
@@ -561,7 +574,7 @@ class LinkFactors:
 
 
 def link_factors(first, overflow, overflow_variance, capacities, reservations, model="ipp",
-                 equivalent="table", checked=False) -> LinkFactors:
+                 equivalent="table", checked=False, split="equal") -> LinkFactors:
     """The link model on many links: Poisson first-choice traffic and peaked overflow.
 
     Parameters
@@ -578,6 +591,9 @@ def link_factors(first, overflow, overflow_variance, capacities, reservations, m
         How equivalent random groups are found (see :func:`equivalent_group`).
     checked : bool
         Skip the argument checks (the network evaluator's inner loop).
+    split : {'equal', 'peakedness'}
+        How the overflow class's blocking is shared among its streams (module notes,
+        step 3).
 
     Returns
     -------
@@ -603,7 +619,7 @@ def link_factors(first, overflow, overflow_variance, capacities, reservations, m
     caps = np.asarray(capacities)
     res = np.asarray(reservations)
     if not checked:
-        _check_names(model, equivalent)
+        _check_names(model, equivalent, split)
         if f.ndim != 1:
             raise ValueError(f"first: expected a 1-d array (one per link), got shape {f.shape}")
         for name, x in (("overflow", o), ("overflow_variance", ov), ("capacities", caps),
@@ -658,7 +674,7 @@ def link_factors(first, overflow, overflow_variance, capacities, reservations, m
             col = b_first if c == 0 else b_over
             col[ri] = np.minimum(col[ri] * k, 1.0)
     return LinkFactors(first=b_first, overflow=b_over, overflow_peakedness=out[:, 2],
-                       lost_peakedness=lost_z)
+                       lost_peakedness=lost_z, split=split)
 
 
 # --------------------------------------------------------------------------------------------
@@ -703,7 +719,7 @@ class LinkBlocking:
 
 
 def peaked_link(means, variances, capacity, reservation=0, overflow=None, model="ipp",
-                equivalent="exact") -> LinkBlocking:
+                equivalent="exact", split="equal") -> LinkBlocking:
     """Blocking of each of several smooth and peaked streams offered to one group.
 
     Parameters
@@ -720,6 +736,8 @@ def peaked_link(means, variances, capacity, reservation=0, overflow=None, model=
         streams must be smooth.
     model : {'ipp', 'ert', 'hayward'}
     equivalent : {'exact', 'table', 'rapp'}
+    split : {'equal', 'peakedness'}
+        How the overflow class's blocking is shared among its streams (module notes).
 
     Returns
     -------
@@ -750,7 +768,7 @@ def peaked_link(means, variances, capacity, reservation=0, overflow=None, model=
     >>> bool(r.blocking[1] > 2 * r.blocking[0])
     True
     """
-    _check_names(model, equivalent)
+    _check_names(model, equivalent, split)
     m = np.atleast_1d(np.asarray(means, dtype=float))
     v = np.atleast_1d(np.asarray(variances, dtype=float))
     if m.ndim != 1 or v.shape != m.shape:
@@ -771,7 +789,7 @@ def peaked_link(means, variances, capacity, reservation=0, overflow=None, model=
         )
     f = link_factors(np.array([m[~over].sum()]), np.array([m[over].sum()]),
                      np.array([v[over].sum()]), np.array([cap]), np.array([res]), model,
-                     equivalent, checked=True)
+                     equivalent, checked=True, split=split)
     with np.errstate(divide="ignore", invalid="ignore"):
         z = np.where(m > 0, v / np.where(m > 0, m, 1.0), 1.0)
     link = np.zeros(m.size, dtype=np.int64)

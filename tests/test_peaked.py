@@ -373,7 +373,7 @@ def test_split_in_proportion_to_peakedness():
     # source: the split rule B_i = B Z_i / Z within the overflow class (as stated in the ITU
     # handbook, from memory); written 1 - (1 - B)^(Z_i / Z), equal to first order in B
     means, variances = [10.0, 0.4, 0.6], [10.0, 0.8, 1.8]
-    r = peaked_link(means, variances, 16, reservation=1)
+    r = peaked_link(means, variances, 16, reservation=1, split="peakedness")
     f = link_factors(np.array([10.0]), np.array([1.0]), np.array([2.6]), np.array([16]),
                      np.array([1]), equivalent="exact")
     b = float(f.overflow[0])
@@ -386,6 +386,27 @@ def test_split_in_proportion_to_peakedness():
     # what each overflow stream loses is peaked, and more so the larger its share
     zl = r.overflow_variance / r.overflow_mean
     assert zl[2] > zl[1] > 1.0
+
+
+def test_equal_split_gives_every_overflow_stream_the_class_blocking():
+    # source: the rule itself (every overflow call meets the class's call congestion); both
+    # rules keep the class's lost traffic to first order in B: sum m_i B Z_i / Z = B sum m_i
+    # when sum m_i Z_i = Z sum m_i (variances add), checked against the same mix as above
+    means, variances = [10.0, 0.4, 0.6], [10.0, 0.8, 1.8]
+    eq = peaked_link(means, variances, 16, reservation=1)
+    pk = peaked_link(means, variances, 16, reservation=1, split="peakedness")
+    f = link_factors(np.array([10.0]), np.array([1.0]), np.array([2.6]), np.array([16]),
+                     np.array([1]), equivalent="exact")
+    b = float(f.overflow[0])
+    assert eq.blocking[1] == eq.blocking[2] == pytest.approx(b, rel=1e-12)
+    assert eq.blocking[0] == pytest.approx(pk.blocking[0], rel=1e-12)
+    lost_eq = float(np.dot(means[1:], eq.blocking[1:]))
+    lost_pk = float(np.dot(means[1:], pk.blocking[1:]))
+    assert lost_eq == pytest.approx(b * 1.0, rel=1e-12)
+    assert lost_pk == pytest.approx(lost_eq, rel=5 * b)  # equal to first order in B
+    with pytest.raises(ValueError, match="split: unknown rule 'even'; choose one of equal, "
+                                         "peakedness"):
+        peaked_link(means, variances, 16, split="even")
 
 
 def test_models_and_bad_input():

@@ -200,6 +200,9 @@ def test_warm_start_and_explicit_starts(triangle):
 
 def test_bad_arguments(triangle, one_link):
     net = triangle(6, 3.0, 1)
+    with pytest.raises(ValueError, match="split: unknown rule 'even'; choose one of equal, "
+                                         "peakedness"):
+        peaked_fixed_point(net, split="even")
     with pytest.raises(ValueError, match="link_model: unknown model 'poisson'; choose one of"):
         peaked_fixed_point(net, link_model="poisson")
     with pytest.raises(ValueError, match="equivalent: unknown method 'x'; choose one of"):

@@ -19,7 +19,7 @@ its mean and its peakedness (variance over mean):
 Each link then gives each stream its own blocking from the link model of
 :func:`netdim.peaked.link_factors` (the overflow as an interrupted Poisson process with three
 moments from its equivalent random group, solved exactly with the first-choice traffic and
-the trunk reservation; the split in proportion to peakedness within the overflow), and the
+the trunk reservation; every overflow stream meeting the class's blocking), and the
 whole is iterated to a fixed point as the plain reduced-load evaluation is: the same adaptive
 damping, the same solves from idle and from full links with a bistability report, the same
 ConvergenceError. Without overflow (fixed routing, or demands with one route) every stream
@@ -40,7 +40,7 @@ from netdim.erlang import erlang_b
 from netdim.errors import ConvergenceError
 from netdim.evaluate.result import Evaluation
 from netdim.model import POLICIES, incidence
-from netdim.peaked import EQUIVALENTS, LINK_MODELS, link_factors
+from netdim.peaked import EQUIVALENTS, LINK_MODELS, SPLITS, link_factors
 from netdim.vocabulary import EvaluationStatus
 
 __all__ = ["peaked_fixed_point", "METHOD", "OPTIONS", "Q_FLOOR", "BISTABLE_GAP", "REFINE_TOL",
@@ -50,7 +50,7 @@ __all__ = ["peaked_fixed_point", "METHOD", "OPTIONS", "Q_FLOOR", "BISTABLE_GAP",
 #: The method's name in ``Evaluation.method``.
 METHOD = "peaked-fixed-point"
 #: Keyword options of :func:`peaked_fixed_point` (the command line checks its flags here).
-OPTIONS = ("tol", "max_iter", "start", "link_model", "equivalent")
+OPTIONS = ("tol", "max_iter", "start", "link_model", "equivalent", "split")
 #: Floor of 1 - b in the iteration, as in the plain fixed point (a link of capacity 0 blocks
 #: everything; the own-step exclusion Q_r / q_s never divides by zero).
 Q_FLOOR = 1e-130
@@ -176,11 +176,12 @@ def _capacities(network, capacities):
 class _Problem:
     """One evaluation: the static arrays, the capacities and the link model chosen."""
 
-    def __init__(self, network, caps, link_model, equivalent):
+    def __init__(self, network, caps, link_model, equivalent, split="equal"):
         self.__dict__.update(_static(network))
         self.caps = caps
         self.link_model = link_model
         self.equivalent = equivalent
+        self.split = split
         self.zero_cap = caps[self.step_link] == 0
 
     # -- link state -> stream moments -------------------------------------------------------
@@ -255,7 +256,8 @@ class _Problem:
         cm = np.bincount(self.slot, weights=m, minlength=2 * self.n_links).reshape(-1, 2)
         cv = np.bincount(self.slot, weights=m * z, minlength=2 * self.n_links).reshape(-1, 2)
         return link_factors(cm[:, 0], cm[:, 1], cv[:, 1], self.caps, self.reservations,
-                            self.link_model, self.equivalent, checked=True)
+                            self.link_model, self.equivalent, checked=True,
+                            split=self.split)
 
     def heavy_state(self):
         """Blockings under the heaviest loads (every route offered all its demand's traffic).
@@ -324,7 +326,7 @@ class _Problem:
         with np.errstate(divide="ignore", invalid="ignore"):
             var = np.bincount(self.step_link, weights=m * z, minlength=self.n_links)
             link_z = np.where(offered > 0, var / np.where(offered > 0, offered, 1.0), 1.0)
-        det = {"link_model": self.link_model, "equivalent": self.equivalent,
+        det = {"link_model": self.link_model, "equivalent": self.equivalent, "split": self.split,
                "step_blocking": b, "step_peakedness": z, "lost_peakedness": zo,
                "route_blocking": L, "route_reach": reach, "link_peakedness": link_z,
                "largest_link_peakedness": float(link_z.max()) if link_z.size else 1.0}
@@ -406,7 +408,7 @@ def _start_state(prob, start):
 
 
 def peaked_fixed_point(network, capacities=None, link_model="ipp", equivalent="table",
-                       tol=1e-10, max_iter=1000, start=None) -> Evaluation:
+                       tol=1e-10, max_iter=1000, start=None, split="equal") -> Evaluation:
     """End-to-end blocking with the mean and variance of every stream offered to each link.
 
     Parameters
@@ -424,6 +426,11 @@ def peaked_fixed_point(network, capacities=None, link_model="ipp", equivalent="t
         How equivalent random groups are found: interpolated in a table of exact solutions
         (default), solved for every link at every sweep (slower), or Rapp's closed form
         (poor for the overflow of lightly loaded groups).
+    split : {'equal', 'peakedness'}
+        How a link's overflow blocking is shared among the overflow streams it is offered:
+        every stream meets the class's call congestion (default), or in proportion to each
+        stream's peakedness (the rule for independent streams; measured further from
+        simulation in networks, ``docs/measurements/peaked.md``).
     tol : float
         Convergence test: largest change of any stream's blocking or lost peakedness
         between two sweeps.
@@ -486,12 +493,14 @@ def peaked_fixed_point(network, capacities=None, link_model="ipp", equivalent="t
         raise ValueError(
             f"equivalent: unknown method {equivalent!r}; choose one of {', '.join(EQUIVALENTS)}"
         )
+    if split not in SPLITS:
+        raise ValueError(f"split: unknown rule {split!r}; choose one of {', '.join(SPLITS)}")
     if not (isinstance(tol, (int, float, np.floating)) and np.isfinite(tol) and tol > 0):
         raise ValueError(f"tol: must be a positive number, got {tol!r}")
     if isinstance(max_iter, bool) or not isinstance(max_iter, (int, np.integer)) or max_iter < 1:
         raise ValueError(f"max_iter: must be an integer >= 1, got {max_iter!r}")
     caps = _capacities(network, capacities)
-    prob = _Problem(network, caps, link_model, equivalent)
+    prob = _Problem(network, caps, link_model, equivalent, split)
 
     explicit = start is not None
     if explicit:

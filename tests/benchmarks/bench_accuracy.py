@@ -11,9 +11,11 @@ and 1.3 times the sizing load), it prints side by side:
 
 - for every demand whose simulated blocking is at least 1e-3, the ratio model / simulation
   for the plain fixed point, the peaked fixed point (``ipp``, the default) and its variant
-  rescaled to the equivalent random method's total loss (``ert``): median, quartiles, the
-  worst ratio either way, and the share within 1.5x of the simulated point and within 1.5x
-  of the simulated interval (the interval's half-width is printed: the noise floor);
+  rescaled to the equivalent random method's total loss (``ert``), and the peaked fixed point
+  with the overflow's blocking split in proportion to peakedness (``ipp-pk``, the default
+  before 2026-12-03; ``ipp`` gives every overflow stream the class's blocking): median,
+  quartiles, the worst ratio either way, and the share within 1.5x of the simulated point
+  and within 1.5x of the simulated interval (the interval's half-width is printed: the noise floor);
 - on the networks small enough for the exact chain, the ratio model / exact;
 - evaluation time of each model against the plain fixed point (medians of ``--repeats``
   runs, warm: the routes flattened and the kernels compiled once before timing);
@@ -55,6 +57,9 @@ MODELS = {
     "plain": lambda net: evaluate(net, method="fixed-point"),
     "ipp": lambda net: peaked_fixed_point(net),
     "ert": lambda net: peaked_fixed_point(net, link_model="ert"),
+    # the overflow class's blocking split among its streams in proportion to peakedness
+    # (the default until 2026-12-03), beside the equal split of the default
+    "ipp-pk": lambda net: peaked_fixed_point(net, split="peakedness"),
 }
 
 
@@ -175,14 +180,14 @@ def worst_links(net, sim, ev, sel):
 
 def versus_exact(nets):
     print("\nagainst the exact chain (ratio model / exact per demand: min-max)")
-    print(f"  {'network':34} {'plain':>13} {'ipp':>13} {'ert':>13}")
+    print(f"  {'network':34} " + " ".join(f"{k:>13}" for k in MODELS))
     for net in nets:
         ex = evaluate(net, method="exact")
         cells = []
         for fn in MODELS.values():
             r = fn(net).blocking / ex.blocking
             cells.append(f"{r.min():.3f}-{r.max():.3f}")
-        print(f"  {net.name:34} {cells[0]:>13} {cells[1]:>13} {cells[2]:>13}")
+        print(f"  {net.name:34} " + " ".join(f"{c:>13}" for c in cells))
 
 
 def sizing(nets, calls):
