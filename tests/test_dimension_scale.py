@@ -3,8 +3,9 @@
 References, all outside netdim's sizer:
 
 - the least cost of a tiny secant MILP by exhaustive search written here over every module
-  vector, each checked with Erlang B by its recursion (Jagerman 1974), written here: a MILP stopped at a node limit proves a bound at most that least cost (weak
-  duality of branch and bound, common practice, no source);
+  vector, each checked with Erlang B by its recursion (Jagerman 1974), written here: a MILP
+  stopped at a node limit proves a bound at most that least cost (weak duality of branch
+  and bound, common practice, no source);
 - the least cost of tiny networks under the reduced-load model by the exhaustive search of
   tests/test_dimension_small.py (Kelly 1986 repeated substitution, independent of netdim).
 """
@@ -19,9 +20,8 @@ import numpy as np
 import pytest
 from test_dimension_small import TRIANGLE, TRIANGLE_COSTS, TRIANGLE_TARGETS, search, triangle
 
-from netdim.dimension import SOLVERS, SizingChoices, dimension
+from netdim.dimension import SOLVERS, SizingChoices, dimension, sizer
 from netdim.dimension import secant_milp as secant
-from netdim.dimension import sizer
 from netdim.dimension.choices import LossTable, first_route_loads
 from netdim.dimension.local_search import SEARCH_EVALUATIONS, search_evaluations
 from netdim.dimension.secant_milp import solve_secant_milp
