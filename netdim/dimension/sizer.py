@@ -335,6 +335,12 @@ def _sizing_loop(network, choices, options, progress, fallback=None,
             if _settled(costs):
                 settled = True
                 break
+            how = _cost_settled(costs, res)
+            if how:  # a MILP stopped at its node limit (large networks only)
+                progress(None, f"iteration {it}: the MILP cost has settled at {costs[-1]:g} "
+                         f"({how})")
+                settled = True
+                break
         else:
             costs.append(choices.cost(k))
             how = _cost_settled(costs, res)
@@ -380,7 +386,7 @@ _SETTLE_RUN = 3
 
 
 def _cost_settled(costs, res):
-    """Why the fixed-routing loop's MILP cost has settled ('' when it has not): it moved less
+    """Why the loop's MILP cost has settled ('' when it has not): it moved less
     than :data:`_SETTLE_TOL` in each of the last :data:`_SETTLE_RUN` iterations, or, for a
     MILP stopped at its work limit, less than that MILP's proven gap (objective less bound),
     within which it cannot tell the two plans apart."""
