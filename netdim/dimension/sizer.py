@@ -337,8 +337,8 @@ def _sizing_loop(network, choices, options, progress, fallback=None,
                 break
             how = _cost_settled(costs, res)
             if how:  # a MILP stopped at its node limit (large networks only)
-                progress(None, f"iteration {it}: the MILP cost has settled at {costs[-1]:g} "
-                         f"({how})")
+                progress(None, f"the MILP cost has settled at {costs[-1]:g} in iteration "
+                         f"{it} ({how})")
                 settled = True
                 break
         else:
@@ -347,9 +347,9 @@ def _sizing_loop(network, choices, options, progress, fallback=None,
             if how:
                 # Plans of about equal cost that tie differently at loads still rising:
                 # settled in cost, which is what the local search and the bound need.
-                progress(None, f"iteration {it}: the MILP cost has settled at {costs[-1]:g} "
-                         f"({how}); the capacities differ among plans of about that cost, "
-                         "and the local search starts from this one")
+                progress(None, f"the MILP cost has settled at {costs[-1]:g} in iteration "
+                         f"{it} ({how}); the capacities differ among plans of about that "
+                         "cost, and the local search starts from this one")
                 settled = True
                 break
             loads = new if it == 1 else np.maximum(loads, new)
