@@ -81,11 +81,17 @@ def check_solver(name) -> str:
 
 
 def make_solver(name, *, integer=True, mip_gap=0.0, time_limit=None, node_limit=None,
-                iteration_limit=None, interior_point=False, log_path=None):
+                iteration_limit=None, interior_point=False, log_path=None, warm_start=False,
+                bound_only=False):
     """The PuLP solver object for ``name`` (``'highs'``, or PuLP's bundled ``'cbc'``).
 
     HiGHS runs on one thread so that its answers do not depend on the machine; without
-    highspy the bundled CBC is used instead.
+    highspy the bundled CBC is used instead. ``warm_start``: the variables' values
+    (``setInitialValue``) are handed to the solver as a first solution, and HiGHS runs
+    none of its sub-MIP searches (RENS, RINS), for which the first solution stands in
+    (docs/measurements/scale.md: the same plan in 60 % of the time). ``bound_only``: a MILP
+    solved for its proven bound alone, so HiGHS runs none of its searches for plans (which
+    do not move the bound).
     """
     import pulp  # about 0.25 s to import: only sizing needs it
 
@@ -104,18 +110,27 @@ def make_solver(name, *, integer=True, mip_gap=0.0, time_limit=None, node_limit=
             opts["ipm_iteration_limit"] = int(iteration_limit)
         if interior_point:
             opts["solver"] = "ipm"
-        return _highs_class()(msg=False, mip=integer, gapRel=mip_gap if integer else None,
-                              timeLimit=time_limit, threads=1, **opts)
+        if warm_start and integer:
+            opts.update(mip_heuristic_run_rens=False, mip_heuristic_run_rins=False)
+        if bound_only and integer:
+            opts.update(mip_heuristic_effort=0.0, mip_heuristic_run_rens=False,
+                        mip_heuristic_run_rins=False, mip_heuristic_run_root_reduced_cost=False,
+                        mip_heuristic_run_feasibility_jump=False)
+        engine = _highs_class()(msg=False, mip=integer, gapRel=mip_gap if integer else None,
+                                timeLimit=time_limit, threads=1, **opts)
+        engine.netdim_warm_start = bool(warm_start and integer)
+        return engine
     with warnings.catch_warnings():
         # PuLP 3 warns that the bundled CBC goes in PuLP 4; it is still the bundled one here.
         warnings.simplefilter("ignore", DeprecationWarning)
         return pulp.PULP_CBC_CMD(msg=False, mip=integer, gapRel=mip_gap if integer else None,
                                  timeLimit=time_limit, maxNodes=node_limit, threads=1,
-                                 logPath=log_path)
+                                 logPath=log_path, warmStart=bool(warm_start and integer))
 
 
 def solve(prob, solver="highs", *, integer=True, mip_gap=0.0, time_limit=None,
-          node_limit=None, iteration_limit=None, interior_point=False) -> LpOutcome:
+          node_limit=None, iteration_limit=None, interior_point=False,
+          warm_start=False, bound_only=False) -> LpOutcome:
     """Solve the PuLP minimisation ``prob``; the solver's statuses translated here, once.
 
     Parameters
@@ -134,6 +149,11 @@ def solve(prob, solver="highs", *, integer=True, mip_gap=0.0, time_limit=None,
         iterations (HiGHS only).
     interior_point : bool
         HiGHS: the interior-point method (with crossover) for an LP.
+    warm_start : bool
+        A MILP: hand the solver the variables' initial values (``setInitialValue``) as a
+        first solution (HiGHS completes or drops a partial or broken one).
+    bound_only : bool
+        HiGHS: a MILP solved for its proven bound only (no searches for plans).
 
     Returns
     -------
@@ -149,7 +169,8 @@ def solve(prob, solver="highs", *, integer=True, mip_gap=0.0, time_limit=None,
     try:
         engine = make_solver(solver, integer=integer, mip_gap=mip_gap, time_limit=time_limit,
                              node_limit=node_limit, iteration_limit=iteration_limit,
-                             interior_point=interior_point, log_path=log_path)
+                             interior_point=interior_point, log_path=log_path,
+                             warm_start=warm_start, bound_only=bound_only)
         t0 = time.perf_counter()
         prob.solve(engine)
         seconds = time.perf_counter() - t0
@@ -290,6 +311,20 @@ def _highs_class():
         import pulp
 
         class _HiGHS(pulp.HiGHS):
+            netdim_warm_start = False
+
+            def callSolver(self, lp):
+                # PuLP 3's HiGHS interface has no warm start: hand HiGHS the values here
+                # (highspy's sparse setSolution), after PuLP has numbered the columns.
+                if self.netdim_warm_start:
+                    given = [(v.index, float(v.varValue)) for v in lp.variables()
+                             if v.varValue is not None]
+                    if given:
+                        idx, val = zip(*given, strict=True)
+                        lp.solverModel.setSolution(len(idx), np.asarray(idx, np.int32),
+                                                   np.asarray(val, float))
+                super().callSolver(lp)
+
             def findSolutionValues(self, lp):
                 try:
                     return super().findSolutionValues(lp)

@@ -29,7 +29,7 @@ from netdim.dimension.choices import LossTable, SizingChoices
 from netdim.dimension.loss_flow_bound import loss_flow_bound
 from netdim.dimension.options import silent
 from netdim.dimension.plan import Bound
-from netdim.dimension.secant_milp import MilpResult, solve_secant_milp
+from netdim.dimension.secant_milp import LARGE_NODES, MilpResult, is_large, solve_secant_milp
 from netdim.evaluate.peaked_fixed_point import METHOD as PEAKED
 from netdim.evaluate.peaked_fixed_point import applies as peaked_applies
 
@@ -141,7 +141,8 @@ def _least_loads(network, routes, model):
 
 def thinned_load_bound(network, choices: SizingChoices, *, model="fixed-point",
                        solver="highs", mip_gap=1e-4, min_modules=None, time_limit=None,
-                       node_limit=BOUND_NODES, max_choices=MAX_BUILD_CHOICES) -> Bound | None:
+                       node_limit=BOUND_NODES, max_choices=MAX_BUILD_CHOICES,
+                       bound_only=False) -> Bound | None:
     """The secant MILP at the least loads any plan meeting the targets offers each link.
 
     Fixed routing with one-unit calls, ``model`` ``'fixed-point'`` or ``'conservative'``.
@@ -167,6 +168,8 @@ def thinned_load_bound(network, choices: SizingChoices, *, model="fixed-point",
         Branch-and-bound nodes of each MILP.
     max_choices : int
         Most choices of links to build (more: None).
+    bound_only : bool
+        Solve each MILP for its proven bound alone (no searches for plans).
 
     Returns
     -------
@@ -226,7 +229,7 @@ def thinned_load_bound(network, choices: SizingChoices, *, model="fixed-point",
                                     [r.links if r is not None else () for r in routes],
                                     budgets, solver=solver, mip_gap=mip_gap,
                                     time_limit=time_limit, min_modules=k_low,
-                                    node_limit=node_limit)
+                                    node_limit=node_limit, bound_only=bound_only)
             solved += 1
             seconds += res.seconds
             stopped = stopped or res.status == "time-limit"
@@ -298,9 +301,14 @@ def lower_bound(network, net, choices: SizingChoices, *, model, solver="highs",
             b = unthinned_milp.bound
             if np.isfinite(b):
                 return Bound(float(b) + fixed_costs(net, choices), "MILP at un-thinned loads")
+        # A large network's bound MILP stops at the root (secant_milp.is_large), solved
+        # for its proven bound alone: that bound is valid wherever it stops.
+        large = is_large(len(network.demands))
         thinned = thinned_load_bound(network, choices, model=model,
                                      solver=solver, mip_gap=mip_gap, min_modules=min_modules,
-                                     time_limit=time_limit)
+                                     time_limit=time_limit,
+                                     node_limit=LARGE_NODES if large else BOUND_NODES,
+                                     bound_only=large)
         if thinned is not None and not droppable:
             return thinned
         carried = carried_load_bound(network, choices, all_routes=droppable, solver=solver,

@@ -26,7 +26,23 @@ from netdim.evaluate import Evaluation, evaluate
 from netdim.evaluate.peaked_fixed_point import METHOD as PEAKED
 
 __all__ = ["CachedEvaluator", "SearchResult", "repair", "trim", "move", "local_search",
-           "search_and_check", "min_modules", "evaluation_method"]
+           "search_and_check", "min_modules", "evaluation_method", "search_evaluations"]
+
+#: Evaluations of the trim and move passes (at most :data:`SEARCH_EVALUATIONS`) times
+#: demands: a large network's passes get fewer evaluations, each costing in proportion to
+#: its demands (a rule of the input's size; docs/measurements/scale.md).
+SEARCH_WORK = 3_000_000
+#: Most evaluations of the trim and move passes.
+SEARCH_EVALUATIONS = 600
+#: Fewest evaluations of the trim and move passes, however large the network.
+MIN_SEARCH_EVALUATIONS = 60
+
+
+def search_evaluations(n_demands) -> int:
+    """Evaluations the trim and move passes may make on a network of ``n_demands``."""
+    return int(min(SEARCH_EVALUATIONS,
+                   max(MIN_SEARCH_EVALUATIONS, SEARCH_WORK // max(int(n_demands), 1))))
+
 
 #: Seconds the trim and move passes may take (a safety stop: the passes are bounded in
 #: evaluations; repair is never cut short).
@@ -315,7 +331,8 @@ def search_and_check(network, choices: SizingChoices, modules, kmin, model, sear
         # The passes are bounded in evaluations; this is a safety stop on slow machines.
         budget = SEARCH_SECONDS if time_limit is None else max(4 * time_limit, 5.0)
         deadline = time.perf_counter() + budget
-        k, stuck = local_search(evaluator, k, kmin, deadline=deadline, progress=progress)
+        k, stuck = local_search(evaluator, k, kmin, deadline=deadline, progress=progress,
+                                max_evals=search_evaluations(len(network.demands)))
         stopped = time.perf_counter() > deadline
     used = network.usable_links()
     k = np.where(used | (choices.installed > 0), k, 0)

@@ -57,7 +57,9 @@ class SizingOptions:
     solver : {'highs', 'cbc'}
         MILP solver for every model the sizer solves.
     mip_gap : float
-        Relative gap each MILP is solved to, in [0, 1).
+        Relative gap each MILP is solved to, in [0, 1) (on networks of over
+        :data:`netdim.dimension.secant_milp.LARGE_DEMANDS` demands the secant MILPs stop at
+        the root node instead).
     time_limit : float or None
         Safety stop of each MILP, seconds.
     max_iter : int

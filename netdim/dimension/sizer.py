@@ -42,7 +42,7 @@ from netdim.dimension.rules import (
     keep_rules,
     rule_floor,
 )
-from netdim.dimension.secant_milp import MilpResult, solve_secant_milp
+from netdim.dimension.secant_milp import LARGE_NODES, MilpResult, is_large, solve_secant_milp
 from netdim.errors import ModelTooLargeError
 from netdim.evaluate import evaluate
 from netdim.evaluate.exact import count_states
@@ -274,6 +274,11 @@ def _sizing_loop(network, choices, options, progress, fallback=None,
     costs: list[float] = []
     k = kmin
     settled = False
+    # Large networks (a rule of their size, netdim.dimension.secant_milp.is_large): each
+    # MILP stops at the root and, after the first, starts from the plan before. The loads
+    # change again after it, so it need not close the gap; the bound and the plan's gap
+    # are computed from proven bounds only.
+    large = is_large(len(network.demands))
     for it in range(1, options.max_iter + 1):
         eff = np.minimum(target / np.maximum(q, 1e-12), _MAX_EFFECTIVE_TARGET)
         # Multi-rate: a call of b units is blocked about b times as often as a one-unit call
@@ -283,7 +288,8 @@ def _sizing_loop(network, choices, options, progress, fallback=None,
         table = LossTable(loads, choices.installed, choices.module)
         res = solve_secant_milp(choices, table, routes, budgets, solver=options.solver,
                                 mip_gap=options.mip_gap, time_limit=options.time_limit,
-                                min_modules=kmin)
+                                min_modules=kmin, node_limit=LARGE_NODES if large else None,
+                                start=prev if large else None)
         seconds += res.seconds
         cuts = res.n_cuts
         bad = res.infeasible_demands
@@ -329,7 +335,23 @@ def _sizing_loop(network, choices, options, progress, fallback=None,
             if _settled(costs):
                 settled = True
                 break
+            how = _cost_settled(costs, res)
+            if how:  # a MILP stopped at its node limit (large networks only)
+                progress(None, f"the MILP cost has settled at {costs[-1]:g} in iteration "
+                         f"{it} ({how})")
+                settled = True
+                break
         else:
+            costs.append(choices.cost(k))
+            how = _cost_settled(costs, res)
+            if how:
+                # Plans of about equal cost that tie differently at loads still rising:
+                # settled in cost, which is what the local search and the bound need.
+                progress(None, f"the MILP cost has settled at {costs[-1]:g} in iteration "
+                         f"{it} ({how}); the capacities differ among plans of about that "
+                         "cost, and the local search starts from this one")
+                settled = True
+                break
             loads = new if it == 1 else np.maximum(loads, new)
         prev = k
     if not settled:
@@ -361,6 +383,24 @@ def _unsettled_what(alt):
 #: in each of the last _SETTLE_RUN iterations.
 _SETTLE_TOL = 1e-3
 _SETTLE_RUN = 3
+
+
+def _cost_settled(costs, res):
+    """Why the loop's MILP cost has settled ('' when it has not): it moved less
+    than :data:`_SETTLE_TOL` in each of the last :data:`_SETTLE_RUN` iterations, or, for a
+    MILP stopped at its work limit, less than that MILP's proven gap (objective less bound),
+    within which it cannot tell the two plans apart."""
+    if _settled(costs):
+        return (f"it moved less than {100 * _SETTLE_TOL:g} % in each of the last "
+                f"{_SETTLE_RUN} iterations")
+    if len(costs) >= 2 and res.status == "work-limit" and np.isfinite(res.bound):
+        proven = res.objective - res.bound
+        moved = abs(costs[-1] - costs[-2])
+        if moved <= proven:
+            return (f"it moved {100 * moved / max(costs[-1], 1e-12):.2g} %, less than the "
+                    f"{100 * proven / max(res.objective, 1e-12):.2g} % gap proven by the "
+                    "MILP, stopped at its node limit")
+    return ""
 
 
 def _settled(costs):

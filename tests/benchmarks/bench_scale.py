@@ -36,6 +36,7 @@ from __future__ import annotations
 
 import argparse
 import importlib.util
+import json
 import math
 import os
 import pathlib
@@ -121,13 +122,21 @@ def _cpu_of(pid):
         return 0.0
 
 
-def run_command(args, timeout):
+def run_command(args, timeout, stdout=None):
     """(wall seconds, processor seconds, peak MB, exit status or 'timeout') of
     ``python -m netdim ARGS``; stopped once it has used ``timeout`` processor seconds (or
-    four times that in wall time)."""
+    four times that in wall time). ``stdout``: a path its standard output goes to."""
     t0 = time.perf_counter()
-    proc = subprocess.Popen([sys.executable, "-m", "netdim", *args], stdout=subprocess.DEVNULL,
-                            stderr=subprocess.DEVNULL)
+    out = open(stdout, "w") if stdout else subprocess.DEVNULL
+    try:
+        return _wait(subprocess.Popen([sys.executable, "-m", "netdim", *args], stdout=out,
+                                      stderr=subprocess.DEVNULL), t0, timeout)
+    finally:
+        if stdout:
+            out.close()
+
+
+def _wait(proc, t0, timeout):
     while True:
         pid, status, usage = os.wait4(proc.pid, os.WNOHANG)
         if pid:
@@ -144,11 +153,11 @@ def run_command(args, timeout):
     return seconds, usage.ru_utime + usage.ru_stime, usage.ru_maxrss / 1024, proc.returncode
 
 
-def run_median(args, timeout, repeat):
+def run_median(args, timeout, repeat, stdout=None):
     """Median wall and processor seconds, the largest peak MB and the exit statuses of
     ``repeat`` runs (when a run was stopped: the wall seconds until then, and infinite
     processor seconds)."""
-    runs = [run_command(args, timeout) for _ in range(repeat)]
+    runs = [run_command(args, timeout, stdout) for _ in range(repeat)]
     peak = max(r[2] for r in runs)
     if any(r[3] == "timeout" for r in runs):  # the wall time until it was stopped
         return max(r[0] for r in runs), float("inf"), peak, "timeout"
@@ -187,7 +196,7 @@ def base_routing(repo):
 
 
 # -- sections --------------------------------------------------------------------------------
-def bench_goals(tmp, repeat, timeout, n_demands, repo):
+def bench_goals(tmp, repeat, timeout, n_demands, repo, size_repeat=1):
     print(f"\n== goals at 1000 sites ({n_demands} demands; medians of {repeat}; ratio = "
           "median / goal, under 1 meets it)")
     rows = []
@@ -199,11 +208,16 @@ def bench_goals(tmp, repeat, timeout, n_demands, repo):
     gen.write_text(backbone_text(1000, n_demands, max_routes=3))
     wall, cpu, mb, st = run_median(["check", str(gen)], timeout, repeat)
     rows.append(("check 1000 sites, 30k generated routes", wall, cpu, mb, f"exit {st}"))
+    plans = []
     for policy, k in (("fixed", 1), ("alternate", 2)):
         path = tmp / f"size-{policy}.yaml"
         path.write_text(backbone_text(1000, n_demands, policy=policy, max_routes=k))
-        wall, cpu, mb, st = run_median(["size", str(path), "--quiet", "--json"], timeout, 1)
-        rows.append((f"size {policy} 1000 / 30k", wall, cpu, mb, f"exit {st}, one run"))
+        out = tmp / f"size-{policy}.json"
+        wall, cpu, mb, st = run_median(["size", str(path), "--quiet", "--json"], timeout,
+                                       size_repeat, stdout=out)
+        rows.append((f"size {policy} 1000 / 30k", wall, cpu, mb,
+                     f"exit {st}, {size_repeat} run{'s' if size_repeat > 1 else ''}"))
+        plans.append((policy, out))
     print(f"{'goal':>40} {'wall s':>7} {'cpu s':>7} {'goal s':>6} {'ratio':>6} {'peak MB':>8} "
           f"{'goal MB':>8} {'ratio':>6}  note")
     for name, wall, cpu, mb, note in rows:
@@ -213,6 +227,16 @@ def bench_goals(tmp, repeat, timeout, n_demands, repo):
         rmb = "-" if (mb is None or goal_mb is None) else f"{mb / goal_mb:.2f}"
         print(f"{name:>40} {show_time(wall, 4 * timeout):>7} {show_time(cpu, timeout):>7} "
               f"{goal_s:>6.0f} {cpu / goal_s:>6.2f} {mb_text:>8} {gmb:>8} {rmb:>6}  {note}")
+    print(f"\n{'plan':>10} {'cost':>10} {'lower bound':>12} {'gap %':>6} {'iterations':>10}  "
+          "status")
+    for policy, out in plans:
+        try:
+            plan = json.loads(out.read_text())
+        except (OSError, ValueError):
+            print(f"{policy:>10} {'-':>10} {'-':>12} {'-':>6} {'-':>10}  no plan (stopped)")
+            continue
+        print(f"{policy:>10} {plan['cost']:>10.2f} {plan['lower_bound']:>12.2f} "
+              f"{100 * plan['gap']:>6.2f} {plan['iterations']:>10}  {plan['status']}")
 
     old = base_routing(repo)
     if old is None:
@@ -328,6 +352,8 @@ def main():
     ap.add_argument("--min-sites", type=int, default=300)
     ap.add_argument("--size-up-to", type=int, default=1250,
                     help="size the growth backbones up to this many sites")
+    ap.add_argument("--size-repeat", type=int, default=1,
+                    help="runs of each goal's `size` (default 1: they are long)")
     ap.add_argument("--repo", default=str(ROOT),
                     help="git checkout to read the base commit's route generator from")
     args = ap.parse_args()
@@ -337,7 +363,7 @@ def main():
         tmp = pathlib.Path(tmp)
         if args.only in (None, "goals"):
             bench_goals(tmp, args.repeat, args.timeout, 3000 if args.quick else 30000,
-                        args.repo)
+                        args.repo, args.size_repeat)
         if args.only in (None, "growth"):
             bench_growth(tmp, args.repeat, args.timeout,
                          1250 if args.quick else args.max_sites, 30, args.size_up_to,
