@@ -256,7 +256,7 @@ def bench_goals(tmp, repeat, timeout, n_demands, repo, size_repeat=1):
     print(f"{t_old:>10.2f} {t_new:>10.2f} {t_old / t_new:>10.2f}  {new_out == old_out}")
 
 
-def _steps(path, timeout, repeat, size=True):
+def _steps(path, timeout, repeat, size=True, failures=True):
     net = read_network(path, max_size=0)
     routes = sum(len(d.routes) for d in net.demands)
     out = {"sites": len(net.sites), "links": len(net.links), "demands": len(net.demands),
@@ -269,6 +269,9 @@ def _steps(path, timeout, repeat, size=True):
     # the plan where there is one (imported files have no capacities), else the file
     out["evaluate"] = run_median(["evaluate", str(plan if plan.exists() else path), "--json"],
                                  timeout, repeat)
+    if failures:  # every single-link cut, serial (so processor seconds count the work)
+        out["failures"] = run_median(["failures", str(plan if plan.exists() else path),
+                                      "--json", "--quiet"], timeout, 1)
     return out
 
 
@@ -291,25 +294,29 @@ def _header(first, steps):
           + " ".join(f"{s + ' s':>9} {'cpu s':>7} {'MB':>6}" for s in steps))
 
 
-def bench_growth(tmp, repeat, timeout, max_sites, per_site, size_up_to, min_sites=300):
+def bench_growth(tmp, repeat, timeout, max_sites, per_site, size_up_to, min_sites=300,
+                 failures_up_to=625):
     sizes = []
     n = max_sites
     while n >= min_sites:
         sizes.append(n)
         n //= 2
     sizes.sort()
-    steps = ["check", "size", "evaluate"]
+    steps = ["check", "size", "evaluate", "failures"]
     print(f"\n== growth: backbones by 2x steps, {per_site} demands a site, fixed routing, "
           f"max_routes 1 (medians of {repeat}; size one run, up to {size_up_to} sites; "
+          f"failures one run, every link cut, up to {failures_up_to} sites; "
           "'!' an exit status other than 0 or 1)")
     _header("network", steps)
     rows = []
     for n in sizes:
         path = tmp / f"growth-{n}.yaml"
-        path.write_text(backbone_text(n, per_site * n, total=3.0 * n))
+        # max_hops 40: at 5000 sites some pairs of this backbone are over 20 links apart
+        path.write_text(backbone_text(n, per_site * n, total=3.0 * n, max_hops=40))
         try:
-            row = _steps(path, timeout, repeat, size=n <= size_up_to)
-        except NetworkFileError as exc:  # at 5000 sites some pairs are over 20 links apart
+            row = _steps(path, timeout, repeat, size=n <= size_up_to,
+                         failures=n <= failures_up_to)
+        except NetworkFileError as exc:  # a pair further apart than max_hops, say
             print(f"{'backbone ' + str(n):>24} not read: {str(exc).splitlines()[0][:120]}")
             continue
         rows.append(row)
@@ -326,7 +333,7 @@ def bench_growth(tmp, repeat, timeout, max_sites, per_site, size_up_to, min_site
 
 
 def bench_real(tmp, repeat, timeout):
-    steps = ["import", "check", "size", "evaluate"]
+    steps = ["import", "check", "size", "evaluate", "failures"]
     print(f"\n== real topologies (Internet Topology Zoo, CC BY 4.0; networks/SOURCES.md): "
           f"import with gravity traffic of 3000 E, modules of 30, cost 10 + 0.02 per km a "
           f"module (medians of {repeat}; size one run)")
@@ -352,6 +359,9 @@ def main():
     ap.add_argument("--min-sites", type=int, default=300)
     ap.add_argument("--size-up-to", type=int, default=1250,
                     help="size the growth backbones up to this many sites")
+    ap.add_argument("--failures-up-to", type=int, default=625,
+                    help="run the failure study on the growth backbones up to this many "
+                    "sites (it evaluates once per link)")
     ap.add_argument("--size-repeat", type=int, default=1,
                     help="runs of each goal's `size` (default 1: they are long)")
     ap.add_argument("--repo", default=str(ROOT),
@@ -367,7 +377,7 @@ def main():
         if args.only in (None, "growth"):
             bench_growth(tmp, args.repeat, args.timeout,
                          1250 if args.quick else args.max_sites, 30, args.size_up_to,
-                         args.min_sites)
+                         args.min_sites, args.failures_up_to)
         if args.only in (None, "real"):
             bench_real(tmp, args.repeat, args.timeout)
 
