@@ -282,3 +282,12 @@ def test_two_fixed_point_solutions_that_disagree_make_a_demand_unclear():
     # verdict holds only where every solution of the equations agrees)
     both = ev([0.005, 0.5], alternative=ev([0.05, 0.6]))
     assert list(judge(both)) == ["unclear", "missed"]
+
+
+@pytest.mark.parametrize("links", [None, []])
+def test_the_json_written_row_by_row_is_the_json_of_the_whole_study(links):
+    # the reference is the standard library's json.dumps of the whole tree
+    study = failure_study(read_network(REGIONAL), links=links)
+    extra = {"diversity": {"required": 2, "short": []}}
+    assert "".join(study.json_chunks()) == json.dumps(study.to_dict(), indent=2)
+    assert "".join(study.json_chunks(extra)) == json.dumps(study.to_dict() | extra, indent=2)

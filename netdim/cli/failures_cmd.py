@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 import sys
 
 from netdim.cli._files import add_file_options, file_limits
@@ -83,11 +82,13 @@ def run(args) -> int:
     if args.csv:
         write_csv(args.csv, "failures.csv", *failures_csv(study))
     if args.json:
-        out = study.to_dict()
+        extra = {}
         if args.diversity is not None:
-            out["diversity"] = {"required": args.diversity,
-                                "short": [d.to_dict() for d in short]}
-        print(json.dumps(out, indent=2))
+            extra["diversity"] = {"required": args.diversity,
+                                  "short": [d.to_dict() for d in short]}
+        for chunk in study.json_chunks(extra):  # row by row: large studies are large
+            sys.stdout.write(chunk)
+        sys.stdout.write("\n")
     else:
         print(failures_text(study, title=f"{network.name} ({args.file})"), end="")
         if args.diversity is not None:

@@ -9,6 +9,8 @@ the verdict, while the others are judged as under a link failure.
 
 from __future__ import annotations
 
+import json
+import textwrap
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -25,6 +27,10 @@ __all__ = ["FailureRow", "FailureStudy", "failure_study", "fail_elements", "KIND
 
 #: What a row removes: nothing (the intact network), one link, or one site.
 KINDS = ("none", "link", "site")
+
+
+#: Stands for the rows in the JSON text until they are written one by one.
+_ROWS_MARK = "\x00rows of the study\x00"
 
 
 @dataclass(frozen=True)
@@ -197,12 +203,36 @@ class FailureStudy:
 
     def to_dict(self) -> dict:
         """The JSON form (``netdim failures --json``; keys are added, never renamed)."""
+        return self._dict([r.to_dict() for r in self.rows])
+
+    def json_chunks(self, extra=None):
+        """The text of ``json.dumps(self.to_dict() | extra, indent=2)``, piece by piece.
+
+        One row at a time is turned into JSON, so a large study (a row holds every demand)
+        is never held whole as Python objects: at 312 sites and 390 failures the whole
+        tree took gigabytes.
+        """
+        out = self._dict(_ROWS_MARK)
+        out.update(extra or {})
+        head, tail = json.dumps(out, indent=2).split(json.dumps(_ROWS_MARK))
+        yield head
+        if not self.rows:
+            yield "[]"
+        else:
+            yield "[\n"
+            for i, r in enumerate(self.rows):
+                text = textwrap.indent(json.dumps(r.to_dict(), indent=2), "    ")
+                yield text + (",\n" if i + 1 < len(self.rows) else "\n")
+            yield "  ]"
+        yield tail
+
+    def _dict(self, rows) -> dict:
         return {
             "network": self.network,
             "method": self.method,
             "failure_target": self.failure_target,
             "intact": self.intact.to_dict(),
-            "failures": [r.to_dict() for r in self.rows],
+            "failures": rows,
             "count": len(self.rows),
             "survivors": sum(r.survives for r in self.rows),
             "all_survive": self.all_survive,
