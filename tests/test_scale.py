@@ -121,3 +121,15 @@ def test_size_on_a_large_network_prints_the_busiest_links_first(tmp_path, capsys
     assert main(["size", path, "--quiet", "--all"]) == 0
     out, _ = capsys.readouterr()
     assert len(_table_rows(out, "L")) == 60 and "tables cut" not in out
+
+
+def test_failures_on_a_large_network_name_a_few_on_stderr(tmp_path, capsys):
+    # Each cut leaves its one demand with no route: lost, so every failure misses
+    # (common practice, no source: a demand with no route loses every call).
+    path = _many_links(tmp_path, capacity=20)
+    assert main(["failures", path, "--quiet"]) == 1
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and err[0].startswith("netdim failures: 60 of 60 failures leave a "
+                                               "demand over its target: ")
+    assert err[0].endswith(" and 40 more (--csv or --json lists every failure)")
+    assert err[0].count(", ") == 19

@@ -6,7 +6,7 @@ to the text builders (None: every row). CSV and JSON outputs are always whole.
 
 from __future__ import annotations
 
-__all__ = ["ROWS_SHOWN", "add_rows_option", "rows_note", "rows_shown"]
+__all__ = ["NAMES_SHOWN", "ROWS_SHOWN", "add_rows_option", "rows_note", "rows_shown", "some_names"]
 
 #: Rows per table printed without --all; a larger table shows its worst rows.
 ROWS_SHOWN = 40
@@ -31,3 +31,16 @@ def rows_note(args, *counts) -> str:
         return ""
     return (f"(tables cut to their worst {limit} rows; --all prints every row, --csv and "
             "--json hold every row)")
+
+
+#: Names given on a stderr line of missed (or unclear) items; the rest are counted.
+NAMES_SHOWN = 20
+
+
+def some_names(ids, every="demand") -> str:
+    """``ids`` joined by commas, or the first :data:`NAMES_SHOWN` and a count of the rest."""
+    ids = list(ids)
+    if len(ids) <= NAMES_SHOWN:
+        return ", ".join(ids)
+    return (", ".join(ids[:NAMES_SHOWN]) + f" and {len(ids) - NAMES_SHOWN} more "
+            f"(--csv or --json lists every {every})")

@@ -7,7 +7,7 @@ import sys
 import time
 
 from netdim.cli._files import add_file_options, file_limits
-from netdim.cli._rows import add_rows_option, rows_note, rows_shown
+from netdim.cli._rows import add_rows_option, rows_note, rows_shown, some_names
 from netdim.cli.report_cmd import add_report_options, check_report_args, write_evaluation_report
 from netdim.evaluate import (
     COMPARE_OPTIONS,
@@ -152,17 +152,6 @@ def _check_flags(args, method):
     return given
 
 
-#: Demands named on the stderr line of missed (or unclear) ones; the rest are counted.
-_NAMES_SHOWN = 20
-
-
-def _names(ids) -> str:
-    if len(ids) <= _NAMES_SHOWN:
-        return ", ".join(ids)
-    return (", ".join(ids[:_NAMES_SHOWN]) + f" and {len(ids) - _NAMES_SHOWN} more "
-            "(--csv or --json lists every demand)")
-
-
 def _report_verdicts(ids, verdicts) -> int:
     """Name the missed and the unclear demands on stderr; the exit status."""
     n = len(ids)
@@ -170,11 +159,11 @@ def _report_verdicts(ids, verdicts) -> int:
     unclear = [i for i, v in zip(ids, verdicts, strict=True) if v == Verdict.UNCLEAR.value]
     of = f"of {n} demand{'' if n == 1 else 's'}"
     if missed:
-        print(f"netdim evaluate: {len(missed)} {of} missed the target: {_names(missed)}",
+        print(f"netdim evaluate: {len(missed)} {of} missed the target: {some_names(missed)}",
               file=sys.stderr)
     if unclear:
         print(f"netdim evaluate: {len(unclear)} {of} unclear (the interval contains the "
-              f"target): {_names(unclear)}", file=sys.stderr)
+              f"target): {some_names(unclear)}", file=sys.stderr)
     return 1 if missed or unclear else 0
 
 

@@ -5,6 +5,7 @@ from __future__ import annotations
 import sys
 
 from netdim.cli._files import add_file_options, file_limits
+from netdim.cli._rows import some_names
 from netdim.cli._study_options import add_common, fraction, id_list, positive_int, progress_for
 from netdim.cli.report_cmd import add_report_options, check_report_args, write_sections_report
 from netdim.evaluate import METHODS
@@ -95,21 +96,21 @@ def run(args) -> int:
             print(diversity_text(short, args.diversity))
     if short:
         print(f"netdim failures: {len(short)} demands have fewer than {args.diversity} "
-              f"link-disjoint routes: {', '.join(d.demand for d in short)}", file=sys.stderr)
+              f"link-disjoint routes: {some_names([d.demand for d in short])}", file=sys.stderr)
     bad = [r.element for r in study.rows if str(r.verdict) == "missed"]
     if bad:
         print(f"netdim failures: {len(bad)} of {len(study.rows)} failures leave a demand over "
-              f"its target: {', '.join(bad)}", file=sys.stderr)
+              f"its target: {some_names(bad, 'failure')}", file=sys.stderr)
         return 1
     if short:
         return 1
     if study.not_converged:
-        print(f"netdim failures: did not converge for {', '.join(study.not_converged)}",
+        print(f"netdim failures: did not converge for {some_names(study.not_converged, 'failure')}",
               file=sys.stderr)
         return 3
     unclear = [r.element for r in study.rows if str(r.verdict) == "unclear"]
     if unclear:
         print(f"netdim failures: unclear (an interval contains the target, or two fixed-point "
-              f"solutions disagree): {', '.join(unclear)}", file=sys.stderr)
+              f"solutions disagree): {some_names(unclear, 'failure')}", file=sys.stderr)
         return 1
     return 0

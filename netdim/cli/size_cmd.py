@@ -6,7 +6,7 @@ import json
 import sys
 
 from netdim.cli._files import add_file_options, file_limits
-from netdim.cli._rows import add_rows_option, rows_note, rows_shown
+from netdim.cli._rows import add_rows_option, rows_note, rows_shown, some_names
 from netdim.cli._survive import add_survive_options, run_survivable
 from netdim.cli.report_cmd import add_report_options, check_report_args, write_plan_report
 from netdim.dimension import (
@@ -173,7 +173,7 @@ def run(args) -> int:
     for w in plan.warnings:
         print(f"netdim size: warning: {w}", file=sys.stderr)
     if not plan.feasible:
-        names = ", ".join(plan.evaluation.unmet)
+        names = some_names(plan.evaluation.unmet)
         print(f"netdim size: targets not met for {names}", file=sys.stderr)
         return 1
     if not plan.rules_met:
@@ -182,11 +182,11 @@ def run(args) -> int:
                 print(f"netdim size: design rule not met: {r.why}", file=sys.stderr)
         return 1
     if plan.simulated_misses:
-        names = ", ".join(plan.simulated_misses)
+        names = some_names(plan.simulated_misses)
         print(f"netdim size: targets not met in simulation for {names}", file=sys.stderr)
         return 1
     if plan.simulated_unclear:
-        names = ", ".join(plan.simulated_unclear)
+        names = some_names(plan.simulated_unclear)
         print(f"netdim size: unclear in simulation (interval contains the target): {names}",
               file=sys.stderr)
     return 0
