@@ -133,3 +133,12 @@ def test_failures_on_a_large_network_name_a_few_on_stderr(tmp_path, capsys):
                                                "demand over its target: ")
     assert err[0].endswith(" and 40 more (--csv or --json lists every failure)")
     assert err[0].count(", ") == 19
+
+
+def test_the_time_line_of_size_covers_the_whole_command(tmp_path, capsys):
+    path = _many_links(tmp_path, n=3)
+    assert main(["size", path, "--quiet"]) == 0
+    out = capsys.readouterr().out
+    m = re.search(r"(?m)^time +(\d+\.\d) s  \(the whole command; sizing (\d+\.\d) s\)$", out)
+    assert m, out
+    assert float(m.group(1)) >= float(m.group(2))

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import sys
+import time
 
 from netdim.cli._files import add_file_options, file_limits
 from netdim.cli._rows import add_rows_option, rows_note, rows_shown, some_names
@@ -129,6 +130,7 @@ def _options(args, model="fixed-point"):
 
 
 def run(args) -> int:
+    t_command = time.perf_counter()
     _options(args, args.model or "fixed-point")  # bad options before any reading
     if args.out:  # before any work: a plan that cannot be written is not worth sizing
         check_plan_path(args.file, args.out, args.force)
@@ -163,10 +165,12 @@ def run(args) -> int:
     if args.json:
         print(json.dumps(plan.to_dict(), indent=2))
     elif plan.details.get("day"):
-        print(day_plan_text(format_plan(plan, max_rows=rows_shown(args), kind=args.kind),
+        print(day_plan_text(format_plan(plan, max_rows=rows_shown(args), kind=args.kind,
+                                        seconds=time.perf_counter() - t_command),
                             plan).rstrip("\n"))
     else:
-        print(format_plan(plan, max_rows=rows_shown(args), kind=args.kind))
+        print(format_plan(plan, max_rows=rows_shown(args), kind=args.kind,
+                          seconds=time.perf_counter() - t_command))
     note = rows_note(args, len(plan.capacities), len(plan.evaluation.demand_ids))
     if note and not args.json:
         print(note)
