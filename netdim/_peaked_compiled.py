@@ -314,6 +314,47 @@ def link_kernel(f, o, ov, caps, thr, smooth_rtol, eq_o, eq_l, use_table, qa, qn,
             lost_z[j, c] = max(1.0 - mo + a / (n + srv + 1.0 - a + mo), 1.0)
             logb[j, c] = min(math.log(a) + lec - math.log(tm), 0.0)
 
+@jit
+def stream_peakedness(m, b, zo, step_factor, step_route, slot, blocks, group, n_routes,
+                      n_groups, out):  # pragma: no cover - compiled
+    # netdim.evaluate.peaked_fixed_point._Problem.peakedness: per block (a route and the
+    # route before), every step of it with every step of the one before, in the order of
+    # the pair numbering of ``group``; sums in that order, as np.bincount would make them.
+    ns = m.size
+    lost = np.empty(ns)
+    tot = np.zeros(n_routes)
+    src_rate = np.zeros(zo.size)
+    for s in range(ns):
+        lost[s] = m[s] * b[s] / step_factor[s]
+        tot[step_route[s]] += lost[s]
+        src_rate[slot[s]] += lost[s]
+    w = np.zeros(ns)
+    for s in range(ns):
+        t = tot[step_route[s]]
+        if t > 0.0:
+            w[s] = lost[s] / t
+    share = np.zeros(n_groups)
+    p = 0
+    for q in range(blocks.shape[0]):
+        for s in range(blocks[q, 0], blocks[q, 1]):
+            ms = m[s] / step_factor[s]
+            for k in range(blocks[q, 2], blocks[q, 3]):
+                src = src_rate[slot[k]]
+                if src > 0.0:
+                    share[group[p]] += ms * w[k] / src
+                p += 1
+    for g in range(n_groups):
+        share[g] = min(share[g], 1.0)
+    acc = np.zeros(ns)
+    p = 0
+    for q in range(blocks.shape[0]):
+        for s in range(blocks[q, 0], blocks[q, 1]):
+            for k in range(blocks[q, 2], blocks[q, 3]):
+                acc[s] += w[k] * (share[group[p]] * (zo[slot[k]] - 1.0))
+                p += 1
+    for s in range(ns):
+        out[s] = 1.0 + acc[s]
+
 
 KERNELS = {"log_erlang": log_erlang_vec, "chain": chain_vec, "link": link_kernel,
-           "log_e": log_e}
+           "log_e": log_e, "peakedness": stream_peakedness}

@@ -236,3 +236,45 @@ def test_zero_capacity_and_zero_traffic(triangle):
     assert 0.0 < ev.blocking[0] < 1.0  # its demand still has the two-link route
     idle = peaked_fixed_point(net.scaled(0.0))
     assert np.all(idle.blocking == 0.0)
+
+
+def _peakedness_by_bincount(pb, m, b, zo):
+    """The stream peakedness written out with np.bincount over the pair arrays: the rule of
+    ``_Problem.peakedness`` (random splitting of each link's lost stream, Wilkinson 1956's
+    peakedness of a random part ``1 + P (Z - 1)``), computed here independently of the
+    compiled kernel."""
+    pair_step = np.array([s for a, e, c, d in pb.pair_blocks for s in range(a, e)
+                          for _ in range(c, d)], dtype=np.int64)
+    pair_src = np.array([k for a, e, c, d in pb.pair_blocks for _ in range(a, e)
+                         for k in range(c, d)], dtype=np.int64)
+    src_slot = pb.slot[pair_src]
+    lost = m * b / pb.step_factor
+    tot = np.bincount(pb.step_route, weights=lost, minlength=pb.n_routes)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        w = np.where(tot[pb.step_route] > 0,
+                     lost / np.where(tot > 0, tot, 1.0)[pb.step_route], 0.0)
+        src_rate = np.bincount(pb.slot, weights=lost, minlength=2 * pb.n_links)
+        src = src_rate[src_slot]
+        part = (m / pb.step_factor)[pair_step] * w[pair_src]
+        frac = np.where(src > 0, part / np.where(src > 0, src, 1.0), 0.0)
+    share = np.minimum(np.bincount(pb.pair_group, weights=frac, minlength=pb.n_groups), 1.0)
+    zp = share[pb.pair_group] * (zo.reshape(-1)[src_slot] - 1.0)
+    return 1.0 + np.bincount(pair_step, weights=w[pair_src] * zp, minlength=pb.n_steps)
+
+
+def test_compiled_stream_peakedness_equals_the_bincount_form():
+    # Source: the same arithmetic in numpy (above), summed in the same order: equal to the
+    # last bit on the bundled alternate-routing network at random stream states.
+    from netdim.evaluate.peaked_fixed_point import _Problem
+
+    net = read_network(f"{NETWORKS}/regional-telephone.yaml")
+    pb = _Problem(net, net.capacities(), "ipp", "table")
+    assert pb.overflow and len(pb.pair_group) > 0
+    rng = np.random.default_rng(7)
+    for _ in range(3):
+        m = rng.uniform(0.0, 5.0, pb.n_steps)
+        b = rng.uniform(0.0, 0.3, pb.n_steps) * (rng.random(pb.n_steps) > 0.2)
+        zo = rng.uniform(1.0, 3.0, (pb.n_links, 2))
+        assert np.array_equal(pb.peakedness(m, b, zo), _peakedness_by_bincount(pb, m, b, zo))
+    zero = np.zeros(pb.n_steps)
+    assert np.array_equal(pb.peakedness(m, zero, zo), np.ones(pb.n_steps))

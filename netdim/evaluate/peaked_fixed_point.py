@@ -36,6 +36,7 @@ from dataclasses import replace
 
 import numpy as np
 
+from netdim._peaked_kernels import stream_peakedness
 from netdim.erlang import erlang_b
 from netdim.errors import ConvergenceError
 from netdim.evaluate.result import Evaluation
@@ -130,26 +131,31 @@ def _build_static(network):
 
 def _pairs(st, inc):
     """Static (step, step of the route before) pairs: a step's stream is made of parts of
-    what each step of the demand's previous route loses. ``pair_group`` numbers the distinct
-    (link of the step, link and class of the source step) combinations."""
+    what each step of the demand's previous route loses.
+
+    The pairs of one route are every step of it with every step of the route before, so
+    they are kept as blocks ``pair_blocks`` (per route of rank 1 and up: its first and end
+    step, and the previous route's), pairs in order step by step, each step with the
+    previous route's steps in order. ``pair_group`` numbers, per pair in that order, the
+    distinct (link of the step, link and class of the source step) combinations.
+    """
     first = np.searchsorted(st["step_route"], np.arange(inc.n_routes))
     last = np.append(first[1:], len(st["step_route"]))
-    steps, srcs = [], []
-    for idx in st["rank_routes"]:
-        for r in idx:
-            here = np.arange(first[r], last[r])
-            before = np.arange(first[r - 1], last[r - 1])
-            steps.append(np.repeat(here, len(before)))
-            srcs.append(np.tile(before, len(here)))
-    cat = (lambda x: np.concatenate(x).astype(np.int64)) if steps else (
-        lambda x: np.zeros(0, np.int64))
-    st["pair_step"] = pair_step = cat(steps)
-    st["pair_src"] = pair_src = cat(srcs)
-    st["pair_src_slot"] = src_slot = st["slot"][pair_src]
-    key = st["step_link"][pair_step] * (2 * st["n_links"]) + src_slot
-    _, st["pair_group"] = np.unique(key, return_inverse=True)
-    st["pair_group"] = st["pair_group"].astype(np.int64).reshape(-1)
-    st["n_groups"] = int(st["pair_group"].max()) + 1 if len(key) else 0
+    alt = (np.concatenate(st["rank_routes"]).astype(np.int64) if st["rank_routes"]
+           else np.zeros(0, np.int64))
+    blocks = np.stack([first[alt], last[alt], first[alt - 1], last[alt - 1]], axis=1)
+    st["pair_blocks"] = blocks = blocks.reshape(-1, 4).astype(np.int64)
+    n_here, n_before = blocks[:, 1] - blocks[:, 0], blocks[:, 3] - blocks[:, 2]
+    # the pairs' steps and source steps, only to number the groups (not kept)
+    pair_step = np.repeat(np.concatenate([np.arange(a, b) for a, b in blocks[:, :2]])
+                          if len(blocks) else np.zeros(0, np.int64),
+                          np.repeat(n_before, n_here))
+    pair_src = (np.concatenate([np.tile(np.arange(c, d), b - a) for a, b, c, d in blocks])
+                if len(blocks) else np.zeros(0, np.int64))
+    key = st["step_link"][pair_step] * (2 * st["n_links"]) + st["slot"][pair_src]
+    _, group = np.unique(key, return_inverse=True)
+    st["pair_group"] = group.reshape(-1).astype(np.int32 if len(key) < 2**31 else np.int64)
+    st["n_groups"] = int(group.max()) + 1 if len(key) else 0
 
 
 def _capacities(network, capacities):
@@ -223,20 +229,11 @@ class _Problem:
         ``1 + P (Z_o - 1)`` (random splitting). A step's stream meets the blocking of its
         parts' bursts as they arrive together, not as independent parcels.
         """
-        lost_rate = m * b / self.step_factor
-        tot = np.bincount(self.step_route, weights=lost_rate, minlength=self.n_routes)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            w = np.where(tot[self.step_route] > 0,
-                         lost_rate / np.where(tot > 0, tot, 1.0)[self.step_route], 0.0)
-            src_rate = np.bincount(self.slot, weights=lost_rate, minlength=2 * self.n_links)
-            src = src_rate[self.pair_src_slot]
-            part = (m / self.step_factor)[self.pair_step] * w[self.pair_src]
-            frac = np.where(src > 0, part / np.where(src > 0, src, 1.0), 0.0)
-        share = np.minimum(np.bincount(self.pair_group, weights=frac,
-                                       minlength=self.n_groups), 1.0)
-        zp = share[self.pair_group] * (zo.reshape(-1)[self.pair_src_slot] - 1.0)
-        return 1.0 + np.bincount(self.pair_step, weights=w[self.pair_src] * zp,
-                                 minlength=self.n_steps)
+        # compiled passes over the pairs, block by block (netdim._peaked_kernels): the same
+        # sums as np.bincount over arrays of the pairs would give, in the same order
+        return stream_peakedness(m, b, zo, self.step_factor, self.step_route, self.slot,
+                                 self.pair_blocks, self.pair_group, self.n_routes,
+                                 self.n_groups)
 
     # -- stream moments -> stream blocking --------------------------------------------------
     def link_state(self, m, z):
