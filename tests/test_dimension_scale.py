@@ -15,6 +15,7 @@ from __future__ import annotations
 import functools
 import itertools
 import math
+from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -23,7 +24,12 @@ from test_dimension_small import TRIANGLE, TRIANGLE_COSTS, TRIANGLE_TARGETS, sea
 from netdim.dimension import SOLVERS, SizingChoices, dimension, sizer
 from netdim.dimension import secant_milp as secant
 from netdim.dimension.choices import LossTable, first_route_loads
-from netdim.dimension.local_search import SEARCH_EVALUATIONS, search_evaluations
+from netdim.dimension.local_search import (
+    SEARCH_EVALUATIONS,
+    TRIAL_TOL_RANGE,
+    search_evaluations,
+    trial_tolerance,
+)
 from netdim.dimension.secant_milp import solve_secant_milp
 from netdim.model import Demand, Link, Network, Route, Site
 
@@ -219,3 +225,31 @@ def test_search_evaluations_rule_of_size():
     assert search_evaluations(5000) == SEARCH_EVALUATIONS
     assert search_evaluations(30_000) == 100
     assert search_evaluations(10**7) == 60
+
+
+def _with_target(net, target):
+    return Network(net.name, net.sites, net.links,
+                   tuple(replace(d, target=target) for d in net.demands), routing=net.routing)
+
+
+def test_trial_tolerance_rule_of_the_targets():
+    # The rule of local_search.TRIAL_RTOL: 1e-5 of the smallest target, within the range.
+    net = triangle()
+    assert trial_tolerance(_with_target(net, 0.01)) == pytest.approx(1e-7)
+    assert trial_tolerance(_with_target(net, 0.001)) == pytest.approx(1e-8)
+    assert trial_tolerance(_with_target(net, 1e-7)) == TRIAL_TOL_RANGE[0]
+    assert trial_tolerance(_with_target(net, 0.4)) == TRIAL_TOL_RANGE[1]
+
+
+@pytest.mark.parametrize("name", ["regional-telephone", "three-villages"])
+def test_plan_is_evaluated_at_the_methods_own_tolerance(name):
+    # The search reads its trials to trial_tolerance; the plan's figures must be those of a
+    # fresh evaluation at the method's default tolerance (netdim.evaluate, same method).
+    from netdim.evaluate import evaluate
+    from netdim.netfile import read_network
+
+    net = read_network(f"networks/{name}.yaml")
+    plan = dimension(net, model="peaked-fixed-point")
+    fresh = evaluate(plan.network, plan.capacities, method="peaked-fixed-point")
+    assert np.array_equal(plan.evaluation.blocking, fresh.blocking)
+    assert plan.evaluation.all_met and fresh.all_met

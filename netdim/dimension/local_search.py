@@ -26,7 +26,8 @@ from netdim.evaluate import Evaluation, evaluate
 from netdim.evaluate.peaked_fixed_point import METHOD as PEAKED
 
 __all__ = ["CachedEvaluator", "SearchResult", "repair", "trim", "move", "local_search",
-           "search_and_check", "min_modules", "evaluation_method", "search_evaluations"]
+           "search_and_check", "min_modules", "evaluation_method", "search_evaluations",
+           "trial_tolerance"]
 
 #: Evaluations of the trim and move passes (at most :data:`SEARCH_EVALUATIONS`) times
 #: demands: a large network's passes get fewer evaluations, each costing in proportion to
@@ -44,6 +45,22 @@ def search_evaluations(n_demands) -> int:
                    max(MIN_SEARCH_EVALUATIONS, SEARCH_WORK // max(int(n_demands), 1))))
 
 
+#: Tolerance of the search's evaluations, relative to the smallest target: a trial plan
+#: differs from the last by a module or two, and whether it meets the targets is read to
+#: this accuracy; the plan the search ends with is evaluated afresh at the method's own
+#: tolerance, and repaired if that disagrees (:func:`search_and_check`).
+TRIAL_RTOL = 1e-5
+#: The search's tolerance stays within these (the fixed points' own default is the floor).
+TRIAL_TOL_RANGE = (1e-10, 1e-7)
+
+
+def trial_tolerance(network) -> float:
+    """Tolerance of the local search's evaluations of ``network`` (see :data:`TRIAL_RTOL`)."""
+    targets = [d.target for d in network.demands if d.target is not None and d.target > 0]
+    lo, hi = TRIAL_TOL_RANGE
+    return float(min(max(TRIAL_RTOL * min(targets, default=0.0), lo), hi))
+
+
 #: Seconds the trim and move passes may take (a safety stop: the passes are bounded in
 #: evaluations; repair is never cut short).
 SEARCH_SECONDS = 120.0
@@ -56,9 +73,14 @@ def evaluation_method(model) -> str:
 
 
 class CachedEvaluator:
-    """Evaluation of an integer module vector under one method, counting calls."""
+    """Evaluation of an integer module vector under one method, counting calls.
 
-    def __init__(self, network, choices: SizingChoices, method, warm=True):
+    ``warm``: each evaluation under a fixed point starts from the last one's solution;
+    ``tol``: the fixed points' tolerance for those warm-started evaluations (None: the
+    method's own), as the local search's trials use :func:`trial_tolerance`.
+    """
+
+    def __init__(self, network, choices: SizingChoices, method, warm=True, tol=None):
         self.network = network
         self.choices = choices
         self.method = method
@@ -68,6 +90,9 @@ class CachedEvaluator:
         # starting from its link blockings solves once and in few sweeps. The final plan is
         # evaluated afresh (both starts) by the caller.
         self.warm = warm and method in ("fixed-point", PEAKED)
+        # ``tol``: the local search's trials read the targets to trial_tolerance (a fresh
+        # evaluation of the plan it ends with keeps the method's own)
+        self._opts = {"tol": float(tol)} if tol is not None and self.warm else {}
         self._last = None
         self._links_demands = None
 
@@ -76,7 +101,9 @@ class CachedEvaluator:
         ev = self._cache.get(key)
         if ev is None:
             self.calls += 1
-            opts = {"start": self._last} if self.warm and self._last is not None else {}
+            opts = dict(self._opts)
+            if self.warm and self._last is not None:
+                opts["start"] = self._last
             ev = evaluate(self.network, self.choices.capacity(modules), method=self.method,
                           **opts)
             self._last = ev
@@ -322,7 +349,7 @@ def search_and_check(network, choices: SizingChoices, modules, kmin, model, sear
     """
     progress = progress or silent
     method = evaluation_method(model)
-    evaluator = CachedEvaluator(network, choices, method)
+    evaluator = CachedEvaluator(network, choices, method, tol=trial_tolerance(network))
     stuck: list[int] = []
     k = np.asarray(modules, np.int64)
     stopped = False
