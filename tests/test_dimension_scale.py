@@ -15,7 +15,6 @@ from __future__ import annotations
 import functools
 import itertools
 import math
-from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -23,6 +22,7 @@ from test_dimension_small import TRIANGLE, TRIANGLE_COSTS, TRIANGLE_TARGETS, sea
 
 from netdim.dimension import SOLVERS, SizingChoices, dimension, sizer
 from netdim.dimension import secant_milp as secant
+from netdim.dimension.calibrate import with_targets
 from netdim.dimension.choices import LossTable, first_route_loads
 from netdim.dimension.local_search import (
     SEARCH_EVALUATIONS,
@@ -228,8 +228,7 @@ def test_search_evaluations_rule_of_size():
 
 
 def _with_target(net, target):
-    return Network(net.name, net.sites, net.links,
-                   tuple(replace(d, target=target) for d in net.demands), routing=net.routing)
+    return with_targets(net, [target] * len(net.demands))
 
 
 def test_trial_tolerance_rule_of_the_targets():
